@@ -1,0 +1,6 @@
+"""Seeded noise for whitegauge: seeds and block streams, Gaussian cell and interval
+integrals of white noise on grids, Gaussian vectors with a given covariance, and formal
+(Wick) Gaussians for indefinite covariances.
+
+This layer knows nothing about groups or loops.
+"""
