@@ -1,0 +1,403 @@
+"""Monte Carlo Wilson loops: fields, problems, blocks.
+
+A :class:`WilsonProblem` fixes everything a run needs (group, field, loops,
+representation, samples, block size, seed). :func:`run_block` computes the partial sums
+of one block; block ``b`` draws from ``SeedSequence(seed, spawn_key=(b,))``, so results
+are bitwise identical however the blocks are scheduled. :func:`estimate_wilson_loops`
+runs all blocks, on an optional :class:`concurrent.futures.Executor`.
+
+Two paths compute the same laws:
+
+``dense``
+    draws every cell's noise on the grid (in the original frame, so the same seed gives
+    the same field in both gauges) and forms interval variables from it. All schemes.
+``perimeter``
+    draws the interval variables directly (Gaussian interval sums for ``linear``,
+    heat-kernel samples of the interval's time for ``heat``). Its cost grows with the
+    loops' perimeter, not their area.
+
+``auto`` picks ``perimeter`` where the scheme allows it.
+"""
+
+from __future__ import annotations
+
+import math
+import numbers
+from concurrent.futures import Executor
+from dataclasses import dataclass, field
+from functools import cached_property
+from typing import Sequence
+
+import numpy as np
+
+from discretize import AreaForm, Grid, axial_plan
+from discretize._axial import GAUGES, frame_cells
+from noise import block_rng, cell_noise, interval_sums
+
+from ._estimate import BlockSums, EstimateResult, combine_blocks
+from ._schemes import get_scheme
+from .groups import make_group
+
+__all__ = ["Field", "WilsonProblem", "run_block", "estimate_wilson_loops",
+           "PATHS", "ordered_product_tree"]
+
+PATHS = ("auto", "perimeter", "dense")
+
+
+def _positive(value, name: str) -> float:
+    if isinstance(value, bool) or not isinstance(value, numbers.Real):
+        raise TypeError(f"`{name}` must be a positive number, got {value!r}.")
+    value = float(value)
+    if not (math.isfinite(value) and value > 0):
+        raise ValueError(f"`{name}` must be a positive finite number, got {value!r}.")
+    return value
+
+
+def _count(value, name: str) -> int:
+    if isinstance(value, bool) or not isinstance(value, numbers.Integral):
+        raise TypeError(f"`{name}` must be an integer >= 1, got {value!r}.")
+    if value < 1:
+        raise ValueError(f"`{name}` must be an integer >= 1, got {value!r}.")
+    return int(value)
+
+
+@dataclass(frozen=True)
+class Field:
+    """A white-noise gauge field: coupling, lattice spacing, gauge, scheme, area form.
+
+    Parameters
+    ----------
+    coupling : float
+        lambda > 0: each cell integral is N(0, lambda mu(cell)) per component.
+    spacing : float
+        Lattice spacing h > 0.
+    gauge : {"axial-y", "axial-x"}
+    reference : float, optional
+        The reference line (y for axial-y, x for axial-x); default: the lowest
+        (leftmost) point of all loops.
+    scheme : {"heat", "linear", "gauss", "wilson"} or Scheme subclass
+    area : AreaForm
+        The area measure mu (Lebesgue by default).
+    """
+
+    coupling: float
+    spacing: float
+    gauge: str = "axial-y"
+    reference: float | None = None
+    scheme: str = "heat"
+    area: AreaForm = field(default_factory=AreaForm)
+
+    def __post_init__(self):
+        object.__setattr__(self, "coupling", _positive(self.coupling, "coupling"))
+        object.__setattr__(self, "spacing", _positive(self.spacing, "spacing"))
+        if self.gauge not in GAUGES:
+            raise ValueError(f"`gauge` must be one of {GAUGES}, got {self.gauge!r}.")
+        get_scheme(self.scheme)  # validates the name
+        if not isinstance(self.area, AreaForm):
+            raise TypeError(f"`area` must be a discretize.AreaForm, got {self.area!r}.")
+
+
+def ordered_product_tree(factors: np.ndarray) -> np.ndarray:
+    """Ordered product F_1 F_2 ... F_m over axis -3 by pairwise (tree) reduction.
+
+    Uses O(log m) batched matrix products instead of m sequential ones.
+    """
+    f = factors
+    while f.shape[-3] > 1:
+        m = f.shape[-3]
+        paired = f[..., 0:m - 1:2, :, :] @ f[..., 1:m:2, :, :]
+        f = np.concatenate([paired, f[..., m - 1:, :, :]], axis=-3) if m % 2 else paired
+    return f[..., 0, :, :]
+
+
+@dataclass(frozen=True)
+class WilsonProblem:
+    """Everything one Monte Carlo run of Wilson loops needs; picklable and frozen.
+
+    ``loops`` are :class:`discretize.Loop` polygons (snapped to the lattice of the
+    field's spacing) or :class:`discretize.LatticeLoop` objects sharing one grid.
+    """
+
+    family: str
+    n: int
+    metric: str | float
+    field: Field
+    loops: tuple
+    names: tuple = ()
+    rep: str = "fundamental"
+    samples: int = 10000
+    block: int = 4096
+    seed: int = 0
+    path: str = "auto"
+
+    def __post_init__(self):
+        object.__setattr__(self, "loops", tuple(self.loops))
+        if not self.loops:
+            raise ValueError("`loops` is empty: give at least one loop.")
+        names = tuple(self.names) or tuple(f"loop{i}" for i in range(len(self.loops)))
+        if len(names) != len(self.loops):
+            raise ValueError(
+                f"`names` must have one name per loop ({len(self.loops)}), got {len(names)}."
+            )
+        if len(set(names)) != len(names):
+            raise ValueError(f"`names` must be distinct, got {names!r}.")
+        object.__setattr__(self, "names", names)
+        object.__setattr__(self, "samples", _count(self.samples, "samples"))
+        object.__setattr__(self, "block", _count(self.block, "block"))
+        if isinstance(self.seed, bool) or not isinstance(self.seed, numbers.Integral) or self.seed < 0:
+            raise ValueError(f"`seed` must be a non-negative integer, got {self.seed!r}.")
+        if self.path not in PATHS:
+            raise ValueError(f"`path` must be one of {PATHS}, got {self.path!r}.")
+        if not isinstance(self.field, Field):
+            raise TypeError(f"`field` must be a holonomy.Field, got {self.field!r}.")
+        if self.field.area.signed:
+            raise ValueError(
+                "`field.area` has a negative density: the covariance is indefinite and no "
+                "measure exists to sample; evaluate it formally instead (whitegauge series, "
+                "holonomy.lattice_series, noise.FormalGaussian)."
+            )
+        scheme = get_scheme(self.field.scheme)
+        scheme.check(self.group)
+        if self.path == "perimeter" and not scheme.perimeter:
+            raise ValueError(
+                f"`path`='perimeter' is not available for scheme {scheme.name!r}; "
+                "use 'dense' or 'auto'."
+            )
+        self.group.rep(self.rep)  # validates the representation
+        _ = self.plan  # validates the loops against the grid
+
+    # -- derived objects (cached per process) -----------------------------------------
+    @cached_property
+    def group(self):
+        return make_group(self.family, self.n, self.metric)
+
+    @cached_property
+    def scheme(self):
+        return get_scheme(self.field.scheme)
+
+    @cached_property
+    def representation(self):
+        return self.group.rep(self.rep)
+
+    @cached_property
+    def grid(self) -> Grid:
+        from discretize import LatticeLoop
+
+        lattice = [lp for lp in self.loops if isinstance(lp, LatticeLoop)]
+        if lattice:
+            grid = lattice[0].grid
+            if len(lattice) != len(self.loops) or any(lp.grid != grid for lp in lattice):
+                raise ValueError("`loops` must be all polygons or all lattice loops on one grid.")
+            return grid
+        boxes = np.array([lp.bbox for lp in self.loops], float)
+        xmin, ymin = boxes[:, 0].min(), boxes[:, 1].min()
+        xmax, ymax = boxes[:, 2].max(), boxes[:, 3].max()
+        ref = self.field.reference
+        if ref is not None:
+            if self.field.gauge == "axial-y":
+                ymin, ymax = min(ymin, ref), max(ymax, ref)
+            else:
+                xmin, xmax = min(xmin, ref), max(xmax, ref)
+        return Grid.covering((xmin, ymin, xmax, ymax), self.field.spacing, margin=1)
+
+    @cached_property
+    def lattice_loops(self) -> tuple:
+        from discretize import LatticeLoop
+
+        return tuple(lp if isinstance(lp, LatticeLoop) else lp.snap(self.grid)
+                     for lp in self.loops)
+
+    @cached_property
+    def plan(self):
+        return axial_plan(self.grid, self.lattice_loops, gauge=self.field.gauge,
+                          reference=self.field.reference, area=self.field.area)
+
+    @cached_property
+    def areas(self) -> tuple:
+        """Signed mu-area of each lattice loop: sum over cells of winding x measure."""
+        measures = self.field.area.cell_measures(self.grid)
+        return tuple(float((lp.winding_numbers() * measures).sum()) for lp in self.lattice_loops)
+
+    @cached_property
+    def area_errors(self) -> tuple:
+        return tuple(float(getattr(lp, "area_error", 0.0)) for lp in self.lattice_loops)
+
+    @property
+    def resolved_path(self) -> str:
+        if self.path == "auto":
+            return "perimeter" if self.scheme.perimeter else "dense"
+        return self.path
+
+    @property
+    def n_blocks(self) -> int:
+        return -(-self.samples // self.block)
+
+    def block_sizes(self) -> list[int]:
+        sizes = [self.block] * self.n_blocks
+        sizes[-1] = self.samples - self.block * (self.n_blocks - 1)
+        return sizes
+
+    def finish(self, blocks: Sequence[BlockSums]) -> EstimateResult:
+        """Combine finished blocks (in block order) into the run's estimates."""
+        return combine_blocks(blocks, names=self.names, areas=self.areas, seed=self.seed,
+                              block=self.block, scheme=self.scheme.name,
+                              path=self.resolved_path)
+
+    def __getstate__(self):
+        # ship only the definition; each process rebuilds its cached objects
+        return {k: getattr(self, k) for k in self.__dataclass_fields__}
+
+    def __setstate__(self, state):
+        for k, v in state.items():
+            object.__setattr__(self, k, v)
+
+
+# -- the sampler ------------------------------------------------------------------------
+
+def _interval_variables(problem: WilsonProblem, size: int, rng, path: str):
+    """Draw the plan's interval variables for ``size`` samples.
+
+    Returns (samples, K, d) algebra sums for ``algebra`` schemes, else (samples, K, N, N)
+    group elements (ordered products of the interval's plaquettes, bottom to top).
+    """
+    plan, group, scheme = problem.plan, problem.group, problem.scheme
+    lam = problem.field.coupling
+    d = group.dim
+    if path == "perimeter":
+        variances = lam * plan.measure
+        noise = interval_sums(variances, d, size, rng=rng)
+        if scheme.kind == "algebra":
+            return noise
+        return scheme.intervals(group, noise, variances, rng)
+
+    variances_grid = lam * problem.field.area.cell_measures(plan.grid)
+    noise = frame_cells(cell_noise(variances_grid, d, size, rng=rng), plan.gauge)
+    cell_var = lam * plan.cell_measures
+    if plan.n_intervals == 0:
+        return np.zeros((size, 0, d)) if scheme.kind == "algebra" else \
+            np.zeros((size, 0, group.N, group.N), complex)
+    if scheme.kind == "algebra":
+        cum = np.concatenate([np.zeros((size, noise.shape[1], 1, d)),
+                              np.cumsum(noise, axis=2)], axis=2)
+        return cum[:, plan.column, plan.hi] - cum[:, plan.column, plan.lo]
+
+    cols, row_lo, row_hi = plan.columns_and_rows()
+    sub = noise[:, cols][:, :, row_lo:row_hi]
+    var = cell_var[cols][:, row_lo:row_hi]
+    q = scheme.plaquettes(group, sub.reshape(size, -1, d), var.ravel(), rng)
+    q = q.reshape(size, cols.size, row_hi - row_lo, group.N, group.N)
+    ci = np.searchsorted(cols, plan.column)
+    lo = plan.lo - row_lo
+    length = plan.hi - plan.lo
+    out = q[:, ci, lo]
+    for r in range(1, int(length.max())):
+        sel = np.nonzero(length > r)[0]
+        out[:, sel] = out[:, sel] @ q[:, ci[sel], lo[sel] + r]
+    return out
+
+
+def _dagger(u: np.ndarray) -> np.ndarray:
+    return np.conj(np.swapaxes(u, -1, -2))
+
+
+def _holonomies(problem: WilsonProblem, variables: np.ndarray) -> list[np.ndarray]:
+    """Holonomies (samples, N, N) of every loop from the interval variables."""
+    plan, group = problem.plan, problem.group
+    size = variables.shape[0]
+    N = group.N
+    side = plan.side
+    out = []
+    if problem.scheme.kind == "algebra":
+        # S_k = S_parent + side_k X_k, cumulated outward from the reference
+        cum = np.empty_like(variables)
+        for dep in range(plan.max_depth):
+            k = np.nonzero(plan.depth == dep)[0]
+            cum[:, k] = side[k, None] * variables[:, k]
+            if dep:
+                cum[:, k] += cum[:, plan.parent[k]]
+        for links, direction in plan.steps:
+            coords = np.zeros((size, links.size, group.dim))
+            on = links >= 0
+            coords[:, on] = -direction[on, None] * cum[:, links[on]]
+            out.append(ordered_product_tree(group.exp(coords)))
+        return out
+
+    # C_k = C_parent B_k above the reference, B_k C_parent below it
+    cum = np.empty_like(variables)
+    for dep in range(plan.max_depth):
+        k = np.nonzero(plan.depth == dep)[0]
+        if not dep:
+            cum[:, k] = variables[:, k]
+            continue
+        par = plan.parent[k]
+        up = side[k] > 0
+        cum[:, k[up]] = cum[:, par[up]] @ variables[:, k[up]]
+        cum[:, k[~up]] = variables[:, k[~up]] @ cum[:, par[~up]]
+    eye = np.eye(N, dtype=cum.dtype if cum.size else complex)
+    for links, direction in plan.steps:
+        factors = np.broadcast_to(eye, (size, links.size, N, N)).copy()
+        on = links >= 0
+        idx = links[on]
+        f = cum[:, idx]
+        # rightward above (or leftward below) the reference uses C^{-1} = C^dagger
+        flip = (direction[on] * side[idx]) > 0
+        f[:, flip] = _dagger(f[:, flip])
+        factors[:, on] = f
+        out.append(ordered_product_tree(factors))
+    return out
+
+
+def run_block(problem: WilsonProblem, block: int, size: int | None = None) -> BlockSums:
+    """Compute the partial sums of block ``block`` of ``problem``.
+
+    Block b draws from ``SeedSequence(seed, spawn_key=(b,))`` and has
+    ``problem.block_sizes()[b]`` samples unless ``size`` is given.
+    """
+    if size is None:
+        size = problem.block_sizes()[block]
+    rng = block_rng(problem.seed, block)
+    variables = _interval_variables(problem, size, rng, problem.resolved_path)
+    hol = _holonomies(problem, variables)
+    rep = problem.representation
+    values = np.stack([rep.character(h, normalized=True) for h in hol], axis=1)
+    drift = max(float(problem.group.drift(h)) for h in hol)
+    return BlockSums.from_values(block, values, drift)
+
+
+def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fundamental", *,
+                          samples: int, block: int = 4096, seed: int, names: Sequence[str] = (),
+                          path: str = "auto", executor: Executor | None = None) -> EstimateResult:
+    """Estimate normalized Wilson loops E[chi_rep(H)] / dim with standard errors.
+
+    Parameters
+    ----------
+    group : Group or (family, n, metric)
+    field : Field
+    loops : sequence of Loop or LatticeLoop
+        All loops share one field realization per sample, so the result also holds
+        their correlators E[W(a) W(b)].
+    rep : str
+        ``fundamental``, ``adjoint``, ``spin:j`` (SU(2)) or ``power:k``.
+    samples, block, seed : int
+        Block b draws from SeedSequence(seed, spawn_key=(b,)).
+    path : {"auto", "perimeter", "dense"}
+    executor : concurrent.futures.Executor, optional
+        Runs the blocks (a process pool, or a Dask client's executor); inline if None.
+
+    Returns
+    -------
+    EstimateResult
+    """
+    if isinstance(group, tuple):
+        family, n, metric = group
+    else:
+        family, n, metric = group.family, group.n, group.metric
+    problem = WilsonProblem(family=family, n=n, metric=metric, field=field, loops=tuple(loops),
+                            names=tuple(names), rep=rep, samples=samples, block=block,
+                            seed=seed, path=path)
+    if executor is None:
+        blocks = [run_block(problem, b) for b in range(problem.n_blocks)]
+    else:
+        futures = [executor.submit(run_block, problem, b) for b in range(problem.n_blocks)]
+        blocks = [f.result() for f in futures]
+    return problem.finish(blocks)

@@ -1,0 +1,225 @@
+"""The regularizations: how a scheme turns Gaussian cell (or interval) noise into links.
+
+Every scheme reads the same per-cell noise X_c (d components, each N(0, lambda mu(c)))
+and differs only in how links are formed (see :mod:`discretize._axial` for the link
+convention):
+
+``linear``
+    The continuum axial connection: the link at height y is exp(-S(y)), S the signed
+    sum of the cell noises between the reference line and y. Links are exponentials of
+    Gaussian algebra elements, so this scheme has an exact Wick expansion.
+``gauss``
+    Lattice axial gauge with plaquette variables Q_c = exp(X_c); links are ordered
+    products of plaquettes along the column. One plaquette has
+    E[tr Q]/dim = f(s), the exponential moment of one Gaussian, which differs from the
+    heat kernel exp(-c s/2) at order s^2 per plaquette.
+``heat``
+    Plaquettes drawn exactly from the heat kernel at time s = lambda mu(c) (exact for
+    U(1), where Q_c = exp(X_c) is already heat-kernel distributed, and for SU(2); by
+    Brownian sub-stepping elsewhere, as :meth:`Group.heat_kernel` states). Products of
+    independent heat-kernel variables are heat-kernel variables of the summed time, so
+    interval products can be drawn directly (perimeter-only path) and lattice loops are
+    exact at every spacing.
+``wilson``
+    Plaquettes from the single-plaquette Wilson law, density proportional to
+    exp((k / s) Re tr Q) against Haar measure: von Mises angles for U(1) (concentration
+    k / s) and the SU(2) heat-bath law for a_0 = tr Q / 2, density proportional to
+    sqrt(1 - a_0^2) exp(beta a_0), beta = 2 k / s.
+
+A scheme is a small class registered by name in :data:`SCHEMES`. The base class
+states the contract.
+
+References
+----------
+.. [1] Wilson, K. G. (1974). "Confinement of quarks." Phys. Rev. D 10, 2445-2459.
+.. [2] Creutz, M. (1980). "Monte Carlo study of quantized SU(2) gauge theory."
+   Phys. Rev. D 21, 2308-2315 (heat-bath for SU(2)).
+.. [3] Kennedy, A. D. and Pendleton, B. J. (1985). "Improved heatbath method for Monte
+   Carlo calculations in lattice gauge theories." Phys. Lett. B 156, 393-399.
+.. [4] Best, D. J. and Fisher, N. I. (1979). "Efficient simulation of the von Mises
+   distribution." Appl. Statist. 28, 152-157.
+.. [5] Driver, B. K. (1989). "YM2: continuum expectations, lattice convergence, and
+   lassos." Commun. Math. Phys. 123, 575-616.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["Scheme", "SCHEMES", "get_scheme", "LinearScheme", "GaussScheme",
+           "HeatScheme", "WilsonScheme"]
+
+
+class Scheme:
+    """Base class of the regularizations.
+
+    Contract for subclasses:
+
+    1. ``name`` is the registered name; ``kind`` is ``"algebra"`` when links are
+       exponentials of sums of the Gaussian noise (then nothing else is needed) or
+       ``"group"`` when links are ordered products of plaquette variables.
+    2. A ``"group"`` scheme implements ``_plaquettes_impl(group, noise, variances,
+       rng)``: ``noise`` has shape (samples, m, d) (cell noise, variance ``variances``
+       of shape (m,) per component) and the result is (samples, m, N, N) plaquette
+       variables. It may draw extra randomness from ``rng`` only.
+    3. ``perimeter`` is True when the product of a column interval's plaquettes can be
+       drawn directly from the interval's summed noise and variance; then
+       ``_intervals_impl`` has the same signature and returns those products.
+    4. ``check(group)`` raises ValueError if the scheme does not support ``group``.
+    """
+
+    name: str = ""
+    kind: str = "group"
+    perimeter: bool = False
+
+    def check(self, group) -> None:
+        return None
+
+    def plaquettes(self, group, noise, variances, rng):
+        return self._plaquettes_impl(group, noise, np.asarray(variances, float), rng)
+
+    def intervals(self, group, noise, variances, rng):
+        if not self.perimeter:
+            raise ValueError(
+                f"`path`='perimeter' is not available for scheme {self.name!r}; "
+                "use path='dense'."
+            )
+        return self._intervals_impl(group, noise, np.asarray(variances, float), rng)
+
+    def _plaquettes_impl(self, group, noise, variances, rng):
+        raise NotImplementedError
+
+    def _intervals_impl(self, group, noise, variances, rng):
+        raise NotImplementedError
+
+
+def _is_u1(group) -> bool:
+    return group.family == "U" and group.n == 1
+
+
+class LinearScheme(Scheme):
+    """Links exp(-S(y)) of the continuum axial connection (exact Wick expansion)."""
+
+    name = "linear"
+    kind = "algebra"
+    perimeter = True
+
+
+class GaussScheme(Scheme):
+    """Plaquettes Q = exp(X): one Gaussian exponential per cell."""
+
+    name = "gauss"
+
+    def _plaquettes_impl(self, group, noise, variances, rng):
+        return group.exp(noise)
+
+
+class HeatScheme(Scheme):
+    """Plaquettes drawn from the heat kernel at time lambda mu(cell)."""
+
+    name = "heat"
+    perimeter = True
+
+    def _plaquettes_impl(self, group, noise, variances, rng):
+        if _is_u1(group):
+            # the U(1) heat kernel is the law of exp(X) itself (wrapped Gaussian)
+            return group.exp(noise)
+        return group.heat_kernel(variances, noise.shape[0], rng=rng)
+
+    _intervals_impl = _plaquettes_impl
+
+
+def _von_mises(kappa: np.ndarray, size: int, rng) -> np.ndarray:
+    """Von Mises angles with concentration ``kappa`` (shape (m,)), output (size, m)."""
+    kappa = np.broadcast_to(kappa, (size, kappa.size))
+    out = np.zeros(kappa.shape)
+    finite = np.isfinite(kappa)
+    out[finite] = rng.vonmises(0.0, kappa[finite])
+    return out
+
+
+def _su2_heat_bath_a0(beta: np.ndarray, size: int, rng) -> np.ndarray:
+    """Draw a_0 in [-1, 1] with density proportional to sqrt(1 - a^2) exp(beta a).
+
+    For beta >= 2 the Kennedy-Pendleton proposal delta = 1 - a_0 ~ Gamma(3/2, 1/beta)
+    accepted with probability sqrt(1 - delta/2) (delta <= 2); for small beta a proposal
+    from the semicircle law (the Haar marginal) accepted with probability
+    exp(beta (a_0 - 1)). Both are exact rejection samplers.
+
+    References
+    ----------
+    .. [1] Kennedy, A. D. and Pendleton, B. J. (1985). Phys. Lett. B 156, 393-399.
+    .. [2] Creutz, M. (1980). Phys. Rev. D 21, 2308-2315.
+    """
+    beta = np.broadcast_to(np.asarray(beta, float), (size, np.size(beta))).ravel()
+    out = np.ones(beta.size)
+    todo = np.nonzero(np.isfinite(beta))[0]
+    while todo.size:
+        b = beta[todo]
+        big = b >= 2.0
+        a = np.empty(todo.size)
+        ok = np.empty(todo.size, bool)
+        if big.any():
+            delta = rng.gamma(1.5, 1.0 / b[big])
+            u = rng.random(delta.size)
+            ok[big] = (delta <= 2.0) & (u * u <= 1.0 - np.minimum(delta, 2.0) / 2.0)
+            a[big] = 1.0 - delta
+        small = ~big
+        if small.any():
+            # semicircle on [-1, 1]: a = cos(theta) with theta from density sin^2
+            # equivalently a = 2 * Beta(3/2, 3/2) - 1
+            prop = 2.0 * rng.beta(1.5, 1.5, size=int(small.sum())) - 1.0
+            u = rng.random(prop.size)
+            ok[small] = u <= np.exp(b[small] * (prop - 1.0))
+            a[small] = prop
+        out[todo[ok]] = a[ok]
+        todo = todo[~ok]
+    return out.reshape(size, -1)
+
+
+class WilsonScheme(Scheme):
+    """Plaquettes from the single-plaquette Wilson law (U(1) and SU(2) only)."""
+
+    name = "wilson"
+
+    def check(self, group) -> None:
+        if not (_is_u1(group) or (group.family == "SU" and group.n == 2)):
+            raise ValueError(
+                f"scheme 'wilson' supports U(1) and SU(2) only, got "
+                f"{group.family}({group.n}); use 'heat', 'gauss' or 'linear'."
+            )
+
+    def _plaquettes_impl(self, group, noise, variances, rng):
+        size, m = noise.shape[0], variances.size
+        k = group.k
+        with np.errstate(divide="ignore"):
+            conc = np.where(variances > 0, k / np.where(variances > 0, variances, 1), np.inf)
+        if _is_u1(group):
+            # X = i / sqrt(k) is the unit basis vector: exp(c X) = exp(i c / sqrt(k))
+            theta = _von_mises(conc, size, rng)
+            return group.exp(theta[..., None] * np.sqrt(k))
+        a0 = _su2_heat_bath_a0(2.0 * conc, size, rng)
+        axis = rng.standard_normal((size, m, 3))
+        axis /= np.linalg.norm(axis, axis=-1, keepdims=True)
+        # a unit coordinate vector c gives X with X^2 = -Id / (2k): exp(r X) has
+        # a_0 = cos(r / sqrt(2k))
+        theta = np.arccos(np.clip(a0, -1.0, 1.0))
+        return group.exp(axis * (theta * np.sqrt(2.0 * k))[..., None])
+
+
+SCHEMES: dict[str, type[Scheme]] = {
+    cls.name: cls for cls in (LinearScheme, GaussScheme, HeatScheme, WilsonScheme)
+}
+
+
+def get_scheme(scheme) -> Scheme:
+    """Return a scheme instance from a registered name or a :class:`Scheme` subclass."""
+    if isinstance(scheme, Scheme):
+        return scheme
+    if isinstance(scheme, type) and issubclass(scheme, Scheme):
+        return scheme()
+    if isinstance(scheme, str) and scheme.lower() in SCHEMES:
+        return SCHEMES[scheme.lower()]()
+    raise ValueError(
+        f"`scheme` must be one of {sorted(SCHEMES)} or a Scheme subclass, got {scheme!r}."
+    )
