@@ -35,11 +35,11 @@ from discretize._axial import GAUGES, frame_cells
 from noise import block_rng, cell_noise, interval_sums
 
 from ._estimate import BlockSums, EstimateResult, combine_blocks
+from ._kernels import kernel_for
 from ._schemes import get_scheme
 from .groups import make_group
 
-__all__ = ["Field", "WilsonProblem", "run_block", "estimate_wilson_loops",
-           "PATHS", "ordered_product_tree"]
+__all__ = ["Field", "WilsonProblem", "run_block", "estimate_wilson_loops", "PATHS"]
 
 PATHS = ("auto", "perimeter", "dense")
 
@@ -97,19 +97,6 @@ class Field:
             raise TypeError(f"`area` must be a discretize.AreaForm, got {self.area!r}.")
 
 
-def ordered_product_tree(factors: np.ndarray) -> np.ndarray:
-    """Ordered product F_1 F_2 ... F_m over axis -3 by pairwise (tree) reduction.
-
-    Uses O(log m) batched matrix products instead of m sequential ones.
-    """
-    f = factors
-    while f.shape[-3] > 1:
-        m = f.shape[-3]
-        paired = f[..., 0:m - 1:2, :, :] @ f[..., 1:m:2, :, :]
-        f = np.concatenate([paired, f[..., m - 1:, :, :]], axis=-3) if m % 2 else paired
-    return f[..., 0, :, :]
-
-
 @dataclass(frozen=True)
 class WilsonProblem:
     """Everything one Monte Carlo run of Wilson loops needs; picklable and frozen.
@@ -129,6 +116,7 @@ class WilsonProblem:
     block: int = 4096
     seed: int = 0
     path: str = "auto"
+    formal: bool = False
 
     def __post_init__(self):
         object.__setattr__(self, "loops", tuple(self.loops))
@@ -150,7 +138,7 @@ class WilsonProblem:
             raise ValueError(f"`path` must be one of {PATHS}, got {self.path!r}.")
         if not isinstance(self.field, Field):
             raise TypeError(f"`field` must be a holonomy.Field, got {self.field!r}.")
-        if self.field.area.signed:
+        if self.field.area.signed and not self.formal:
             raise ValueError(
                 "`field.area` has a negative density: the covariance is indefinite and no "
                 "measure exists to sample; evaluate it formally instead (whitegauge series, "
@@ -170,6 +158,10 @@ class WilsonProblem:
     @cached_property
     def group(self):
         return make_group(self.family, self.n, self.metric)
+
+    @cached_property
+    def kernel(self):
+        return kernel_for(self.group)
 
     @cached_property
     def scheme(self):
@@ -254,11 +246,14 @@ class WilsonProblem:
 
 # -- the sampler ------------------------------------------------------------------------
 
-def _interval_variables(problem: WilsonProblem, size: int, rng, path: str):
+def _interval_variables(problem: WilsonProblem, size: int, rng, path: str,
+                        noise: np.ndarray | None = None):
     """Draw the plan's interval variables for ``size`` samples.
 
-    Returns (samples, K, d) algebra sums for ``algebra`` schemes, else (samples, K, N, N)
-    group elements (ordered products of the interval's plaquettes, bottom to top).
+    Returns (samples, K, d) algebra sums for ``algebra`` schemes, else (samples, K)
+    kernel elements (ordered products of the interval's plaquettes, bottom to top).
+    ``noise`` (samples, nx, ny, d), on the dense path, is a cell noise already drawn on
+    the problem's grid (shared by several problems for common random numbers).
     """
     plan, group, scheme = problem.plan, problem.group, problem.scheme
     lam = problem.field.coupling
@@ -268,14 +263,16 @@ def _interval_variables(problem: WilsonProblem, size: int, rng, path: str):
         noise = interval_sums(variances, d, size, rng=rng)
         if scheme.kind == "algebra":
             return noise
-        return scheme.intervals(group, noise, variances, rng)
+        return scheme.intervals(problem.kernel, noise, variances, rng)
 
-    variances_grid = lam * problem.field.area.cell_measures(plan.grid)
-    noise = frame_cells(cell_noise(variances_grid, d, size, rng=rng), plan.gauge)
+    if noise is None:
+        variances_grid = lam * problem.field.area.cell_measures(plan.grid)
+        noise = cell_noise(variances_grid, d, size, rng=rng)
+    noise = frame_cells(noise, plan.gauge)
     cell_var = lam * plan.cell_measures
     if plan.n_intervals == 0:
         return np.zeros((size, 0, d)) if scheme.kind == "algebra" else \
-            np.zeros((size, 0, group.N, group.N), complex)
+            problem.kernel.identity((size, 0))
     if scheme.kind == "algebra":
         cum = np.concatenate([np.zeros((size, noise.shape[1], 1, d)),
                               np.cumsum(noise, axis=2)], axis=2)
@@ -284,27 +281,22 @@ def _interval_variables(problem: WilsonProblem, size: int, rng, path: str):
     cols, row_lo, row_hi = plan.columns_and_rows()
     sub = noise[:, cols][:, :, row_lo:row_hi]
     var = cell_var[cols][:, row_lo:row_hi]
-    q = scheme.plaquettes(group, sub.reshape(size, -1, d), var.ravel(), rng)
-    q = q.reshape(size, cols.size, row_hi - row_lo, group.N, group.N)
+    q = scheme.plaquettes(problem.kernel, sub.reshape(size, -1, d), var.ravel(), rng)
+    q = q.reshape((size, cols.size, row_hi - row_lo) + q.shape[2:])
     ci = np.searchsorted(cols, plan.column)
     lo = plan.lo - row_lo
     length = plan.hi - plan.lo
     out = q[:, ci, lo]
     for r in range(1, int(length.max())):
         sel = np.nonzero(length > r)[0]
-        out[:, sel] = out[:, sel] @ q[:, ci[sel], lo[sel] + r]
+        out[:, sel] = problem.kernel.mul(out[:, sel], q[:, ci[sel], lo[sel] + r])
     return out
 
 
-def _dagger(u: np.ndarray) -> np.ndarray:
-    return np.conj(np.swapaxes(u, -1, -2))
-
-
-def _holonomies(problem: WilsonProblem, variables: np.ndarray) -> list[np.ndarray]:
-    """Holonomies (samples, N, N) of every loop from the interval variables."""
-    plan, group = problem.plan, problem.group
+def _holonomies(problem: WilsonProblem, variables: np.ndarray, kernel) -> list[np.ndarray]:
+    """Holonomies of every loop (kernel elements, leading axis samples)."""
+    plan = problem.plan
     size = variables.shape[0]
-    N = group.N
     side = plan.side
     out = []
     if problem.scheme.kind == "algebra":
@@ -316,10 +308,11 @@ def _holonomies(problem: WilsonProblem, variables: np.ndarray) -> list[np.ndarra
             if dep:
                 cum[:, k] += cum[:, plan.parent[k]]
         for links, direction in plan.steps:
-            coords = np.zeros((size, links.size, group.dim))
             on = links >= 0
-            coords[:, on] = -direction[on, None] * cum[:, links[on]]
-            out.append(ordered_product_tree(group.exp(coords)))
+            coords = -direction[on, None] * cum[:, links[on]]
+            if not on.any():
+                coords = np.zeros((size, 1, variables.shape[-1]))
+            out.append(kernel.product(kernel.exp(coords)))
         return out
 
     # C_k = C_parent B_k above the reference, B_k C_parent below it
@@ -331,19 +324,19 @@ def _holonomies(problem: WilsonProblem, variables: np.ndarray) -> list[np.ndarra
             continue
         par = plan.parent[k]
         up = side[k] > 0
-        cum[:, k[up]] = cum[:, par[up]] @ variables[:, k[up]]
-        cum[:, k[~up]] = variables[:, k[~up]] @ cum[:, par[~up]]
-    eye = np.eye(N, dtype=cum.dtype if cum.size else complex)
+        cum[:, k[up]] = kernel.mul(cum[:, par[up]], variables[:, k[up]])
+        cum[:, k[~up]] = kernel.mul(variables[:, k[~up]], cum[:, par[~up]])
     for links, direction in plan.steps:
-        factors = np.broadcast_to(eye, (size, links.size, N, N)).copy()
         on = links >= 0
         idx = links[on]
+        if not idx.size:
+            out.append(kernel.identity((size,)))
+            continue
         f = cum[:, idx]
         # rightward above (or leftward below) the reference uses C^{-1} = C^dagger
         flip = (direction[on] * side[idx]) > 0
-        f[:, flip] = _dagger(f[:, flip])
-        factors[:, on] = f
-        out.append(ordered_product_tree(factors))
+        f[:, flip] = kernel.dagger(f[:, flip])
+        out.append(kernel.product(f))
     return out
 
 
@@ -355,12 +348,23 @@ def run_block(problem: WilsonProblem, block: int, size: int | None = None) -> Bl
     """
     if size is None:
         size = problem.block_sizes()[block]
-    rng = block_rng(problem.seed, block)
-    variables = _interval_variables(problem, size, rng, problem.resolved_path)
-    hol = _holonomies(problem, variables)
+    return _block_sums(problem, block, size, block_rng(problem.seed, block))
+
+
+def _block_sums(problem: WilsonProblem, block: int, size: int, rng,
+                noise: np.ndarray | None = None) -> BlockSums:
+    if problem.formal:
+        raise ValueError(
+            "this problem was built with `formal`=True (a signed area density): no measure "
+            "exists to sample; use holonomy.lattice_series or noise.FormalGaussian."
+        )
+    path = "dense" if noise is not None else problem.resolved_path
+    variables = _interval_variables(problem, size, rng, path, noise)
+    kernel = problem.kernel
+    hol = _holonomies(problem, variables, kernel)
     rep = problem.representation
-    values = np.stack([rep.character(h, normalized=True) for h in hol], axis=1)
-    drift = max(float(problem.group.drift(h)) for h in hol)
+    values = np.stack([kernel.character(rep, h) for h in hol], axis=1)
+    drift = max(kernel.drift(h) for h in hol)
     return BlockSums.from_values(block, values, drift)
 
 

@@ -58,10 +58,11 @@ class Scheme:
     1. ``name`` is the registered name; ``kind`` is ``"algebra"`` when links are
        exponentials of sums of the Gaussian noise (then nothing else is needed) or
        ``"group"`` when links are ordered products of plaquette variables.
-    2. A ``"group"`` scheme implements ``_plaquettes_impl(group, noise, variances,
+    2. A ``"group"`` scheme implements ``_plaquettes_impl(kernel, noise, variances,
        rng)``: ``noise`` has shape (samples, m, d) (cell noise, variance ``variances``
-       of shape (m,) per component) and the result is (samples, m, N, N) plaquette
-       variables. It may draw extra randomness from ``rng`` only.
+       of shape (m,) per component) and the result is (samples, m) plaquette variables
+       stored as the kernel stores elements (:mod:`holonomy._kernels`; the group is
+       ``kernel.group``). It may draw extra randomness from ``rng`` only.
     3. ``perimeter`` is True when the product of a column interval's plaquettes can be
        drawn directly from the interval's summed noise and variance; then
        ``_intervals_impl`` has the same signature and returns those products.
@@ -75,21 +76,21 @@ class Scheme:
     def check(self, group) -> None:
         return None
 
-    def plaquettes(self, group, noise, variances, rng):
-        return self._plaquettes_impl(group, noise, np.asarray(variances, float), rng)
+    def plaquettes(self, kernel, noise, variances, rng):
+        return self._plaquettes_impl(kernel, noise, np.asarray(variances, float), rng)
 
-    def intervals(self, group, noise, variances, rng):
+    def intervals(self, kernel, noise, variances, rng):
         if not self.perimeter:
             raise ValueError(
                 f"`path`='perimeter' is not available for scheme {self.name!r}; "
                 "use path='dense'."
             )
-        return self._intervals_impl(group, noise, np.asarray(variances, float), rng)
+        return self._intervals_impl(kernel, noise, np.asarray(variances, float), rng)
 
-    def _plaquettes_impl(self, group, noise, variances, rng):
+    def _plaquettes_impl(self, kernel, noise, variances, rng):
         raise NotImplementedError
 
-    def _intervals_impl(self, group, noise, variances, rng):
+    def _intervals_impl(self, kernel, noise, variances, rng):
         raise NotImplementedError
 
 
@@ -110,8 +111,8 @@ class GaussScheme(Scheme):
 
     name = "gauss"
 
-    def _plaquettes_impl(self, group, noise, variances, rng):
-        return group.exp(noise)
+    def _plaquettes_impl(self, kernel, noise, variances, rng):
+        return kernel.exp(noise)
 
 
 class HeatScheme(Scheme):
@@ -120,11 +121,11 @@ class HeatScheme(Scheme):
     name = "heat"
     perimeter = True
 
-    def _plaquettes_impl(self, group, noise, variances, rng):
-        if _is_u1(group):
+    def _plaquettes_impl(self, kernel, noise, variances, rng):
+        if _is_u1(kernel.group):
             # the U(1) heat kernel is the law of exp(X) itself (wrapped Gaussian)
-            return group.exp(noise)
-        return group.heat_kernel(variances, noise.shape[0], rng=rng)
+            return kernel.exp(noise)
+        return kernel.heat(variances, noise.shape[0], rng)
 
     _intervals_impl = _plaquettes_impl
 
@@ -189,22 +190,23 @@ class WilsonScheme(Scheme):
                 f"{group.family}({group.n}); use 'heat', 'gauss' or 'linear'."
             )
 
-    def _plaquettes_impl(self, group, noise, variances, rng):
+    def _plaquettes_impl(self, kernel, noise, variances, rng):
         size, m = noise.shape[0], variances.size
+        group = kernel.group
         k = group.k
         with np.errstate(divide="ignore"):
             conc = np.where(variances > 0, k / np.where(variances > 0, variances, 1), np.inf)
         if _is_u1(group):
             # X = i / sqrt(k) is the unit basis vector: exp(c X) = exp(i c / sqrt(k))
             theta = _von_mises(conc, size, rng)
-            return group.exp(theta[..., None] * np.sqrt(k))
+            return kernel.exp(theta[..., None] * np.sqrt(k))
         a0 = _su2_heat_bath_a0(2.0 * conc, size, rng)
         axis = rng.standard_normal((size, m, 3))
         axis /= np.linalg.norm(axis, axis=-1, keepdims=True)
         # a unit coordinate vector c gives X with X^2 = -Id / (2k): exp(r X) has
         # a_0 = cos(r / sqrt(2k))
         theta = np.arccos(np.clip(a0, -1.0, 1.0))
-        return group.exp(axis * (theta * np.sqrt(2.0 * k))[..., None])
+        return kernel.exp(axis * (theta * np.sqrt(2.0 * k))[..., None])
 
 
 SCHEMES: dict[str, type[Scheme]] = {
