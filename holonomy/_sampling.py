@@ -260,10 +260,10 @@ def _interval_variables(problem: WilsonProblem, size: int, rng, path: str,
     d = group.dim
     if path == "perimeter":
         variances = lam * plan.measure
-        noise = interval_sums(variances, d, size, rng=rng)
+        noise = interval_sums(variances, d, size, rng=rng) if scheme.reads_noise(group) else None
         if scheme.kind == "algebra":
             return noise
-        return scheme.intervals(problem.kernel, noise, variances, rng)
+        return scheme.intervals(problem.kernel, noise, variances, rng, size)
 
     if noise is None:
         variances_grid = lam * problem.field.area.cell_measures(plan.grid)

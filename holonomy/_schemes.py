@@ -59,7 +59,7 @@ class Scheme:
        exponentials of sums of the Gaussian noise (then nothing else is needed) or
        ``"group"`` when links are ordered products of plaquette variables.
     2. A ``"group"`` scheme implements ``_plaquettes_impl(kernel, noise, variances,
-       rng)``: ``noise`` has shape (samples, m, d) (cell noise, variance ``variances``
+       rng, size)``: ``noise`` has shape (size, m, d) (cell noise, variance ``variances``
        of shape (m,) per component) and the result is (samples, m) plaquette variables
        stored as the kernel stores elements (:mod:`holonomy._kernels`; the group is
        ``kernel.group``). It may draw extra randomness from ``rng`` only.
@@ -67,6 +67,8 @@ class Scheme:
        drawn directly from the interval's summed noise and variance; then
        ``_intervals_impl`` has the same signature and returns those products.
     4. ``check(group)`` raises ValueError if the scheme does not support ``group``.
+    5. ``reads_noise(group)`` is False when the interval variables do not depend on the
+       noise (then the perimeter path does not draw it, and ``noise`` is None).
     """
 
     name: str = ""
@@ -76,21 +78,25 @@ class Scheme:
     def check(self, group) -> None:
         return None
 
-    def plaquettes(self, kernel, noise, variances, rng):
-        return self._plaquettes_impl(kernel, noise, np.asarray(variances, float), rng)
+    def reads_noise(self, group) -> bool:
+        return True
 
-    def intervals(self, kernel, noise, variances, rng):
+    def plaquettes(self, kernel, noise, variances, rng):
+        return self._plaquettes_impl(kernel, noise, np.asarray(variances, float), rng,
+                                     noise.shape[0])
+
+    def intervals(self, kernel, noise, variances, rng, size):
         if not self.perimeter:
             raise ValueError(
                 f"`path`='perimeter' is not available for scheme {self.name!r}; "
                 "use path='dense'."
             )
-        return self._intervals_impl(kernel, noise, np.asarray(variances, float), rng)
+        return self._intervals_impl(kernel, noise, np.asarray(variances, float), rng, size)
 
-    def _plaquettes_impl(self, kernel, noise, variances, rng):
+    def _plaquettes_impl(self, kernel, noise, variances, rng, size):
         raise NotImplementedError
 
-    def _intervals_impl(self, kernel, noise, variances, rng):
+    def _intervals_impl(self, kernel, noise, variances, rng, size):
         raise NotImplementedError
 
 
@@ -111,7 +117,7 @@ class GaussScheme(Scheme):
 
     name = "gauss"
 
-    def _plaquettes_impl(self, kernel, noise, variances, rng):
+    def _plaquettes_impl(self, kernel, noise, variances, rng, size):
         return kernel.exp(noise)
 
 
@@ -121,11 +127,14 @@ class HeatScheme(Scheme):
     name = "heat"
     perimeter = True
 
-    def _plaquettes_impl(self, kernel, noise, variances, rng):
+    def reads_noise(self, group) -> bool:
+        return _is_u1(group)
+
+    def _plaquettes_impl(self, kernel, noise, variances, rng, size):
         if _is_u1(kernel.group):
             # the U(1) heat kernel is the law of exp(X) itself (wrapped Gaussian)
             return kernel.exp(noise)
-        return kernel.heat(variances, noise.shape[0], rng)
+        return kernel.heat(variances, size, rng)
 
     _intervals_impl = _plaquettes_impl
 
@@ -190,8 +199,8 @@ class WilsonScheme(Scheme):
                 f"{group.family}({group.n}); use 'heat', 'gauss' or 'linear'."
             )
 
-    def _plaquettes_impl(self, kernel, noise, variances, rng):
-        size, m = noise.shape[0], variances.size
+    def _plaquettes_impl(self, kernel, noise, variances, rng, size):
+        m = variances.size
         group = kernel.group
         k = group.k
         with np.errstate(divide="ignore"):

@@ -1,0 +1,307 @@
+"""whitegauge performance figures, each measured side by side with its baseline.
+
+Every figure is a ratio measured in this one run on this machine (or an absolute rate
+where the table says "no target"), printed with its target; the script exits 1 when a
+target is missed. Run from the repository root:
+
+    python3 benchmarks/run.py            # everything (several minutes)
+    python3 benchmarks/run.py --quick    # smaller sample counts, same figures
+
+Figures (see DEVELOPERS.md, "Benchmarks"):
+ 1. fast path vs a naive per-sample Python loop over the loop's edges with
+    scipy.linalg.expm (the baseline below), at 10^4 samples (the naive rate is
+    measured on a subset and scaled per sample);
+ 2. fast path vs the floor of random-number generation: numpy drawing the same count
+    of Gaussians and uniforms the run consumes, in the same process;
+ 3. absolute throughput in sample-edges per second (no target);
+ 4. scaling in the number of samples and in the loop size (perimeter, not area);
+ 5. peak resident memory of 10^6 vs 10^5 samples (separate processes);
+ 6. parallel speed-up of ``--workers 2`` over ``--workers 1`` with identical numbers;
+ 7. exact evaluation and formal series timings.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import resource
+import subprocess
+import sys
+import tempfile
+import textwrap
+import time
+
+import numpy as np
+import scipy.linalg
+
+ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+sys.path.insert(0, ROOT)
+
+from discretize import Loop  # noqa: E402
+from holonomy import Field, WilsonProblem, run_block  # noqa: E402
+from noise import block_rng, interval_sums  # noqa: E402
+
+ROWS: list[tuple[str, float, str, bool]] = []
+
+
+def record(name: str, value: float, target: str, ok: bool, unit: str = "") -> None:
+    ROWS.append((name, value, target, ok))
+    flag = "ok  " if ok else "MISS"
+    print(f"{flag} {name:58s} {value:12.3f}{unit:3s} target {target}", flush=True)
+
+
+def best_time(fn, repeat: int = 3) -> float:
+    best = np.inf
+    for _ in range(repeat):
+        t = time.perf_counter()
+        fn()
+        best = min(best, time.perf_counter() - t)
+    return best
+
+
+def square(cells: int, h: float) -> Loop:
+    L = cells * h
+    return Loop.polygon([[0, 0], [L, 0], [L, L], [0, L]])
+
+
+def circle(h: float) -> Loop:
+    return Loop.circle((0.0, 0.0), 16 * h, 64)
+
+
+def problem(family, n, metric, scheme, loop, h, samples, block=None):
+    block = block or samples
+    return WilsonProblem(family=family, n=n, metric=metric,
+                         field=Field(coupling=1.0 / (16 * h) ** 2, spacing=h, scheme=scheme),
+                         loops=(loop,), samples=samples, block=block, seed=1,
+                         path="perimeter")
+
+
+def naive_linear(prob: WilsonProblem, samples: int) -> np.ndarray:
+    """The baseline: a per-sample Python loop over the loop's edges, scipy.linalg.expm.
+
+    Same law as the ``linear`` scheme on the perimeter path: interval Gaussian sums,
+    cumulated outward from the reference line, one expm per horizontal edge.
+    """
+    plan, group = prob.plan, prob.group
+    basis = group.basis
+    rng = block_rng(99, 0)
+    lam = prob.field.coupling
+    links, direction = plan.steps[0]
+    rep = group.rep(prob.rep)
+    out = np.empty(samples, complex)
+    for s in range(samples):
+        x = interval_sums(lam * plan.measure, group.dim, 1, rng=rng)[0]
+        cum = np.zeros_like(x)
+        for k in range(plan.n_intervals):
+            cum[k] = plan.side[k] * x[k] + (cum[plan.parent[k]] if plan.parent[k] >= 0 else 0)
+        hol = np.eye(group.N, dtype=complex)
+        for link, d in zip(links, direction):
+            if link < 0:
+                continue
+            a = np.tensordot(-d * cum[link], basis, axes=1)
+            hol = hol @ scipy.linalg.expm(a)
+        out[s] = rep.character(hol[None], normalized=True)[0]
+    return out
+
+
+def rng_floor(prob: WilsonProblem, samples: int) -> float:
+    """Time numpy takes to draw the Gaussians and uniforms one block consumes."""
+    K, d = prob.plan.n_intervals, prob.group.dim
+    heat_exact = prob.scheme.name == "heat" and prob.group.N == 2
+    normals = samples * K * (3 if heat_exact else d)
+    uniforms = samples * K if heat_exact else 0
+
+    def draw():
+        rng = np.random.default_rng(5)
+        rng.standard_normal(normals)
+        if uniforms:
+            rng.random(uniforms)
+    return best_time(draw)
+
+
+def fig_naive_and_floor(quick: bool) -> None:
+    h = 1.0 / 32
+    samples = 2000 if quick else 10000
+    naive_n = 100 if quick else 300
+    for family, n, metric, target in (("SU", 2, "physics", 300), ("SU", 3, "physics", 50)):
+        for shape, loop in (("square 32x32", square(32, h)), ("64-gon", circle(h))):
+            fast = problem(family, n, metric, "linear", loop, h, samples)
+            run_block(fast, 0, size=8)
+            t_fast = best_time(lambda: run_block(fast, 0), repeat=2) / samples
+            t0 = time.perf_counter()
+            naive = naive_linear(fast, naive_n)
+            t_naive = (time.perf_counter() - t0) / naive_n
+            sums = run_block(fast, 0)
+            est, se = sums.sum_re[0] / sums.count, np.sqrt(
+                sums.sumsq_re[0] / sums.count - (sums.sum_re[0] / sums.count) ** 2) / np.sqrt(sums.count)
+            n_se = np.sqrt(naive.real.var(ddof=1) / naive_n)
+            agree = abs(est - naive.real.mean()) <= 4 * np.hypot(se, n_se)
+            record(f"1 {family}({n}) linear {shape}: speed-up vs naive", t_naive / t_fast,
+                   f">= {target} (estimates agree: {agree})", t_naive / t_fast >= target and agree, "x")
+    for family, n, metric, scheme, target in (("SU", 2, "physics", "heat", 3.0),
+                                              ("SU", 3, "physics", "linear", 5.0)):
+        for shape, loop in (("square 32x32", square(32, h)), ("64-gon", circle(h))):
+            fast = problem(family, n, metric, scheme, loop, h, samples)
+            run_block(fast, 0, size=8)
+            t_fast = best_time(lambda: run_block(fast, 0), repeat=2)
+            floor = rng_floor(fast, samples)
+            record(f"2 {family}({n}) {scheme} {shape}: time / RNG floor", t_fast / floor,
+                   f"<= {target}", t_fast / floor <= target, "x")
+
+
+def fig_throughput(quick: bool) -> None:
+    h = 1.0 / 32
+    samples = 2000 if quick else 10000
+    for family, n, metric in (("SU", 2, "physics"), ("SU", 3, "physics"), ("U", 4, "large-n"),
+                              ("SO", 3, "trace")):
+        for scheme in ("heat", "linear"):
+            prob = problem(family, n, metric, scheme, square(32, h), h, samples)
+            run_block(prob, 0, size=8)
+            t = best_time(lambda: run_block(prob, 0), repeat=1)
+            edges = prob.plan.link_count()
+            record(f"3 {family}({n}) {scheme}: sample-edges per second", samples * edges / t / 1e6,
+                   "(no target)", True, "M")
+
+
+def fig_scaling(quick: bool) -> None:
+    h = 1.0 / 32
+    small, big = (10_000, 100_000) if quick else (100_000, 1_000_000)
+    prob_small = problem("SU", 2, "physics", "heat", square(32, h), h, small, block=4096)
+    prob_big = problem("SU", 2, "physics", "heat", square(32, h), h, big, block=4096)
+
+    def run_all(p):
+        for b in range(p.n_blocks):
+            run_block(p, b)
+    run_block(prob_small, 0, size=8)
+    t_small = best_time(lambda: run_all(prob_small), repeat=1)
+    t_big = best_time(lambda: run_all(prob_big), repeat=1)
+    ratio = t_big / t_small
+    record(f"4 samples x10 ({small} -> {big}): time ratio", ratio, "9 to 11", 9 <= ratio <= 11)
+    for scheme in ("heat", "linear"):
+        samples = 4000
+        p32 = problem("SU", 2, "physics", scheme, square(32, h), h, samples)
+        p128 = problem("SU", 2, "physics", scheme, square(128, h), h, samples)
+        run_block(p32, 0, size=8)
+        run_block(p128, 0, size=8)
+        r = best_time(lambda: run_block(p128, 0), 2) / best_time(lambda: run_block(p32, 0), 2)
+        record(f"4 {scheme} square 128x128 / 32x32 (perimeter 4, area 16)", r, "3 to 5",
+               3 <= r <= 5)
+
+
+_MEM_SCRIPT = textwrap.dedent("""
+    import resource, sys, json
+    sys.path.insert(0, {root!r})
+    from discretize import Loop
+    from holonomy import Field, estimate_wilson_loops
+    h = 1 / 32
+    loop = Loop.polygon([[0, 0], [1, 0], [1, 1], [0, 1]])
+    res = estimate_wilson_loops(("SU", 2, "physics"), Field(1.0, h, scheme="heat"), [loop],
+                                samples=int(sys.argv[1]), block=4096, seed=1)
+    print(json.dumps(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss))
+""")
+
+
+def fig_memory(quick: bool) -> None:
+    small, big = (10_000, 100_000) if quick else (100_000, 1_000_000)
+    script = _MEM_SCRIPT.format(root=ROOT)
+    peaks = []
+    for samples in (small, big):
+        out = subprocess.run([sys.executable, "-c", script, str(samples)], capture_output=True,
+                             text=True, check=True)
+        peaks.append(json.loads(out.stdout.strip().splitlines()[-1]) / 1024)  # MiB
+    ratio = peaks[1] / peaks[0]
+    record(f"5 peak RSS {big} / {small} samples", ratio, "<= 1.5", ratio <= 1.5)
+    record(f"5 peak RSS at {big} samples", peaks[1], "< 500 MiB", peaks[1] < 500, "MiB")
+
+
+def fig_parallel(quick: bool) -> None:
+    samples = 60_000 if quick else 400_000
+    spec = textwrap.dedent(f"""
+        name = "bench-parallel"
+        [group]
+        family = "SU"
+        n = 2
+        metric = "physics"
+        [field]
+        coupling = 1.0
+        spacing = 0.03125
+        scheme = "heat"
+        [[loops]]
+        name = "square"
+        vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 1.0], [0.0, 1.0]]
+        [[loops]]
+        name = "ring"
+        circle = {{ center = [0.5, 0.5], radius = 0.4, sides = 64 }}
+        [run]
+        samples = {samples}
+        block = 4096
+        seed = 7
+    """)
+    with tempfile.TemporaryDirectory() as tmp:
+        path = os.path.join(tmp, "spec.toml")
+        with open(path, "w") as fh:
+            fh.write(spec)
+        times, results = [], []
+        for workers in (1, 2):
+            out = os.path.join(tmp, f"w{workers}")
+            t = time.perf_counter()
+            proc = subprocess.run([sys.executable, "-m", "holonomy.cli", "run", path, "--out", out,
+                                   "--workers", str(workers), "--quiet", "--json"],
+                                  capture_output=True, text=True)
+            times.append(time.perf_counter() - t)
+            if proc.returncode != 0:
+                record("6 parallel run", float("nan"), f"exit 0 (got {proc.returncode})", False)
+                print(proc.stderr[-2000:])
+                return
+            results.append([(r["estimate"], r["stderr"]) for r in json.loads(proc.stdout)["results"]])
+    same = results[0] == results[1]
+    speed = times[0] / times[1]
+    record(f"6 --workers 2 vs 1 ({times[0]:.1f} s serial), identical={same}", speed, ">= 1.7",
+           speed >= 1.7 and same, "x")
+
+
+def fig_exact_and_series(quick: bool) -> None:
+    from holonomy.groups import make_group
+
+    try:
+        from holonomy.exact import evaluate_polygon
+    except ImportError:
+        record("7 exact evaluation", float("nan"), "available", False)
+        return
+    su2 = make_group("SU", 2, "physics")
+    # a star polygon {7/2}-like loop: 7 vertices, 7 crossings is too many; use a
+    # pentagram (5 crossings) plus a doubly wound triangle-type lobe: 6 crossings
+    angles = 2 * np.pi * np.arange(5) * 2 / 5
+    pentagram = np.stack([np.cos(angles), np.sin(angles)], axis=1)
+    t = best_time(lambda: evaluate_polygon(su2, pentagram, turns=1, coupling=1.0), repeat=1)
+    record("7 exact: SU(2) pentagram (5 crossings) seconds", t, "< 1 s", t < 1.0, "s")
+    from holonomy import lattice_series
+    moves = "R2 U1 R2 U1 R2 U1 R2 U3 L2 D1 L2 D1 L2 D1 L2 D3"  # 16 horizontal unit edges
+    loop = Loop.from_moves(moves, start=(0.0, 0.0), spacing=0.25)
+    prob = WilsonProblem(family="SU", n=2, metric="physics",
+                         field=Field(1.0, 0.25, scheme="linear", reference=0.0),
+                         loops=(loop,), samples=1, block=1)
+    t = best_time(lambda: lattice_series(prob, 0, 4), repeat=1)
+    edges = int((prob.plan.steps[0][0] >= 0).sum())
+    record(f"7 series: SU(2) order 4, {edges} non-trivial edges, seconds", t, "< 5 s", t < 5.0, "s")
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(description="whitegauge performance figures")
+    parser.add_argument("--quick", action="store_true", help="smaller sample counts")
+    parser.add_argument("--only", default="", help="comma-separated figure numbers")
+    args = parser.parse_args(argv)
+    figures = {"1": fig_naive_and_floor, "3": fig_throughput, "4": fig_scaling,
+               "5": fig_memory, "6": fig_parallel, "7": fig_exact_and_series}
+    chosen = [f for f in args.only.split(",") if f] or list(figures)
+    print(f"whitegauge benchmarks on {os.cpu_count()} cores, numpy {np.__version__}")
+    for key in chosen:
+        figures[key](args.quick)
+    missed = [r for r in ROWS if not r[3]]
+    print(f"{len(ROWS) - len(missed)} met, {len(missed)} missed")
+    return 1 if missed else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
