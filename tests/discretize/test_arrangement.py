@@ -1,0 +1,167 @@
+"""Tests of the polygon arrangement (crossings, faces, exact areas, winding numbers)."""
+
+from fractions import Fraction
+
+import numpy as np
+import pytest
+from matplotlib.path import Path
+
+from discretize import arrangement
+
+
+def shoelace(v):
+    # O'Rourke 1998, "Computational Geometry in C", sec. 1.3 (shoelace formula)
+    x, y = np.asarray(v, float).T
+    return 0.5 * (np.dot(x, np.roll(y, -1)) - np.dot(np.roll(x, -1), y))
+
+
+def winding_number(v, pt):
+    # O'Rourke 1998, sec. 7.4: winding number = total signed angle / 2 pi
+    d = np.asarray(v, float) - pt
+    a = np.arctan2(d[:, 1], d[:, 0])
+    da = np.diff(np.r_[a, a[0]])
+    da = (da + np.pi) % (2 * np.pi) - np.pi
+    return int(round(da.sum() / (2 * np.pi)))
+
+
+def star(p, q, r=1.0):
+    th = 2 * np.pi * q * np.arange(p) / p + 0.1
+    return np.c_[r * np.cos(th), r * np.sin(th)]
+
+
+def limacon(m=60, a=1.0, b=0.5):
+    th = 2 * np.pi * (np.arange(m) + 0.5) / m
+    r = b + a * np.cos(th)
+    return np.c_[r * np.cos(th), r * np.sin(th)]
+
+
+class TestKnownArrangements:
+    def test_square_turns(self):
+        arr = arrangement([(0, 0), (1, 0), (1, 1), (0, 1)], turns=3)
+        assert arr.n_crossings == 0 and arr.n_faces == 1
+        assert arr.winding.tolist() == [3]
+        assert arr.exact_areas == (Fraction(1),)
+
+    def test_clockwise_square(self):
+        arr = arrangement([(0, 0), (0, 1), (1, 1), (1, 0)])
+        assert arr.winding.tolist() == [-1]
+
+    def test_figure_eight(self):
+        # the figure eight has two lobes of opposite orientation, one crossing
+        arr = arrangement([(0, 0), (2, 2), (2, 0), (0, 2)])
+        assert arr.n_crossings == 1
+        np.testing.assert_array_equal(arr.crossings, [[1.0, 1.0]])
+        assert sorted(arr.winding.tolist()) == [-1, 1]
+        assert arr.exact_areas == (Fraction(1), Fraction(1))
+
+    def test_pentagram(self):
+        # star polygon {5/2}: 5 crossings, a central pentagon of winding 2 and five
+        # tips of winding 1 (Coxeter, "Regular Polytopes", 1973, sec. 2.8: density 2)
+        arr = arrangement(star(5, 2))
+        assert arr.n_crossings == 5 and arr.n_faces == 6
+        assert sorted(arr.winding.tolist()) == [1, 1, 1, 1, 1, 2]
+        assert arr.faces[int(np.argmax(arr.winding))].size == 5
+
+    @pytest.mark.parametrize("p,q", [(7, 2), (7, 3), (8, 3)])
+    def test_star_density(self, p, q):
+        # the {p/q} star has density q: the central face is wound q times (Coxeter 1973)
+        arr = arrangement(star(p, q))
+        assert arr.winding.max() == q
+        # crossings of {p/q}: p (q - 1) (each edge crosses 2 (q - 1) others)
+        assert arr.n_crossings == p * (q - 1)
+
+    def test_limacon(self):
+        # the limacon r = 1/2 + cos(theta) has an inner loop of winding 2
+        arr = arrangement(limacon())
+        assert arr.n_crossings == 1
+        assert sorted(arr.winding.tolist()) == [1, 2]
+
+    def test_triple_point(self):
+        # three edges through one point: one vertex of degree 6, still well defined
+        v = [(-1, 0), (1, 0), (1, 1), (-1, -1), (0, -1), (0, 1)]
+        arr = arrangement(v)
+        assert arr.n_crossings == 1
+        assert arr.crossing_degree.tolist() == [3]
+        assert np.isclose(arr.signed_area, shoelace(v))
+
+
+class TestInvariants:
+    @pytest.mark.parametrize("seed", range(8))
+    @pytest.mark.parametrize("turns", [1, 2])
+    def test_random_polygons(self, seed, turns):
+        rng = np.random.default_rng(seed)
+        v = rng.standard_normal((4 + seed, 2))
+        arr = arrangement(v, turns=turns)
+        # sum_F n_F |F| = turns * shoelace area (the area formula for winding numbers,
+        # O'Rourke 1998 sec. 7.4)
+        assert np.isclose(arr.signed_area, turns * shoelace(v), rtol=1e-12, atol=1e-12)
+        exact = sum(w * a for w, a in zip(arr.winding.tolist(), arr.exact_areas))
+        vf = [(Fraction(x), Fraction(y)) for x, y in v.tolist()]
+        exact_shoelace = sum(
+            p[0] * q[1] - q[0] * p[1] for p, q in zip(vf, vf[1:] + vf[:1])
+        ) / 2
+        assert exact == turns * exact_shoelace
+        # Euler: V - E + F = 2 for the connected plane graph
+        assert len(arr.vertices) - len(arr.edges) + arr.n_faces + 1 == 2
+        # faces tile: areas are positive
+        assert np.all(arr.areas > 0)
+        # winding numbers of interior points (angle sum) match the faces
+        pts = rng.uniform(v.min(0), v.max(0), size=(200, 2))
+        for pt in pts:
+            inside = [
+                i for i in range(arr.n_faces)
+                if Path(arr.face_polygon(i)).contains_point(pt)
+            ]
+            w = turns * winding_number(v, pt)
+            if len(inside) == 1:
+                assert arr.winding[inside[0]] == w
+            elif not inside:
+                assert w == 0
+
+    def test_crossings_lie_on_two_edges(self):
+        v = star(7, 3)
+        arr = arrangement(v)
+        A, B = v, np.roll(v, -1, axis=0)
+        for x in arr.crossings:
+            e, r = B - A, x - A
+            d = np.abs(e[:, 0] * r[:, 1] - e[:, 1] * r[:, 0]) / np.hypot(*e.T)
+            assert np.sum(d < 1e-12) == 2
+
+
+class TestBadInput:
+    def test_collinear_overlap(self):
+        with pytest.raises(ValueError, match="collinear and overlap"):
+            arrangement([(0, 0), (2, 0), (2, 1), (1, 1), (1, 0), (3, 0), (3, -1), (0, -1)])
+
+    def test_vertex_on_edge(self):
+        with pytest.raises(ValueError, match="lies on the other edge"):
+            arrangement([(0, 0), (2, 0), (2, 2), (1, 0), (0, 2)])
+
+    def test_repeated_vertex(self):
+        with pytest.raises(ValueError, match="lies on the other edge"):
+            arrangement([(0, 0), (1, 0), (1, 1), (0, 0), (-1, 1), (-1, 0)])
+
+    def test_doubling_back(self):
+        with pytest.raises(ValueError, match="double back"):
+            arrangement([(0, 0), (2, 0), (1, 0), (1, 1)])
+
+    def test_nearly_touching(self):
+        with pytest.raises(ValueError, match="too close to degenerate"):
+            arrangement([(0, 0), (2, 0), (2, 2), (1, 1e-13), (0, 2)])
+
+    def test_shape(self):
+        with pytest.raises(ValueError, match=r"`vertices` must be an array of shape \(m, 2\)"):
+            arrangement([1, 2, 3])
+
+    def test_too_few(self):
+        with pytest.raises(ValueError, match="`vertices` must hold at least 3"):
+            arrangement([(0, 0), (1, 0), (1, 0), (0, 0)])
+
+    def test_not_finite(self):
+        with pytest.raises(ValueError, match="`vertices` must be finite"):
+            arrangement([(0, 0), (1, np.nan), (1, 1)])
+
+    @pytest.mark.parametrize("turns", [0, -1, 1.5, True])
+    def test_turns(self, turns):
+        with pytest.raises(ValueError, match="`turns` must be a positive integer"):
+            arrangement([(0, 0), (1, 0), (1, 1)], turns=turns)
