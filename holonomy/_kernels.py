@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .groups._heat import sample_su2_angle
+from .groups import sample_su2_angle
 
 __all__ = ["MatrixKernel", "QuaternionKernel", "kernel_for"]
 
@@ -52,7 +52,7 @@ class MatrixKernel:
     def exp(self, coords: np.ndarray) -> np.ndarray:
         if self._closed3:
             return expm_u3(self.algebra(coords))
-        return self.group.exp(self.algebra(coords))
+        return self.group.exp_matrix(self.algebra(coords))
 
     def from_matrices(self, m: np.ndarray) -> np.ndarray:
         return m

@@ -1,0 +1,255 @@
+"""Representations, characters and Casimir constants, batched over samples.
+
+Specs accepted by ``Group.rep``:
+
+- ``"fundamental"`` (alias ``"defining"``): ``pi(U) = U``.
+- ``"adjoint"``: ``Ad(U)_{ab} = <X_a, U X_b U^*>`` in the orthonormal basis (real d x d).
+- ``"trivial"``: ``pi(U) = 1``.
+- ``"spin:j"`` for SU(2) and Sp(1) (the same matrices), j = 0, 1/2, 1, 3/2, ... given as
+  ``"3/2"``, ``"1"`` or ``"1.5"``: the symmetric power ``Sym^{2j} C^2`` acting on
+  homogeneous polynomials of degree 2j, in the orthonormal monomial basis
+  ``x^p y^{2j-p} / sqrt(p! (2j-p)!)``.
+- ``"power:k"``: the class function ``tr(U^k)`` (k >= 1), not a representation for
+  k >= 2; its "dimension" is N (so that the normalized value at the identity is 1) and
+  ``casimir`` is None.
+
+The Casimir constant is computed from the basis: ``C = sum_a dpi(X_a)^2``, and if
+``C = -c Id`` (checked to 1e-10) then ``casimir = c``; otherwise None.
+
+References
+----------
+.. [1] H. Georgi, "Lie Algebras in Particle Physics", 2nd ed., Westview, 1999,
+   Chapters 3 and 7 (SU(2) spin j, Casimir operators).
+.. [2] B. C. Hall, "Lie Groups, Lie Algebras, and Representations", 2nd ed., Springer,
+   2015, Section 4.6 (the representations V_m of SU(2) on homogeneous polynomials) and
+   Section 10.2 (the Casimir element).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from fractions import Fraction
+from typing import Any, Callable
+
+import numpy as np
+
+__all__ = ["Representation", "make_representation", "parse_spin"]
+
+
+@dataclass(frozen=True, eq=False)
+class Representation:
+    """A representation (or class function) of a `Group`.
+
+    Attributes
+    ----------
+    group : Group
+    name : str
+        Canonical spec, e.g. ``"spin:3/2"``.
+    dim : int
+        Dimension (value of the unnormalized character at the identity).
+    irreducible : bool
+    casimir : float or None
+        ``c`` with ``sum_a dpi(X_a)^2 = -c Id``, computed from the basis; None when the
+        Casimir operator is not a multiple of the identity or ``dpi`` is undefined.
+    """
+
+    group: Any
+    name: str
+    dim: int
+    irreducible: bool
+    _matrix: Callable | None = field(repr=False, default=None)
+    _algebra: Callable | None = field(repr=False, default=None)
+    _character: Callable | None = field(repr=False, default=None)
+    casimir: float | None = None
+
+    def matrix(self, U: np.ndarray) -> np.ndarray:
+        """Representation matrices ``(..., dim, dim)`` of ``U (..., N, N)``."""
+        if self._matrix is None:
+            raise ValueError(f"`rep` {self.name!r} is a class function without matrices.")
+        return self._matrix(np.asarray(U))
+
+    def algebra_matrix(self, X: np.ndarray) -> np.ndarray:
+        """The differential ``dpi(X)`` of algebra matrices ``X (..., N, N)``."""
+        if self._algebra is None:
+            raise ValueError(f"`rep` {self.name!r} has no Lie-algebra representation.")
+        return self._algebra(np.asarray(X))
+
+    def character(self, U: np.ndarray, normalized: bool = True) -> np.ndarray:
+        """Character ``tr pi(U)`` (divided by ``dim`` if ``normalized``), complex ``(...)``."""
+        chi = np.asarray(self._character(np.asarray(U)), dtype=complex)
+        return chi / self.dim if normalized else chi
+
+    def casimir_operator(self) -> np.ndarray:
+        """``sum_a dpi(X_a)^2`` computed from the group's basis."""
+        D = self.algebra_matrix(self.group.basis)
+        return np.einsum("aij,ajk->ik", D, D)
+
+    def __repr__(self) -> str:
+        return f"Representation({self.group!s}, {self.name!r}, dim={self.dim})"
+
+
+def _scalar_casimir(C: np.ndarray) -> float | None:
+    c = -np.trace(C).real / C.shape[0]
+    if np.linalg.norm(C + c * np.eye(C.shape[0])) <= 1e-10 * max(1.0, abs(c)):
+        return float(c) + 0.0  # no negative zero
+    return None
+
+
+def parse_spin(text: str) -> Fraction:
+    """Parse a spin ``"3/2"``, ``"1"``, ``"1.5"`` into a Fraction; rejects non-half-integers."""
+    try:
+        j = Fraction(text.strip())
+    except (ValueError, ZeroDivisionError):
+        j = None
+    if j is None or j < 0 or (2 * j).denominator != 1:
+        raise ValueError(
+            f"`spec` spin must be a non-negative half-integer such as 0, 1/2, 1, 3/2 "
+            f"(written 'spin:3/2', 'spin:1' or 'spin:1.5'); got {text!r}."
+        )
+    return j
+
+
+def _make_representation_iv(group, spec):
+    if not isinstance(spec, str):
+        raise TypeError(
+            f"`spec` must be a string: 'fundamental', 'adjoint', 'trivial', 'spin:j' or "
+            f"'power:k'; got {spec!r}."
+        )
+    s = spec.strip().lower()
+    if s in ("fundamental", "defining", "fund"):
+        return ("fundamental", None)
+    if s in ("adjoint", "adj"):
+        return ("adjoint", None)
+    if s == "trivial":
+        return ("trivial", None)
+    if s.startswith("spin:"):
+        if not (group.N == 2 and group.family in ("SU", "Sp")):
+            raise ValueError(
+                f"`spec` {spec!r}: spin representations exist for SU(2) and Sp(1) only; "
+                f"the group is {group}. Accepted here: 'fundamental', 'adjoint', 'trivial', "
+                f"'power:k'."
+            )
+        return ("spin", parse_spin(s[5:]))
+    if s.startswith("power:"):
+        try:
+            k = int(s[6:])
+        except ValueError:
+            k = 0
+        if k < 1:
+            raise ValueError(f"`spec` 'power:k' needs an integer k >= 1; got {spec!r}.")
+        return ("power", k)
+    raise ValueError(
+        f"`spec` must be 'fundamental', 'adjoint', 'trivial', 'spin:j' (SU(2), Sp(1)) or "
+        f"'power:k'; got {spec!r}."
+    )
+
+
+def make_representation(group, spec: str) -> Representation:
+    """Build the representation ``spec`` of ``group`` (see the module docstring)."""
+    kind, arg = _make_representation_iv(group, spec)
+    if kind == "fundamental":
+        # SO(2) acting on C^2 splits into two characters.
+        r = Representation(
+            group, "fundamental", group.N, not (group.family == "SO" and group.n == 2),
+            _matrix=lambda U: U,
+            _algebra=lambda X: X,
+            _character=lambda U: np.trace(U, axis1=-2, axis2=-1),
+        )
+    elif kind == "trivial":
+        r = Representation(
+            group, "trivial", 1, True,
+            _matrix=lambda U: np.ones(U.shape[:-2] + (1, 1)),
+            _algebra=lambda X: np.zeros(X.shape[:-2] + (1, 1)),
+            _character=lambda U: np.ones(U.shape[:-2]),
+        )
+    elif kind == "adjoint":
+        r = _adjoint(group)
+    elif kind == "spin":
+        r = _spin(group, arg)
+    else:
+        r = Representation(
+            group, f"power:{arg}", group.N, arg == 1,
+            _character=lambda U, k=arg: np.trace(np.linalg.matrix_power(U, k), axis1=-2, axis2=-1),
+        )
+        if arg == 1:
+            r = Representation(group, "power:1", group.N, True, _matrix=lambda U: U,
+                               _algebra=lambda X: X, _character=r._character)
+    if r._algebra is not None:
+        object.__setattr__(r, "casimir", _scalar_casimir(r.casimir_operator()))
+    return r
+
+
+# ----------------------------------------------------------------------- adjoint
+def _adjoint(group) -> Representation:
+    B = group.basis
+    k = group.k
+    # U(n), n >= 2: the centre gives a trivial summand; so(4) = so(3) + so(3).
+    irreducible = not ((group.family == "U" and group.n >= 2) or (group.family == "SO" and group.n == 4))
+
+    def matrix(U):
+        Y = U[..., None, :, :] @ B @ np.conj(np.swapaxes(U, -1, -2))[..., None, :, :]
+        return -k * np.einsum("aij,...bji->...ab", B, Y).real
+
+    def algebra(X):
+        Y = X[..., None, :, :] @ B - B @ X[..., None, :, :]
+        return -k * np.einsum("aij,...bji->...ab", B, Y).real
+
+    def character(U):
+        # tr Ad(U) = sum_a <X_a, U X_a U^*> = -k Re sum_a tr(X_a U X_a U^*).
+        UH = np.conj(np.swapaxes(U, -1, -2))[..., None, :, :]
+        Y = (U[..., None, :, :] @ B) @ UH
+        return -k * np.einsum("aij,...aji->...", B, Y).real
+
+    return Representation(group, "adjoint", group.dim, irreducible, matrix, algebra, character)
+
+
+# -------------------------------------------------------------------------- spin
+def _spin_fraction_name(j: Fraction) -> str:
+    return f"spin:{j.numerator}/{j.denominator}" if j.denominator != 1 else f"spin:{j.numerator}"
+
+
+def _spin(group, j: Fraction) -> Representation:
+    m = int(2 * j)  # degree of the homogeneous polynomials
+    dim = m + 1
+    fact = np.array([math.factorial(p) * math.factorial(m - p) for p in range(dim)], float)
+    norm = np.sqrt(fact)  # f_p = x^p y^(m-p) / norm[p]
+
+    def matrix(U):
+        # (pi(U) f)(x, y) = f((x, y) U): x -> a x + c y, y -> b x + d y.
+        a, b = U[..., 0, 0], U[..., 0, 1]
+        c, d = U[..., 1, 0], U[..., 1, 1]
+        out = np.zeros(U.shape[:-2] + (dim, dim), complex)
+        for p in range(dim):  # column: image of x^p y^(m-p)
+            q = m - p
+            for s in range(p + 1):  # x^s from (a x + c y)^p
+                ps = math.comb(p, s) * a**s * c ** (p - s)
+                for r in range(q + 1):  # x^r from (b x + d y)^q
+                    term = ps * (math.comb(q, r) * b**r * d ** (q - r))
+                    out[..., s + r, p] += term
+        return out * (norm[:, None] / norm[None, :])
+
+    def algebra(X):
+        a, b = X[..., 0, 0], X[..., 0, 1]
+        c, d = X[..., 1, 0], X[..., 1, 1]
+        out = np.zeros(X.shape[:-2] + (dim, dim), complex)
+        for p in range(dim):
+            q = m - p
+            # d/dt (x + t(a x + c y))^p (y + t(b x + d y))^q at t = 0.
+            out[..., p, p] += p * a + q * d
+            if p >= 1:
+                out[..., p - 1, p] += p * c
+            if q >= 1:
+                out[..., p + 1, p] += q * b
+        return out * (norm[:, None] / norm[None, :])
+
+    def character(U):
+        # chi_j = U_{2j}(cos theta) (Chebyshev polynomial of the second kind),
+        # cos theta = tr(U)/2 (Georgi 1999, Ch. 3); three-term recurrence.
+        x = 0.5 * np.trace(U, axis1=-2, axis2=-1).real
+        prev, cur = np.zeros_like(x), np.ones_like(x)
+        for _ in range(m):
+            prev, cur = cur, 2 * x * cur - prev
+        return cur
+
+    return Representation(group, _spin_fraction_name(j), dim, True, matrix, algebra, character)
