@@ -1,0 +1,30 @@
+"""Exact references for Wilson loops: closed forms (simple loops, U(1) from windings,
+U(N) loops wound n times and their free-probability limit, one-plaquette Wilson-action
+values, one Gaussian step, the sphere) and the dispatcher that picks the one that
+applies to a loop; exact evaluation of general polygonal loops.
+
+Closed forms
+------------
+simple_loop, u1_loop, unitary_casimir, unitary_dimension, unitary_wound_loop,
+free_unitary_moment, wilson_plaquette, wilson_lattice_loop, gaussian_step,
+sphere_partition_function, sphere_wilson_loop
+
+Dispatcher
+----------
+ExactValue, exact_wilson_loop
+
+Exact evaluation of any polygonal loop
+--------------------------------------
+evaluate_polygon, evaluate_word, ExactEvaluation, face_measures (lasso decomposition and
+tensor contraction); lasso_word, reduce_for_trace, ReducedWord, free_reduce,
+cyclic_reduce, inverse_word (words in independent face variables)
+"""
+
+from ._simple import *  # noqa: F401,F403
+from ._unitary import *  # noqa: F401,F403
+from ._wilson_action import *  # noqa: F401,F403
+from ._gaussian_step import *  # noqa: F401,F403
+from ._sphere import *  # noqa: F401,F403
+from ._dispatch import *  # noqa: F401,F403
+from ._word import *  # noqa: F401,F403
+from ._evaluate import *  # noqa: F401,F403

@@ -1,0 +1,229 @@
+"""Pick the exact reference that applies to a loop, group and representation.
+
+Routes, in order (the first that applies wins):
+
+1. ``u1-windings``: U(1), any loop, any representation with a scalar Casimir c (a
+   charge; ``power:p`` is the charge p, ``c = p^2 / k``):
+   ``exp(-lambda c sum_F n_F^2 mu(F) / 2)`` (:func:`u1_loop`).
+2. ``simple-loop``: a simple loop (a lattice loop visiting no node twice, or a polygon
+   without self-intersections, one turn) in a representation whose Casimir operator is
+   a scalar: ``exp(-c lambda mu / 2)`` with mu the measure of the enclosed region
+   (:func:`simple_loop`).
+3. ``hook-expansion``: U(N) or SU(N), a simple loop wound n times, the fundamental
+   representation (or the class function ``power:p``, giving ``tr U^(p n)``):
+   :func:`unitary_wound_loop`.
+4. ``polygon-evaluation``: otherwise ``holonomy.exact.evaluate_polygon`` (the lasso
+   decomposition and tensor contraction), when it supports the case.
+
+Otherwise the answer is None. The measure of a region is ``sum_cells |n_cell| mu(cell)``
+for lattice loops with the given :class:`discretize.AreaForm`; for polygons the
+density integrated over each face of the arrangement.
+"""
+
+from __future__ import annotations
+
+import numbers
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from discretize import AreaForm, LatticeLoop, Loop, arrangement
+
+from ._simple import simple_loop
+from ._unitary import unitary_wound_loop
+
+__all__ = ["ExactValue", "exact_wilson_loop"]
+
+
+@dataclass(frozen=True)
+class ExactValue:
+    """An exact (closed-form or exactly evaluated) Wilson loop.
+
+    Attributes
+    ----------
+    value : complex
+        The normalized Wilson loop ``E[chi_pi(H)] / d_pi``.
+    method : str
+        The route used: ``"u1-windings"``, ``"simple-loop"``, ``"hook-expansion"`` or
+        ``"polygon-evaluation"``.
+    kind : str
+        Always ``"exact"`` (as opposed to Monte Carlo estimates).
+    details : dict
+        What the route used (turns, enclosed measure, Casimir, ...).
+    """
+
+    value: complex
+    method: str
+    kind: str = "exact"
+    details: dict = field(default_factory=dict, compare=False)
+
+
+@dataclass(frozen=True)
+class _Shape:
+    """What the dispatcher needs to know about a loop."""
+
+    windings: np.ndarray  # per face or cell
+    measures: np.ndarray | None  # mu per face or cell (None: density not supported)
+    simple: bool
+    turns: int  # n if the loop is a simple loop wound n times, else 0
+    vertices: np.ndarray | None  # one period's corner coordinates, for evaluate_polygon
+    periods: int  # how many times the loop repeats ``vertices``
+    area: AreaForm  # the density, passed on to the general route
+
+
+def _lattice_shape(loop: LatticeLoop, area: AreaForm) -> _Shape:
+    w = loop.winding_numbers()
+    mu = area.cell_measures(loop.grid)
+    nodes = loop.nodes[:-1]
+    m = len(nodes)
+    period = m
+    # the smallest period p dividing m with nodes[i] == nodes[i + p]
+    for p in range(1, m):
+        if m % p == 0 and np.array_equal(nodes, np.roll(nodes, -p, axis=0)):
+            period = p
+            break
+    one = nodes[:period]
+    simple_period = len(np.unique(one, axis=0)) == period
+    turns = m // period if simple_period else 0
+    coords = loop.grid.node_coordinates(one)
+    # keep the corners only (drop nodes in the middle of straight runs)
+    d_in = one - np.roll(one, 1, axis=0)
+    d_out = np.roll(one, -1, axis=0) - one
+    corners = coords[np.any(d_in != d_out, axis=1)]
+    return _Shape(w, mu, simple_period and turns == 1, turns, corners, m // period, area)
+
+
+def _polygon_shape(loop: Loop, area: AreaForm) -> _Shape:
+    arr = arrangement(loop.vertices, loop.turns)
+    scale = area.base if area.is_constant else None
+    if scale is not None:
+        mu = np.asarray(arr.areas, dtype=float) * scale
+    else:
+        try:  # exact integration of a piecewise-constant density over polygonal faces
+            from ._evaluate import face_measures
+        except ImportError:
+            face_measures = None
+        mu = None if face_measures is None else np.asarray(face_measures(arr, area), dtype=float)
+    simple_period = arr.n_crossings == 0 and arr.n_faces == 1
+    turns = loop.turns if simple_period else 0
+    return _Shape(np.asarray(arr.winding), mu, simple_period and turns == 1, turns,
+                  loop.vertices, loop.turns, area)
+
+
+def _exact_wilson_loop_iv(group, rep, loop, coupling, area):
+    for attr in ("family", "n", "k", "rep"):
+        if not hasattr(group, attr):
+            raise TypeError(f"`group` must be a holonomy.groups Group, got {type(group).__name__}.")
+    if isinstance(rep, str):
+        rep_obj = group.rep(rep)
+    elif hasattr(rep, "casimir") and hasattr(rep, "name"):
+        rep_obj = rep
+    else:
+        raise TypeError(f"`rep` must be a representation spec string or a Representation, got {rep!r}.")
+    if not isinstance(loop, (LatticeLoop, Loop)):
+        raise TypeError(
+            f"`loop` must be a discretize LatticeLoop or Loop, got {type(loop).__name__}."
+        )
+    if isinstance(coupling, bool) or not isinstance(coupling, numbers.Real):
+        raise TypeError(f"`coupling` must be a real number > 0, got {coupling!r}.")
+    if not (np.isfinite(coupling) and coupling > 0):
+        raise ValueError(f"`coupling` must be a finite number > 0, got {coupling!r}.")
+    if area is None:
+        area = AreaForm()
+    elif not isinstance(area, AreaForm):
+        raise TypeError(f"`area` must be a discretize AreaForm or None, got {type(area).__name__}.")
+    return group, rep_obj, loop, float(coupling), area
+
+
+def _power_of(rep) -> int | None:
+    """p if the representation is the fundamental (p = 1) or the class function tr U^p."""
+    name = getattr(rep, "name", "")
+    if name in ("fundamental", "defining"):
+        return 1
+    if name.startswith("power:"):
+        try:
+            return int(name.split(":", 1)[1])
+        except ValueError:
+            return None
+    return None
+
+
+def exact_wilson_loop(group, rep, loop, *, coupling: float, area=None) -> ExactValue | None:
+    r"""The exact continuum Wilson loop ``E[chi_pi(H)] / d_pi``, if a route applies.
+
+    Parameters
+    ----------
+    group : Group
+        From :func:`holonomy.groups.make_group`; its metric fixes the Casimirs.
+    rep : str or Representation
+        Representation spec (``"fundamental"``, ``"spin:1"``, ``"power:2"``, ...).
+    loop : discretize.LatticeLoop or discretize.Loop
+        The loop. Lattice loops use their per-cell winding numbers; polygons use the
+        faces of their arrangement.
+    coupling : float
+        lambda > 0.
+    area : discretize.AreaForm, optional
+        Area density (default Lebesgue); a signed one gives the formal continuation.
+
+    Returns
+    -------
+    ExactValue or None
+        None if no closed form applies and no general evaluation is available.
+
+    References
+    ----------
+    .. [1] T. Levy, "Yang-Mills measure on compact surfaces", Mem. Amer. Math. Soc. 166
+       (2003), no. 790 (simple loops; U(1) through independent faces).
+    .. [2] E. M. Rains, J. Theoret. Probab. 10 (1997) 659-679; T. Levy, Adv. Math. 218
+       (2008) 537-575 (loops wound n times, U(N)).
+
+    Examples
+    --------
+    >>> from discretize import Grid, LatticeLoop
+    >>> from holonomy.groups import make_group
+    >>> from holonomy.exact import exact_wilson_loop
+    >>> loop = LatticeLoop.from_moves(Grid((0.0, 0.0), 1.0, (4, 4)), "R2 U1 L2 D1")
+    >>> r = exact_wilson_loop(make_group("SU", 2, "physics"), "fundamental", loop, coupling=1.0)
+    >>> r.method, round(r.value.real, 12)  # exp(-(3/4) * 2 / 2)
+    ('simple-loop', 0.472366552741)
+    """
+    group, rep, loop, lam, area = _exact_wilson_loop_iv(group, rep, loop, coupling, area)
+    shape = (_lattice_shape if isinstance(loop, LatticeLoop) else _polygon_shape)(loop, area)
+    c = rep.casimir
+    p = _power_of(rep)
+    if c is None and group.family == "U" and group.n == 1 and p is not None:
+        c = p * p / group.k  # U(1): tr U^p is the character of charge p
+    if shape.measures is not None:
+        n = shape.windings.astype(float)
+        mu = shape.measures
+        if group.family == "U" and group.n == 1 and c is not None:
+            total = float(np.sum(n * n * mu))
+            return ExactValue(complex(np.exp(-lam * c * total / 2)), "u1-windings",
+                              details={"casimir": c, "sum_n2_mu": total})
+        if shape.simple and c is not None:
+            enclosed = float(np.sum(np.abs(n) * mu))
+            return ExactValue(complex(simple_loop(c, enclosed, lam)), "simple-loop",
+                              details={"casimir": c, "measure": enclosed})
+        if group.family in ("U", "SU") and shape.turns >= 1 and p is not None:
+            enclosed = float(np.sum(np.abs(n) * mu)) / shape.turns
+            value = unitary_wound_loop(group.N, p * shape.turns, lam * enclosed,
+                                       group.family == "SU", k=group.k)
+            return ExactValue(complex(value), "hook-expansion",
+                              details={"turns": p * shape.turns, "measure": enclosed})
+    return _general_route(group, rep, shape, lam)
+
+
+def _general_route(group, rep, shape: _Shape, lam: float) -> ExactValue | None:
+    try:
+        from ._evaluate import evaluate_polygon  # the general route; may be absent
+    except ImportError:
+        return None
+    try:
+        out = evaluate_polygon(group, shape.vertices, shape.periods, coupling=lam,
+                               rep=rep.name, area_density=shape.area)
+    except (ValueError, NotImplementedError):
+        # not supported by the general route (representation, size, degenerate loop)
+        return None
+    value = getattr(out, "value", out)
+    return ExactValue(complex(value), "polygon-evaluation",
+                      details={"turns": shape.periods, "evaluation": out})
