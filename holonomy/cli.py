@@ -1,27 +1,244 @@
-"""The ``whitegauge`` command line."""
+"""The ``whitegauge`` command line.
+
+Subcommands: ``run``, ``exact``, ``series``, ``study``, ``demo`` (see ``whitegauge
+SUBCOMMAND --help``). Exit codes: 0 success; 2 invalid input, with one line
+``whitegauge: error: <key path>: <rule>`` on stderr and no traceback; 1 internal error
+(set ``WHITEGAUGE_DEBUG=1`` to see its traceback).
+"""
 
 from __future__ import annotations
 
 import argparse
+import json
+import os
 import sys
+import traceback
 
 from holonomy import __version__
 
+__all__ = ["build_parser", "main"]
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors (``whitegauge: error: ...``) and exit code 2."""
+
+    def error(self, message: str):  # noqa: D401
+        # "argument --workers: got ..." -> "--workers: got ..." (the key path first)
+        raise _UsageError(message.removeprefix("argument "))
+
+
+class _UsageError(Exception):
+    pass
+
+
+def _workers(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        v = 0
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"got {text!r}; expected an integer >= 1")
+    return v
+
+
+def _order(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        v = -1
+    if v < 0:
+        raise argparse.ArgumentTypeError(f"got {text!r}; expected an integer >= 0")
+    return v
+
+
+def _spacings(text: str) -> tuple[float, ...]:
+    rule = "a comma-separated list of at least two distinct numbers > 0, like 0.5,0.25,0.125"
+    try:
+        vals = tuple(float(t) for t in text.split(","))
+    except ValueError:
+        vals = ()
+    if len(vals) < 2 or any(not (v > 0) or v == float("inf") for v in vals) \
+            or len(set(vals)) != len(vals):
+        raise argparse.ArgumentTypeError(f"got {text!r}; expected {rule}")
+    return tuple(sorted(vals, reverse=True))
+
+
+def _schemes(text: str) -> tuple[str, ...]:
+    from holonomy.experiment import SCHEMES
+
+    vals = tuple(t.strip() for t in text.split(",") if t.strip())
+    if not vals or any(v not in SCHEMES for v in vals) or len(set(vals)) != len(vals):
+        raise argparse.ArgumentTypeError(
+            f"got {text!r}; expected a comma-separated list of distinct names "
+            f"from {', '.join(SCHEMES)}")
+    return vals
+
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="whitegauge",
         description="Stochastic holonomy experiments in two-dimensional gauge theory.",
     )
     parser.add_argument("--version", action="version", version=f"whitegauge {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    p = sub.add_parser("run", help="run a spec: Monte Carlo Wilson loops with error bars")
+    p.add_argument("spec", metavar="SPEC", help="the experiment spec (TOML)")
+    p.add_argument("--out", metavar="DIR", help="output folder (default: whitegauge-<name>)")
+    p.add_argument("--workers", type=_workers, default=1, metavar="N",
+                   help="worker processes (default 1: run inline)")
+    p.add_argument("--resume", action="store_true",
+                   help="keep the finished blocks of an interrupted run in DIR")
+    p.add_argument("--json", action="store_true", help="print the results object")
+    p.add_argument("--quiet", action="store_true", help="no progress bar, no table")
+
+    p = sub.add_parser("exact", help="exact values of the spec's loops where known")
+    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("--json", action="store_true")
+
+    p = sub.add_parser("series", help="perturbative coefficients c_0..c_M per loop")
+    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("--order", type=_order, required=True, metavar="M")
+    p.add_argument("--json", action="store_true")
+
+    p = sub.add_parser("study", help="the loops at several spacings and schemes, "
+                       "on one coupled noise field; convergence rates")
+    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("--spacings", type=_spacings, required=True, metavar="H1,H2,...")
+    p.add_argument("--schemes", type=_schemes, default=("heat", "linear", "gauss"),
+                   metavar="S1,S2,...")
+    p.add_argument("--out", metavar="DIR", help="output folder (default: "
+                   "whitegauge-<name>-study)")
+    p.add_argument("--workers", type=_workers, default=1, metavar="N")
+    p.add_argument("--resume", action="store_true",
+                   help="keep the finished blocks of an interrupted study in DIR")
+    p.add_argument("--json", action="store_true")
+    p.add_argument("--quiet", action="store_true")
+
+    p = sub.add_parser("demo", help="a built-in survey: report.md, plots, results.json")
+    p.add_argument("--out", metavar="DIR", default="whitegauge-demo")
+    p.add_argument("--workers", type=_workers, default=None, metavar="N",
+                   help="worker processes (default: the number of cores, at most 2)")
+    p.add_argument("--json", action="store_true")
+    p.add_argument("--quiet", action="store_true")
     return parser
 
 
-def main(argv: list[str] | None = None) -> int:
-    parser = build_parser()
-    parser.parse_args(argv)
-    parser.print_help()
+def _progress(args) -> bool:
+    return not getattr(args, "quiet", False) and sys.stderr.isatty()
+
+
+def _cmd_run(args) -> int:
+    from holonomy.experiment import load_spec, run_spec
+    from holonomy.experiment._report import format_table
+
+    spec = load_spec(args.spec, purpose="run")
+    out = args.out or f"whitegauge-{spec.name}"
+    outcome = run_spec(spec, out=out, workers=args.workers, resume=args.resume,
+                       progress=_progress(args))
+    if args.json:
+        print(json.dumps(outcome.results, indent=2))
+    elif not args.quiet:
+        print(f"{spec.name}: {spec.family}({spec.n}), {spec.scheme} scheme, spacing "
+              f"{spec.spacing:g}, {spec.samples} samples (seed {spec.seed})")
+        print(format_table(outcome.results))
+        print(f"wrote {os.path.join(out, 'results.json')}, results.csv, run.sqlite "
+              f"({outcome.stats.computed} blocks computed, {outcome.stats.reused} reused)")
     return 0
+
+
+def _cmd_exact(args) -> int:
+    from holonomy.experiment import exact_results, load_spec
+    from holonomy.experiment._report import format_exact_table
+
+    spec = load_spec(args.spec, purpose="exact")
+    obj = exact_results(spec)
+    if args.json:
+        print(json.dumps(obj, indent=2))
+    else:
+        print(format_exact_table(obj))
+    return 0
+
+
+def _cmd_series(args) -> int:
+    from holonomy.experiment import load_spec, series_results
+    from holonomy.experiment._report import format_series_table
+
+    spec = load_spec(args.spec, purpose="series")
+    obj = series_results(spec, args.order)
+    if args.json:
+        print(json.dumps(obj, indent=2))
+    else:
+        print(format_series_table(obj))
+    return 0
+
+
+def _cmd_study(args) -> int:
+    from holonomy.experiment import load_spec, run_study
+
+    spec = load_spec(args.spec, purpose="study")
+    out = args.out or f"whitegauge-{spec.name}-study"
+    outcome = run_study(spec, spacings=args.spacings, schemes=args.schemes, out=out,
+                        workers=args.workers, resume=args.resume,
+                        progress=_progress(args))
+    if args.json:
+        print(json.dumps(outcome.results, indent=2))
+    elif not args.quiet:
+        print(outcome.table)
+        print(f"wrote {os.path.join(out, 'study.json')}, study.csv, convergence.png")
+    return 0
+
+
+def _cmd_demo(args) -> int:
+    from holonomy.experiment import run_demo
+
+    outcome = run_demo(out=args.out, workers=args.workers, progress=_progress(args))
+    if args.json:
+        print(json.dumps(outcome.results, indent=2))
+    elif not args.quiet:
+        print(outcome.table)
+        print(f"wrote {args.out}/report.md, results.json and "
+              f"{len(outcome.plots)} plots")
+    return 0
+
+
+_COMMANDS = {"run": _cmd_run, "exact": _cmd_exact, "series": _cmd_series,
+             "study": _cmd_study, "demo": _cmd_demo}
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point; returns the exit code (0 ok, 2 invalid input, 1 internal error)."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except _UsageError as exc:
+        print(f"whitegauge: error: {exc}", file=sys.stderr)
+        return 2
+    except SystemExit as exc:  # --help, --version
+        return int(exc.code or 0)
+    if args.command is None:
+        parser.print_help()
+        return 0
+    from holonomy.experiment import SpecError
+
+    try:
+        return _COMMANDS[args.command](args)
+    except SpecError as exc:
+        print(f"whitegauge: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("whitegauge: interrupted (finished blocks are kept; rerun with --resume)",
+              file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 1
+    except Exception as exc:  # noqa: BLE001  (exit 1, a short line, no traceback)
+        if os.environ.get("WHITEGAUGE_DEBUG"):
+            traceback.print_exc()
+        msg = " ".join(str(exc).split())
+        print(f"whitegauge: internal error: {type(exc).__name__}: {msg} (set "
+              "WHITEGAUGE_DEBUG=1 for the traceback)", file=sys.stderr)
+        return 1
 
 
 if __name__ == "__main__":

@@ -1,0 +1,239 @@
+"""Results objects, files and tables: ``results.json`` (written atomically),
+``results.csv``, ``report.md`` and PNG plots (matplotlib, Agg backend).
+
+The results object (a contract)::
+
+    {"name", "spec_sha256", "seed", "samples", "block",
+     "results": [{"loop", "rep", "estimate", "estimate_imag", "stderr", "exact",
+                  "exact_method", "z", "continuum", "area", "samples", ...}],
+     "provenance": {"whitegauge", "numpy", "scipy", "python", "start",
+                    "wall_seconds", "workers", ...}}
+
+Extra per-loop fields: ``kind`` (``"estimate"``), ``scheme``, ``stderr_imag``,
+``stderr_batch`` (batch means), ``drift`` (distance of the sampled holonomies from the
+group), ``area_error`` (lattice area minus the specified area), ``continuum_method``,
+and ``exact_note``/``continuum_note`` saying why a reference is null. Non-finite
+numbers are written as null.
+
+``z = (estimate - exact) / stderr``: with a correct sampler it is a draw from about
+N(0, 1) (central limit theorem), so |z| > 4 flags a problem.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+from typing import Any, Sequence
+
+__all__ = ["build_results", "write_results", "write_json_atomic", "format_table",
+           "format_exact_table", "format_series_table", "fmt_value", "clean"]
+
+
+def clean(obj: Any) -> Any:
+    """A JSON-safe copy: numpy scalars to Python, non-finite floats to None."""
+    if isinstance(obj, dict):
+        return {str(k): clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [clean(v) for v in obj]
+    if hasattr(obj, "item") and not isinstance(obj, (str, bytes)):
+        try:
+            obj = obj.item()
+        except (ValueError, AttributeError):
+            pass
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    return obj
+
+
+def _z(estimate: float, exact: float | None, stderr: float) -> float | None:
+    if exact is None or not (stderr > 0) or not math.isfinite(stderr):
+        return None
+    return (estimate - exact) / stderr
+
+
+def build_results(spec, problem, estimate, provenance: dict, *,
+                  references: Sequence | None = None) -> dict:
+    """The results object of a run of ``spec`` (see the module docstring)."""
+    from ._references import loop_references
+
+    if references is None:
+        references = [loop_references(spec, problem, i) for i in range(len(spec.loops))]
+    rows = []
+    for i, (le, ref) in enumerate(zip(estimate.loops, references)):
+        rows.append({
+            "loop": le.name,
+            "rep": spec.rep,
+            "kind": "estimate",
+            "scheme": estimate.scheme,
+            "estimate": le.estimate,
+            "estimate_imag": le.estimate_imag,
+            "stderr": le.stderr,
+            "stderr_imag": le.stderr_imag,
+            "stderr_batch": le.stderr_batch,
+            "exact": ref.exact,
+            "exact_method": ref.exact_method,
+            "z": _z(le.estimate, ref.exact, le.stderr),
+            "continuum": ref.continuum,
+            "continuum_method": ref.continuum_method,
+            "area": le.area,
+            "area_error": float(problem.area_errors[i]),
+            "samples": le.samples,
+            "drift": le.drift,
+            "reprojected": le.reprojected,
+            "exact_note": ref.exact_note,
+            "continuum_note": ref.continuum_note,
+        })
+    return clean({
+        "name": spec.name,
+        "spec_sha256": spec.sha256,
+        "seed": spec.seed,
+        "samples": spec.samples,
+        "block": spec.block,
+        "n_blocks": estimate.n_blocks,
+        "group": {"family": spec.family, "n": spec.n, "metric": spec.metric},
+        "field": {"coupling": spec.coupling, "spacing": spec.spacing,
+                  "gauge": spec.gauge, "reference": spec.reference,
+                  "scheme": spec.scheme, "path": estimate.path},
+        "results": rows,
+        "seed_record": {"entropy": spec.seed, "spawn_key": "(block,)",
+                        "blocks": estimate.n_blocks},
+        "provenance": provenance,
+    })
+
+
+def write_json_atomic(obj: Any, path: str | Path) -> Path:
+    """Write ``obj`` as JSON to ``path`` through a temporary file and ``os.replace``,
+    so a reader never sees a half-written file."""
+    path = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            json.dump(clean(obj), fh, indent=2, allow_nan=False)
+            fh.write("\n")
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+    return path
+
+
+_CSV_FIELDS = ("loop", "rep", "kind", "scheme", "estimate", "estimate_imag", "stderr",
+               "stderr_batch", "exact", "exact_method", "z", "continuum", "area",
+               "area_error", "samples", "drift")
+
+
+def _write_text_atomic(text: str, path: Path) -> Path:
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+        fh.write(text)
+    os.replace(tmp, path)
+    return path
+
+
+def results_csv(results: dict) -> str:
+    buf = io.StringIO()
+    w = csv.DictWriter(buf, fieldnames=_CSV_FIELDS, extrasaction="ignore",
+                       lineterminator="\n")
+    w.writeheader()
+    for row in results["results"]:
+        w.writerow({k: ("" if row.get(k) is None else
+                        (repr(row[k]) if isinstance(row.get(k), float) else row[k]))
+                    for k in _CSV_FIELDS})
+    return buf.getvalue()
+
+
+def write_results(results: dict, out: str | Path) -> dict[str, str]:
+    """Write ``results.json`` and ``results.csv`` into ``out``; return their paths."""
+    out = Path(out)
+    out.mkdir(parents=True, exist_ok=True)
+    j = write_json_atomic(results, out / "results.json")
+    c = _write_text_atomic(results_csv(results), out / "results.csv")
+    return {"results.json": str(j), "results.csv": str(c)}
+
+
+# --------------------------------------------------------------------------- tables
+
+def _digits(err: float | None) -> int:
+    if err is None or not math.isfinite(err) or err <= 0:
+        return 6
+    return max(1, min(12, 1 - int(math.floor(math.log10(err)))))
+
+
+def fmt_value(value: float | None, err: float | None, kind: str) -> str:
+    """``value ± err`` rounded to the error's second significant digit; exact values
+    are shown with ``± 0``."""
+    if value is None:
+        return "null"
+    if kind == "exact":
+        return f"{value:.10g} ± 0"
+    d = _digits(err)
+    if err is None or not math.isfinite(err):
+        return f"{value:.{d}f} ± ?"
+    return f"{value:.{d}f} ± {err:.{d}f}"
+
+
+def _render(rows: list[list[str]], header: list[str]) -> str:
+    widths = [max(len(r[c]) for r in [header] + rows) for c in range(len(header))]
+    line = lambda r: "  ".join(s.ljust(w) for s, w in zip(r, widths)).rstrip()
+    return "\n".join([line(header), line(["-" * w for w in widths])] +
+                     [line(r) for r in rows])
+
+
+def format_table(results: dict) -> str:
+    """One row per number: loop, what it is (estimate / exact / continuum), value with
+    its error, and where it comes from."""
+    rows = []
+    for r in results["results"]:
+        z = "" if r.get("z") is None else f"z = {r['z']:+.2f} vs exact"
+        rows.append([r["loop"], "estimate", fmt_value(r["estimate"], r["stderr"], "est"),
+                     f"{r.get('scheme', '')}, {r['samples']} samples; {z}".rstrip("; ")])
+        if r.get("exact") is not None:
+            rows.append(["", "exact", fmt_value(r["exact"], 0.0, "exact"),
+                         r.get("exact_method") or ""])
+        else:
+            rows.append(["", "exact", "null", r.get("exact_note") or
+                         "not available for this loop"])
+        if r.get("continuum") is not None:
+            rows.append(["", "exact (continuum)", fmt_value(r["continuum"], 0.0, "exact"),
+                         f"{r.get('continuum_method') or ''}; loop as specified, area "
+                         f"error {r.get('area_error', 0.0):+.3g}"])
+    return _render(rows, ["loop", "kind", "value ± error", "note"])
+
+
+def format_exact_table(obj: dict) -> str:
+    rows = []
+    for r in obj["results"]:
+        if r["exact"] is None:
+            rows.append([r["loop"], "exact", "null", r.get("exact_note") or
+                         "not available for this loop"])
+        else:
+            rows.append([r["loop"], "exact", fmt_value(r["exact"], 0.0, "exact"),
+                         r["exact_method"] or ""])
+        if r.get("continuum") is not None:
+            rows.append(["", "exact (continuum)",
+                         fmt_value(r["continuum"], 0.0, "exact"),
+                         r.get("continuum_method") or ""])
+    return _render(rows, ["loop", "kind", "value ± error", "method"])
+
+
+def format_series_table(obj: dict) -> str:
+    rows = []
+    for r in obj["results"]:
+        if r["coefficients"] is None:
+            rows.append([r["loop"], "series", "", "null", r.get("note") or
+                         "not available for this loop"])
+            continue
+        rats = r.get("rationals") or [None] * len(r["coefficients"])
+        for m, (c, q) in enumerate(zip(r["coefficients"], rats)):
+            rows.append([r["loop"] if m == 0 else "", "series", f"c_{m}",
+                         f"{c:.12g} ± 0", f"= {q} (exact rational)" if q else
+                         "float"])
+    return _render(rows, ["loop", "kind", "term", "value ± error", "note"])

@@ -1,0 +1,287 @@
+"""The runner: blocks of a problem on any ``concurrent.futures.Executor``, stored as they
+finish, resumable.
+
+A *job* is a picklable problem plus a module-level function ``block_fn(problem, b)``
+that computes block ``b`` (pure: block ``b`` draws from ``SeedSequence(seed,
+spawn_key=(b,))``). The runner submits the blocks that the store does not hold yet, at
+most ``max_pending`` at a time (memory stays bounded by the block size, not by the
+number of samples), writes each finished block to the store in its own transaction as
+soon as it arrives, and finally hands all blocks, sorted by index, to
+``problem.finish``. The numbers therefore do not depend on the executor, the number of
+workers, the completion order, or whether the run was interrupted and resumed.
+
+``executor=None`` runs the blocks inline. A ``ProcessPoolExecutor`` runs them on local
+cores; a Dask ``distributed.Client(...).get_executor()`` runs them on a cluster.
+"""
+
+from __future__ import annotations
+
+import concurrent.futures as cf
+import json
+import os
+import sys
+import time
+from dataclasses import dataclass, field
+from datetime import datetime, timezone
+from pathlib import Path
+from typing import Any, Callable
+
+from ._spec import Spec, SpecError
+from ._store import STORE_NAME, RunStore, versions
+
+__all__ = ["Job", "ExecutionStats", "execute", "build_problem", "wilson_job",
+           "make_executor", "RunOutcome", "run_spec"]
+
+
+def _encode_sums(sums) -> str:
+    return json.dumps(sums.to_dict())
+
+
+def _decode_sums(text: str):
+    from holonomy._estimate import BlockSums
+
+    return BlockSums.from_dict(json.loads(text))
+
+
+def _count_sums(sums) -> int:
+    return int(sums.count)
+
+
+@dataclass(frozen=True)
+class Job:
+    """What the runner needs: a picklable ``problem`` with ``n_blocks`` and ``finish``,
+    the block function, and how a block result is stored (``encode``/``decode``)."""
+
+    problem: Any
+    block_fn: Callable[[Any, int], Any]
+    encode: Callable[[Any], str] = _encode_sums
+    decode: Callable[[str], Any] = _decode_sums
+    count: Callable[[Any], int] = _count_sums
+    finish: Callable[[list], Any] | None = None
+    key: str = "run"
+
+    @property
+    def n_blocks(self) -> int:
+        return int(self.problem.n_blocks)
+
+
+@dataclass
+class ExecutionStats:
+    """How a run went: blocks computed now, blocks reused from the store, seconds."""
+
+    n_blocks: int
+    computed: int = 0
+    reused: int = 0
+    seconds: float = 0.0
+    block_seconds: float = 0.0
+
+
+def _timed(block_fn, problem, b: int):
+    """Run one block in a worker; module level so process pools can pickle it."""
+    t0 = time.perf_counter()
+    out = block_fn(problem, b)
+    return b, out, time.perf_counter() - t0
+
+
+def execute(job: Job, *, store: RunStore | None = None, executor: cf.Executor | None = None,
+            progress: bool = False, max_pending: int | None = None):
+    """Run every block of ``job`` not yet in ``store`` and return ``(result, stats)``.
+
+    ``result`` is ``job.problem.finish(blocks)`` with the blocks in index order.
+    """
+    t0 = time.perf_counter()
+    n = job.n_blocks
+    stats = ExecutionStats(n_blocks=n)
+    done: dict[int, Any] = {}
+    if store is not None:
+        for b, text in store.blocks():
+            if 0 <= b < n:
+                done[b] = job.decode(text)
+        stats.reused = len(done)
+    todo = [b for b in range(n) if b not in done]
+    bar = None
+    if progress:
+        from tqdm import tqdm
+
+        bar = tqdm(total=n, initial=len(done), file=sys.stderr, unit="block",
+                   desc="whitegauge", leave=False, dynamic_ncols=True)
+
+    def _finish_block(b, out, seconds):
+        if store is not None:
+            # one transaction per block, right away: a kill loses at most running blocks
+            store.put(b, job.count(out), job.encode(out), seconds)
+            out = job.decode(job.encode(out))  # what a resume would read back
+        done[b] = out
+        stats.computed += 1
+        stats.block_seconds += seconds
+        if bar is not None:
+            bar.update(1)
+
+    try:
+        if executor is None:
+            for b in todo:
+                _finish_block(*_timed(job.block_fn, job.problem, b))
+        else:
+            if max_pending is None:
+                max_pending = 4 * (os.cpu_count() or 1)
+            pending: set[cf.Future] = set()
+            it = iter(todo)
+            exhausted = False
+            while True:
+                while not exhausted and len(pending) < max_pending:
+                    b = next(it, None)
+                    if b is None:
+                        exhausted = True
+                        break
+                    pending.add(executor.submit(_timed, job.block_fn, job.problem, b))
+                if not pending:
+                    break
+                finished, pending = cf.wait(pending, return_when=cf.FIRST_COMPLETED)
+                for fut in finished:
+                    _finish_block(*fut.result())
+    finally:
+        if bar is not None:
+            bar.close()
+    blocks = [done[b] for b in range(n)]
+    result = (job.finish or job.problem.finish)(blocks)
+    stats.seconds = time.perf_counter() - t0
+    return result, stats
+
+
+# --------------------------------------------------------------------------- specs
+
+def build_problem(spec: Spec, *, scheme: str | None = None, spacing: float | None = None,
+                  formal: bool = False):
+    """The ``holonomy.WilsonProblem`` of ``spec`` (optionally another scheme or spacing).
+
+    Errors raised by the engine while building the loops, the group or the problem are
+    reported as :class:`SpecError` on the key they come from.
+    """
+    from holonomy import Field, WilsonProblem
+
+    h = spec.spacing if spacing is None else spacing
+    loops = []
+    for i, ls in enumerate(spec.loops):
+        try:
+            loops.append(ls.build(h))
+        except (ValueError, TypeError) as exc:
+            raise SpecError(f"loops[{i}]", str(exc)) from None
+    try:
+        area = spec.area_form()
+    except (ValueError, TypeError) as exc:
+        raise SpecError("field.density", str(exc)) from None
+    try:
+        fld = Field(coupling=spec.coupling, spacing=h, gauge=spec.gauge,
+                    reference=spec.reference, scheme=scheme or spec.scheme, area=area)
+    except (ValueError, TypeError) as exc:
+        raise SpecError("field", str(exc)) from None
+    extra = {"formal": True} if formal else {}
+    try:
+        return WilsonProblem(
+            family=spec.family, n=spec.n, metric=spec.metric, field=fld,
+            loops=tuple(loops), names=spec.names, rep=spec.rep,
+            samples=spec.samples, block=spec.block, seed=spec.seed, path="auto", **extra)
+    except NotImplementedError as exc:
+        raise SpecError("field.scheme", str(exc)) from None
+    except (ValueError, TypeError) as exc:
+        raise SpecError(_guess_key(str(exc)), str(exc)) from None
+
+
+def _guess_key(message: str) -> str:
+    """The spec key an engine message is about (it names its argument in backticks)."""
+    table = {"`rep`": "observable.rep", "`scheme`": "field.scheme", "`gauge`":
+             "field.gauge", "`family`": "group.family", "`metric`": "group.metric",
+             "`n`": "group.n", "`samples`": "run.samples", "`block`": "run.block",
+             "`seed`": "run.seed", "`area`": "field.density", "`reference`":
+             "field.reference", "`loops`": "loops", "`coupling`": "field.coupling",
+             "`spacing`": "field.spacing"}
+    for needle, key in table.items():
+        if needle in message:
+            return key
+    return "spec"
+
+
+def wilson_job(problem) -> Job:
+    from holonomy import run_block
+
+    return Job(problem=problem, block_fn=run_block)
+
+
+def make_executor(workers: int):
+    """``None`` (inline) for one worker, else a process pool of ``workers``."""
+    if workers <= 1:
+        return None
+    return cf.ProcessPoolExecutor(max_workers=workers)
+
+
+@dataclass
+class RunOutcome:
+    """A finished run: the results object (as written to ``results.json``), the engine's
+    :class:`~holonomy.EstimateResult`, execution statistics and the files written."""
+
+    results: dict
+    estimate: Any
+    stats: ExecutionStats
+    files: dict[str, str] = field(default_factory=dict)
+
+
+def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor | None = None,
+             workers: int | None = None, resume: bool = False, progress: bool = False,
+             write: bool = True) -> RunOutcome:
+    """Run ``spec`` and (with ``out``) write ``run.sqlite``, ``results.json``, ``results.csv``.
+
+    ``executor`` wins over ``workers``; with neither, the blocks run inline. The run
+    store lives in ``out``; without ``out`` nothing is stored (no resume).
+    """
+    from ._report import build_results, write_results
+
+    start = datetime.now(timezone.utc)
+    t0 = time.perf_counter()
+    problem = build_problem(spec)
+    own_pool = None
+    if executor is None and workers is not None and workers > 1:
+        executor = own_pool = make_executor(workers)
+    worker_label = workers if workers is not None else (
+        1 if executor is None else type(executor).__name__)
+    store = None
+    try:
+        if out is not None:
+            out = Path(out)
+            _check_writable(out)
+            store = RunStore(out / STORE_NAME, spec_text=spec.text,
+                             spec_sha256=spec.sha256, job_key="run", resume=resume,
+                             workers=worker_label)
+            store.set_meta("name", spec.name)
+        estimate, stats = execute(wilson_job(problem), store=store, executor=executor,
+                                  progress=progress)
+    finally:
+        if own_pool is not None:
+            own_pool.shutdown(cancel_futures=True)
+        if store is not None:
+            store.close()
+    provenance = dict(versions())
+    provenance.update({
+        "start": start.isoformat(timespec="seconds"),
+        "wall_seconds": time.perf_counter() - t0,
+        "workers": worker_label,
+        "blocks": stats.n_blocks, "blocks_computed": stats.computed,
+        "blocks_reused": stats.reused, "resumed": bool(stats.reused),
+        "block_seconds": stats.block_seconds,
+        "executor": "inline" if executor is None else type(executor).__name__,
+        "platform": sys.platform,
+    })
+    results = build_results(spec, problem, estimate, provenance)
+    files = write_results(results, out) if (out is not None and write) else {}
+    return RunOutcome(results=results, estimate=estimate, stats=stats, files=files)
+
+
+def _check_writable(out: Path) -> None:
+    """Refuse an output folder that cannot be created or written (key ``--out``)."""
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+        probe = out / f".whitegauge-write-test-{os.getpid()}"
+        probe.write_bytes(b"")
+        probe.unlink()
+    except OSError as exc:
+        raise SpecError("--out", f"cannot write to {str(out)!r} "
+                        f"({exc.strerror or exc}); expected a writable folder") from None

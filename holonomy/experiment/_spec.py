@@ -1,0 +1,491 @@
+"""Experiment specs: parse a TOML file and validate it into a frozen :class:`Spec`.
+
+All validation of a spec lives here, in :func:`_spec_iv`, before any numerics. An
+invalid spec raises :class:`SpecError`, a ``ValueError`` that carries the *key path* of
+the offending value (``loops[1].circle.radius``, ``group.metric``, ...) and the rule it
+breaks; the command line prints it as ``whitegauge: error: <key path>: <rule>``.
+
+The keys (a contract that scripts rely on)::
+
+    name = "box-and-ring"          # optional; default: the file's stem
+    [group]     family = "U" | "SU" | "SO" | "Sp";  n = int;  metric = "trace" |
+                "physics" | "large-n" | a positive number        (metric is required)
+    [field]     coupling > 0; spacing > 0; gauge = "axial-y" (default) | "axial-x";
+                reference = number (optional; default: the lowest point of all loops);
+                scheme = "heat" (default) | "linear" | "gauss" | "wilson";
+                density = number, or a list of {rect = [x0, y0, x1, y1], value = v}
+                over a base of 1 (optional; default 1)
+    [[loops]]   name; exactly one of  vertices = [[x, y], ...]  |
+                circle = {center = [x, y], radius = r, sides = m}  |
+                moves = "R4 U2 L4 D2" with start = [x, y];  turns = int (default 1)
+    [observable] rep = "fundamental" (default) | "adjoint" | "spin:3/2" | "power:2"
+    [run]       samples > 0; block > 0 (default 4096); seed >= 0
+
+Unknown keys are refused (a misspelt key would otherwise be silently ignored).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import re
+import tomllib
+from dataclasses import dataclass
+from fractions import Fraction
+from pathlib import Path
+from typing import Any
+
+__all__ = ["SpecError", "LoopSpec", "Spec", "load_spec", "parse_spec", "PURPOSES",
+           "FAMILIES", "METRICS", "GAUGES", "SCHEMES"]
+
+FAMILIES = ("U", "SU", "SO", "Sp")
+METRICS = ("trace", "physics", "large-n")
+GAUGES = ("axial-y", "axial-x")
+SCHEMES = ("heat", "linear", "gauss", "wilson")
+PURPOSES = ("run", "study", "exact", "series")
+DEFAULT_BLOCK = 4096
+
+_TOP_KEYS = ("name", "group", "field", "loops", "observable", "run")
+_GROUP_KEYS = ("family", "n", "metric")
+_FIELD_KEYS = ("coupling", "spacing", "gauge", "reference", "scheme", "density")
+_LOOP_KEYS = ("name", "vertices", "circle", "moves", "start", "turns")
+_CIRCLE_KEYS = ("center", "radius", "sides")
+_OBS_KEYS = ("rep",)
+_RUN_KEYS = ("samples", "block", "seed")
+_MOVE = re.compile(r"^([RULD])(\d*)$")
+_STEP = {"R": (1, 0), "L": (-1, 0), "U": (0, 1), "D": (0, -1)}
+
+
+class SpecError(ValueError):
+    """An invalid spec: ``key`` is the key path, ``rule`` what is expected there."""
+
+    def __init__(self, key: str, rule: str):
+        self.key = key
+        self.rule = rule
+        super().__init__(f"{key}: {rule}")
+
+
+@dataclass(frozen=True)
+class LoopSpec:
+    """One validated ``[[loops]]`` entry; :meth:`build` makes the ``discretize.Loop``."""
+
+    name: str
+    kind: str                                   # "vertices" | "circle" | "moves"
+    vertices: tuple[tuple[float, float], ...] | None = None
+    center: tuple[float, float] | None = None
+    radius: float | None = None
+    sides: int | None = None
+    moves: str | None = None
+    start: tuple[float, float] | None = None
+    turns: int = 1
+
+    def build(self, spacing: float):
+        """The ``discretize.Loop`` this entry describes (moves are in units of spacing)."""
+        from discretize import Loop
+
+        if self.kind == "vertices":
+            return Loop.polygon(self.vertices, turns=self.turns)
+        if self.kind == "circle":
+            return Loop.circle(self.center, self.radius, self.sides, turns=self.turns)
+        return Loop.from_moves(self.moves, self.start, spacing, turns=self.turns)
+
+
+@dataclass(frozen=True)
+class Spec:
+    """A validated experiment spec. ``text`` and ``sha256`` identify it in the run store.
+
+    ``density`` is a float (a constant density) or a tuple of ``(x0, y0, x1, y1, value)``
+    rectangles over a base density of 1. ``metric`` is a name or a positive float.
+    """
+
+    name: str
+    text: str
+    sha256: str
+    family: str
+    n: int
+    metric: str | float
+    coupling: float
+    spacing: float
+    gauge: str
+    reference: float | None
+    scheme: str
+    density: float | tuple[tuple[float, float, float, float, float], ...]
+    loops: tuple[LoopSpec, ...]
+    rep: str
+    samples: int | None
+    block: int
+    seed: int | None
+    source: str = "<string>"
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return tuple(loop.name for loop in self.loops)
+
+    @property
+    def signed(self) -> bool:
+        """True if the density takes a negative value (no measure: formal route only)."""
+        if isinstance(self.density, float):
+            return self.density < 0
+        return any(r[4] < 0 for r in self.density)
+
+    def area_form(self):
+        """The ``discretize.AreaForm`` of the density."""
+        from discretize import AreaForm
+
+        if isinstance(self.density, float):
+            return AreaForm(base=self.density)
+        return AreaForm(base=1.0, rects=self.density)
+
+
+# --------------------------------------------------------------------------- loading
+
+def load_spec(path: str | Path, *, purpose: str = "run") -> Spec:
+    """Read and validate the spec file at ``path`` for ``purpose``.
+
+    ``purpose`` is one of ``run``, ``study``, ``exact``, ``series``: sampling purposes
+    (``run``, ``study``) also need ``[run] samples`` and ``seed`` and refuse a density
+    that changes sign; ``exact`` and ``series`` accept it (formal evaluation).
+
+    Raises
+    ------
+    SpecError
+        With the file name as key path if the file is missing, unreadable or not
+        valid TOML (the message gives the line), else with the key path of the value.
+    """
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise SpecError(str(path), "no such file; expected a TOML spec file") from None
+    except IsADirectoryError:
+        raise SpecError(str(path), "is a directory; expected a TOML spec file") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise SpecError(str(path), f"cannot read the spec file ({exc})") from None
+    return parse_spec(text, name=p.stem, purpose=purpose, source=str(path))
+
+
+def parse_spec(text: str, *, name: str = "experiment", purpose: str = "run",
+               source: str = "<string>") -> Spec:
+    """Validate spec ``text`` (TOML); ``name`` is the default for the ``name`` key."""
+    if purpose not in PURPOSES:
+        raise ValueError(f"`purpose` must be one of {PURPOSES}; got {purpose!r}.")
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        msg = str(exc)
+        m = re.search(r"\(at line (\d+), column (\d+)\)", msg)
+        where = f"line {m.group(1)}" if m else "end of file"
+        msg = re.sub(r"\s*\(at (line \d+, column \d+|end of document)\)", "", msg)
+        raise SpecError(source, f"{where}: malformed TOML: {msg}") from None
+    return _spec_iv(data, text=text, default_name=name, purpose=purpose, source=source)
+
+
+# --------------------------------------------------------------------------- helpers
+
+def _describe(value: Any) -> str:
+    if isinstance(value, bool):
+        return f"boolean {str(value).lower()}"
+    if isinstance(value, str):
+        return f"string {value!r}"
+    if isinstance(value, dict):
+        return "a table"
+    if isinstance(value, list):
+        return "an array"
+    return repr(value)
+
+
+def _table(data: dict, key: str, path: str, allowed: tuple[str, ...], *,
+           required: bool = True) -> dict:
+    value = data.get(key)
+    if value is None:
+        if required:
+            raise SpecError(path, f"missing table; expected [{path}] with keys "
+                            f"{', '.join(allowed)}")
+        return {}
+    if not isinstance(value, dict):
+        raise SpecError(path, f"got {_describe(value)}; expected a table")
+    _no_unknown(value, path, allowed)
+    return value
+
+
+def _no_unknown(table: dict, path: str, allowed: tuple[str, ...]) -> None:
+    for key in table:
+        if key not in allowed:
+            where = f"{path}.{key}" if path else key
+            raise SpecError(where, f"unknown key; accepted keys here: {', '.join(allowed)}")
+
+
+def _number(table: dict, key: str, path: str, *, rule: str = "a number",
+            check=None, required: bool = True, default=None) -> float | None:
+    if key not in table:
+        if required:
+            raise SpecError(path, f"missing; expected {rule}")
+        return default
+    value = table[key]
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise SpecError(path, f"got {_describe(value)}; expected {rule}")
+    value = float(value)
+    if not math.isfinite(value) or (check is not None and not check(value)):
+        raise SpecError(path, f"got {value!r}; expected {rule}")
+    return value
+
+
+def _integer(table: dict, key: str, path: str, *, rule: str = "an integer",
+             check=None, required: bool = True, default=None) -> int | None:
+    if key not in table:
+        if required:
+            raise SpecError(path, f"missing; expected {rule}")
+        return default
+    value = table[key]
+    if isinstance(value, bool) or not isinstance(value, int):
+        raise SpecError(path, f"got {_describe(value)}; expected {rule}")
+    if check is not None and not check(value):
+        raise SpecError(path, f"got {value!r}; expected {rule}")
+    return value
+
+
+def _choice(table: dict, key: str, path: str, choices: tuple[str, ...], *,
+            default: str | None = None) -> str:
+    rule = "one of " + ", ".join(f'"{c}"' for c in choices)
+    if key not in table:
+        if default is None:
+            raise SpecError(path, f"missing; expected {rule}")
+        return default
+    value = table[key]
+    if not isinstance(value, str):
+        raise SpecError(path, f"got {_describe(value)}; expected {rule}")
+    if value not in choices:
+        raise SpecError(path, f"got {value!r}; expected {rule}")
+    return value
+
+
+def _point(value: Any, path: str) -> tuple[float, float]:
+    rule = "a point [x, y] of two finite numbers"
+    if not isinstance(value, list) or len(value) != 2:
+        raise SpecError(path, f"got {_describe(value)}; expected {rule}")
+    out = []
+    for i, v in enumerate(value):
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
+            raise SpecError(f"{path}[{i}]", f"got {_describe(v)}; expected a finite number")
+        out.append(float(v))
+    return (out[0], out[1])
+
+
+# --------------------------------------------------------------------------- sections
+
+def _group_iv(data: dict) -> tuple[str, int, str | float]:
+    g = _table(data, "group", "group", _GROUP_KEYS)
+    family = _choice(g, "family", "group.family", FAMILIES)
+    low = {"U": 1, "SU": 2, "SO": 2, "Sp": 1}[family]
+    n = _integer(g, "n", "group.n", rule=f"an integer >= {low} for {family}",
+                 check=lambda v: v >= low)
+    rule = 'one of "trace", "physics", "large-n" or a positive number'
+    if "metric" not in g:
+        raise SpecError("group.metric", f"missing; expected {rule}")
+    metric = g["metric"]
+    if isinstance(metric, str):
+        if metric not in METRICS:
+            raise SpecError("group.metric", f"got {metric!r}; expected {rule}")
+    else:
+        metric = _number(g, "metric", "group.metric", rule=rule,
+                         check=lambda v: v > 0)
+    return family, n, metric
+
+
+def _density_iv(f: dict, purpose: str):
+    if "density" not in f:
+        return 1.0
+    value = f["density"]
+    sampling = purpose in ("run", "study")
+    if isinstance(value, list):
+        rects = []
+        for i, item in enumerate(value):
+            path = f"field.density[{i}]"
+            if not isinstance(item, dict):
+                raise SpecError(path, f"got {_describe(item)}; expected a table "
+                                "{rect = [x0, y0, x1, y1], value = v}")
+            _no_unknown(item, path, ("rect", "value"))
+            rect = item.get("rect")
+            if (not isinstance(rect, list) or len(rect) != 4 or any(
+                    isinstance(v, bool) or not isinstance(v, (int, float))
+                    or not math.isfinite(v) for v in rect)):
+                raise SpecError(f"{path}.rect", f"got {_describe(rect)}; expected "
+                                "[x0, y0, x1, y1], four finite numbers")
+            x0, y0, x1, y1 = (float(v) for v in rect)
+            if not (x1 > x0 and y1 > y0):
+                raise SpecError(f"{path}.rect", f"got {rect!r}; expected x1 > x0 and "
+                                "y1 > y0")
+            v = _number(item, "value", f"{path}.value", rule="a finite number")
+            if sampling and v < 0:
+                raise SpecError(f"{path}.value", f"got {v!r}; expected a value >= 0 for "
+                                f"`{purpose}`: a density that changes sign has no "
+                                "probability measure (use `whitegauge exact` or "
+                                "`whitegauge series`, the formal route)")
+            rects.append((x0, y0, x1, y1, v))
+        return tuple(rects)
+    v = _number(f, "density", "field.density",
+                rule="a number or a list of {rect = [x0, y0, x1, y1], value = v}")
+    if sampling and v < 0:
+        raise SpecError("field.density", f"got {v!r}; expected a density >= 0 for "
+                        f"`{purpose}`: a negative density has no probability measure "
+                        "(use `whitegauge exact` or `whitegauge series`, the formal route)")
+    return v
+
+
+def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
+    path = f"loops[{i}]"
+    if not isinstance(item, dict):
+        raise SpecError(path, f"got {_describe(item)}; expected a table")
+    _no_unknown(item, path, _LOOP_KEYS)
+    name = item.get("name", f"loop{i}")
+    if not isinstance(name, str) or not name.strip():
+        raise SpecError(f"{path}.name", f"got {_describe(name)}; expected a non-empty "
+                        "string")
+    kinds = [k for k in ("vertices", "circle", "moves") if k in item]
+    if len(kinds) != 1:
+        got = "none" if not kinds else " and ".join(kinds)
+        raise SpecError(path, f"has {got}; expected exactly one of vertices, circle, "
+                        "moves")
+    kind = kinds[0]
+    turns = _integer(item, "turns", f"{path}.turns", rule="a nonzero integer",
+                     check=lambda v: v != 0, required=False, default=1)
+    if "start" in item and kind != "moves":
+        raise SpecError(f"{path}.start", "only applies to a loop given by moves")
+    if kind == "vertices":
+        verts = item["vertices"]
+        if not isinstance(verts, list):
+            raise SpecError(f"{path}.vertices", f"got {_describe(verts)}; expected a "
+                            "list of at least three points [x, y]")
+        if len(verts) < 3:
+            raise SpecError(f"{path}.vertices", f"got {len(verts)} vertices; expected "
+                            "at least three points [x, y]")
+        pts = tuple(_point(v, f"{path}.vertices[{j}]") for j, v in enumerate(verts))
+        return LoopSpec(name=name, kind=kind, vertices=pts, turns=turns)
+    if kind == "circle":
+        c = item["circle"]
+        cpath = f"{path}.circle"
+        if not isinstance(c, dict):
+            raise SpecError(cpath, f"got {_describe(c)}; expected a table "
+                            "{center = [x, y], radius = r, sides = m}")
+        _no_unknown(c, cpath, _CIRCLE_KEYS)
+        if "center" not in c:
+            raise SpecError(f"{cpath}.center", "missing; expected a point [x, y]")
+        center = _point(c["center"], f"{cpath}.center")
+        radius = _number(c, "radius", f"{cpath}.radius", rule="a number > 0",
+                         check=lambda v: v > 0)
+        sides = _integer(c, "sides", f"{cpath}.sides", rule="an integer >= 3",
+                         check=lambda v: v >= 3)
+        return LoopSpec(name=name, kind=kind, center=center, radius=radius, sides=sides,
+                        turns=turns)
+    moves = item["moves"]
+    mpath = f"{path}.moves"
+    if not isinstance(moves, str) or not moves.split():
+        raise SpecError(mpath, f"got {_describe(moves)}; expected a string of steps "
+                        'like "R4 U2 L4 D2"')
+    x = y = 0
+    for tok in moves.split():
+        m = _MOVE.match(tok)
+        if m is None or (m.group(2) and int(m.group(2)) == 0):
+            raise SpecError(mpath, f"bad step {tok!r}; expected R, U, L or D followed "
+                            "by a positive count, like R4")
+        dx, dy = _STEP[m.group(1)]
+        k = int(m.group(2) or 1)
+        x, y = x + dx * k, y + dy * k
+    if (x, y) != (0, 0):
+        raise SpecError(mpath, f"does not close: it ends {x} steps right and {y} up of "
+                        "its start; expected a closed path")
+    if "start" not in item:
+        raise SpecError(f"{path}.start", "missing; expected a point [x, y] where the "
+                        "moves begin")
+    start = _point(item["start"], f"{path}.start")
+    return LoopSpec(name=name, kind=kind, moves=" ".join(moves.split()), start=start,
+                    turns=turns)
+
+
+def _rep_iv(obs: dict, family: str, n: int) -> str:
+    rule = 'one of "fundamental", "adjoint", "spin:j" (SU(2), j = 1/2, 1, 3/2, ...) or "power:k" (k a nonzero integer)'
+    if "rep" not in obs:
+        return "fundamental"
+    rep = obs["rep"]
+    if not isinstance(rep, str):
+        raise SpecError("observable.rep", f"got {_describe(rep)}; expected {rule}")
+    if rep in ("fundamental", "adjoint"):
+        return rep
+    kind, _, arg = rep.partition(":")
+    if kind == "spin":
+        try:
+            j = Fraction(arg)
+        except (ValueError, ZeroDivisionError):
+            raise SpecError("observable.rep", f"got {rep!r}; expected spin:j with j a "
+                            "positive half-integer like 1/2, 1, 3/2") from None
+        if j <= 0 or (2 * j).denominator != 1:
+            raise SpecError("observable.rep", f"got {rep!r}; expected spin:j with j a "
+                            "positive half-integer like 1/2, 1, 3/2")
+        if not (family == "SU" and n == 2):
+            raise SpecError("observable.rep", f"got {rep!r} for {family}({n}); spin "
+                            "representations need SU(2)")
+        return rep
+    if kind == "power":
+        try:
+            k = int(arg)
+        except ValueError:
+            k = 0
+        if k == 0 or not re.fullmatch(r"[+-]?\d+", arg):
+            raise SpecError("observable.rep", f"got {rep!r}; expected power:k with k a "
+                            "nonzero integer")
+        return rep
+    raise SpecError("observable.rep", f"got {rep!r}; expected {rule}")
+
+
+def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
+             source: str) -> Spec:
+    """Validate the parsed TOML ``data``; the one place where spec rules live."""
+    _no_unknown(data, "", _TOP_KEYS)
+    name = data.get("name", default_name)
+    if not isinstance(name, str) or not name.strip():
+        raise SpecError("name", f"got {_describe(name)}; expected a non-empty string")
+    family, n, metric = _group_iv(data)
+
+    f = _table(data, "field", "field", _FIELD_KEYS)
+    coupling = _number(f, "coupling", "field.coupling", rule="a number > 0",
+                       check=lambda v: v > 0)
+    spacing = _number(f, "spacing", "field.spacing", rule="a number > 0",
+                      check=lambda v: v > 0)
+    gauge = _choice(f, "gauge", "field.gauge", GAUGES, default="axial-y")
+    scheme = _choice(f, "scheme", "field.scheme", SCHEMES, default="heat")
+    reference = _number(f, "reference", "field.reference", rule="a finite number",
+                        required=False)
+    density = _density_iv(f, purpose)
+
+    loops_raw = data.get("loops")
+    if loops_raw is None:
+        raise SpecError("loops", "missing; expected at least one [[loops]] table")
+    if not isinstance(loops_raw, list) or not loops_raw:
+        raise SpecError("loops", f"got {_describe(loops_raw)}; expected at least one "
+                        "[[loops]] table")
+    loops = tuple(_loop_iv(item, i, spacing) for i, item in enumerate(loops_raw))
+    seen: dict[str, int] = {}
+    for i, loop in enumerate(loops):
+        if loop.name in seen:
+            raise SpecError(f"loops[{i}].name", f"{loop.name!r} is already the name of "
+                            f"loops[{seen[loop.name]}]; expected distinct names")
+        seen[loop.name] = i
+
+    obs = _table(data, "observable", "observable", _OBS_KEYS, required=False)
+    rep = _rep_iv(obs, family, n)
+
+    sampling = purpose in ("run", "study")
+    r = _table(data, "run", "run", _RUN_KEYS, required=sampling)
+    samples = _integer(r, "samples", "run.samples", rule="an integer > 0",
+                       check=lambda v: v > 0, required=sampling)
+    block = _integer(r, "block", "run.block", rule="an integer > 0",
+                     check=lambda v: v > 0, required=False, default=DEFAULT_BLOCK)
+    seed = _integer(r, "seed", "run.seed", rule="an integer >= 0",
+                    check=lambda v: v >= 0, required=sampling)
+
+    return Spec(
+        name=name, text=text, sha256=hashlib.sha256(text.encode("utf-8")).hexdigest(),
+        family=family, n=n, metric=metric, coupling=coupling, spacing=spacing,
+        gauge=gauge, reference=reference, scheme=scheme, density=density, loops=loops,
+        rep=rep, samples=samples, block=block, seed=seed, source=source,
+    )
