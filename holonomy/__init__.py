@@ -1,6 +1,26 @@
 """Holonomies and Wilson loops: compact matrix groups, representations, exponentials,
 the sampling schemes, ordered products, estimators, exact references, perturbative
 series, the experiment runner and the ``whitegauge`` command.
+
+Subpackages: :mod:`holonomy.groups` (groups, representations, heat kernels),
+:mod:`holonomy.exact` (closed forms and exact evaluation), :mod:`holonomy.experiment`
+(spec files, runs, studies, reports) and :mod:`holonomy.cli`.
 """
 
 __version__ = "0.1.0"
+
+from .groups import BrownianResult, Group, Representation, make_group  # noqa: E402
+from ._solver import (  # noqa: E402  (ordered products)
+    PRODUCT_SCHEMES,
+    ProductResult,
+    ProductScheme,
+    ordered_product,
+    tree_product,
+)
+from ._lie_words import *  # noqa: E402,F401,F403  (formal Lie-algebra words)
+from ._series import *  # noqa: E402,F401,F403  (perturbative series)
+from ._schemes import SCHEMES, Scheme, get_scheme  # noqa: E402
+from ._estimate import BlockSums, EstimateResult, LoopEstimate, combine_blocks  # noqa: E402
+from ._sampling import Field, WilsonProblem, estimate_wilson_loops, run_block  # noqa: E402
+from ._study import EXPECTED_RATES, StudyProblem, run_study_block  # noqa: E402
+from ._lattice_series import lattice_covariance, lattice_series  # noqa: E402
