@@ -24,3 +24,4 @@ from ._estimate import BlockSums, EstimateResult, LoopEstimate, combine_blocks  
 from ._sampling import Field, WilsonProblem, estimate_wilson_loops, run_block  # noqa: E402
 from ._study import EXPECTED_RATES, StudyProblem, run_study_block  # noqa: E402
 from ._lattice_series import lattice_covariance, lattice_series  # noqa: E402
+from ._continuum_series import continuum_series  # noqa: E402  (continuum series)
