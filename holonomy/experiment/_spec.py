@@ -21,7 +21,11 @@ The keys (a contract that scripts rely on)::
     [observable] rep = "fundamental" (default) | "adjoint" | "spin:3/2" | "power:2"
     [run]       samples > 0; block > 0 (default 4096); seed >= 0
 
-Unknown keys are refused (a misspelt key would otherwise be silently ignored).
+Unknown keys are refused (a misspelt key would otherwise be silently ignored). Sizes
+that could hang the machine or exhaust its memory are refused before any numerics
+(:data:`LIMITS`: matrix size <= 32, spin dimension <= 64, |power| <= 64, samples <=
+1e12, block <= 1e6, grid cells <= 1e7, steps per moves token <= 1e6, coupling in
+[1e-100, 1e100], a numeric metric in [1e-6, 1e6]).
 """
 
 from __future__ import annotations
@@ -36,7 +40,7 @@ from pathlib import Path
 from typing import Any
 
 __all__ = ["SpecError", "LoopSpec", "Spec", "load_spec", "parse_spec", "PURPOSES",
-           "FAMILIES", "METRICS", "GAUGES", "SCHEMES"]
+           "FAMILIES", "METRICS", "GAUGES", "SCHEMES", "LIMITS"]
 
 FAMILIES = ("U", "SU", "SO", "Sp")
 METRICS = ("trace", "physics", "large-n")
@@ -44,6 +48,15 @@ GAUGES = ("axial-y", "axial-x")
 SCHEMES = ("heat", "linear", "gauss", "wilson")
 PURPOSES = ("run", "study", "exact", "series")
 DEFAULT_BLOCK = 4096
+# Size limits, checked before any numerics so that a typo cannot hang the machine or
+# exhaust its memory (each is far above what a run on one machine can use):
+MAX_MATRIX = 32          # matrix size of the group (U(32), SU(32), SO(32), Sp(16))
+MAX_REP_DIM = 64         # dimension of a spin:j representation (2j + 1)
+MAX_POWER = 64           # |k| of power:k
+MAX_SAMPLES = 10**12     # samples of one run
+MAX_BLOCK = 10**6        # samples per block (memory is proportional to it)
+MAX_CELLS = 10**7        # cells of the grid that covers the loops at the spacing
+MAX_STEPS = 10**6        # count of one moves token
 
 _TOP_KEYS = ("name", "group", "field", "loops", "observable", "run")
 _GROUP_KEYS = ("family", "n", "metric")
@@ -54,6 +67,11 @@ _OBS_KEYS = ("rep",)
 _RUN_KEYS = ("samples", "block", "seed")
 _MOVE = re.compile(r"^([RULD])(\d*)$")
 _STEP = {"R": (1, 0), "L": (-1, 0), "U": (0, 1), "D": (0, -1)}
+
+
+LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM, "power": MAX_POWER,
+          "samples": MAX_SAMPLES, "block": MAX_BLOCK, "grid cells": MAX_CELLS,
+          "steps per move": MAX_STEPS}
 
 
 class SpecError(ValueError):
@@ -277,9 +295,13 @@ def _group_iv(data: dict) -> tuple[str, int, str | float]:
     g = _table(data, "group", "group", _GROUP_KEYS)
     family = _choice(g, "family", "group.family", FAMILIES)
     low = {"U": 1, "SU": 2, "SO": 2, "Sp": 1}[family]
+    high = MAX_MATRIX // 2 if family == "Sp" else MAX_MATRIX
     n = _integer(g, "n", "group.n", rule=f"an integer >= {low} for {family}",
                  check=lambda v: v >= low)
-    rule = 'one of "trace", "physics", "large-n" or a positive number'
+    if n > high:
+        raise SpecError("group.n", f"got {n}; expected at most {high} for {family} "
+                        f"(matrix size limit {MAX_MATRIX})")
+    rule = 'one of "trace", "physics", "large-n" or a number in [1e-6, 1e6]'
     if "metric" not in g:
         raise SpecError("group.metric", f"missing; expected {rule}")
     metric = g["metric"]
@@ -288,7 +310,7 @@ def _group_iv(data: dict) -> tuple[str, int, str | float]:
             raise SpecError("group.metric", f"got {metric!r}; expected {rule}")
     else:
         metric = _number(g, "metric", "group.metric", rule=rule,
-                         check=lambda v: v > 0)
+                         check=lambda v: 1e-6 <= v <= 1e6)
     return family, n, metric
 
 
@@ -347,8 +369,8 @@ def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
         raise SpecError(path, f"has {got}; expected exactly one of vertices, circle, "
                         "moves")
     kind = kinds[0]
-    turns = _integer(item, "turns", f"{path}.turns", rule="a nonzero integer",
-                     check=lambda v: v != 0, required=False, default=1)
+    turns = _integer(item, "turns", f"{path}.turns", rule="an integer >= 1",
+                     check=lambda v: v >= 1, required=False, default=1)
     if "start" in item and kind != "moves":
         raise SpecError(f"{path}.start", "only applies to a loop given by moves")
     if kind == "vertices":
@@ -389,6 +411,9 @@ def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
             raise SpecError(mpath, f"bad step {tok!r}; expected R, U, L or D followed "
                             "by a positive count, like R4")
         dx, dy = _STEP[m.group(1)]
+        if len(m.group(2)) > 7 or int(m.group(2) or 1) > MAX_STEPS:
+            raise SpecError(mpath, f"bad step {tok!r}; expected a count of at most "
+                            f"{MAX_STEPS} steps per token")
         k = int(m.group(2) or 1)
         x, y = x + dx * k, y + dy * k
     if (x, y) != (0, 0):
@@ -400,6 +425,50 @@ def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
     start = _point(item["start"], f"{path}.start")
     return LoopSpec(name=name, kind=kind, moves=" ".join(moves.split()), start=start,
                     turns=turns)
+
+
+def _loop_bbox(loop: LoopSpec, spacing: float) -> tuple[float, float, float, float]:
+    if loop.kind == "vertices":
+        xs, ys = zip(*loop.vertices)
+        return min(xs), min(ys), max(xs), max(ys)
+    if loop.kind == "circle":
+        (cx, cy), r = loop.center, loop.radius
+        return cx - r, cy - r, cx + r, cy + r
+    x = y = 0
+    xs, ys = [0], [0]
+    for tok in loop.moves.split():
+        dx, dy = _STEP[tok[0]]
+        k = int(tok[1:] or 1)
+        x, y = x + dx * k, y + dy * k
+        xs.append(x)
+        ys.append(y)
+    sx, sy = loop.start
+    return (sx + min(xs) * spacing, sy + min(ys) * spacing,
+            sx + max(xs) * spacing, sy + max(ys) * spacing)
+
+
+def _extent_iv(loops: tuple[LoopSpec, ...], spacing: float, reference: float | None,
+               gauge: str) -> None:
+    """Refuse a grid too large to allocate (huge coordinates or a tiny spacing)."""
+    boxes = [_loop_bbox(lp, spacing) for lp in loops]
+    x0, y0 = min(b[0] for b in boxes), min(b[1] for b in boxes)
+    x1, y1 = max(b[2] for b in boxes), max(b[3] for b in boxes)
+    if reference is not None:
+        if gauge == "axial-y":
+            y0, y1 = min(y0, reference), max(y1, reference)
+        else:
+            x0, x1 = min(x0, reference), max(x1, reference)
+    with_margin = ((x1 - x0) / spacing + 3) * ((y1 - y0) / spacing + 3)
+    if not math.isfinite(with_margin) or with_margin > MAX_CELLS:
+        raise SpecError("field.spacing", f"got {spacing!r}: the grid covering the loops "
+                        f"({x1 - x0:.6g} x {y1 - y0:.6g}) would have about "
+                        f"{with_margin:.3g} cells; expected at most {MAX_CELLS:.0e} "
+                        "(a larger spacing or smaller loops)")
+    biggest = max(1.0, abs(x0), abs(x1), abs(y0), abs(y1))
+    if spacing <= 1e-9 * biggest:
+        raise SpecError("field.spacing", f"got {spacing!r}: below the resolution of the "
+                        f"loops' coordinates (up to {biggest:.3g}); expected a spacing "
+                        "> 1e-9 times the largest coordinate")
 
 
 def _rep_iv(obs: dict, family: str, n: int) -> str:
@@ -421,6 +490,9 @@ def _rep_iv(obs: dict, family: str, n: int) -> str:
         if j <= 0 or (2 * j).denominator != 1:
             raise SpecError("observable.rep", f"got {rep!r}; expected spin:j with j a "
                             "positive half-integer like 1/2, 1, 3/2")
+        if 2 * j + 1 > MAX_REP_DIM:
+            raise SpecError("observable.rep", f"got {rep!r}; expected spin:j with "
+                            f"2j + 1 <= {MAX_REP_DIM}")
         if not (family == "SU" and n == 2):
             raise SpecError("observable.rep", f"got {rep!r} for {family}({n}); spin "
                             "representations need SU(2)")
@@ -430,9 +502,9 @@ def _rep_iv(obs: dict, family: str, n: int) -> str:
             k = int(arg)
         except ValueError:
             k = 0
-        if k == 0 or not re.fullmatch(r"[+-]?\d+", arg):
+        if k == 0 or not re.fullmatch(r"[+-]?\d+", arg) or abs(k) > MAX_POWER:
             raise SpecError("observable.rep", f"got {rep!r}; expected power:k with k a "
-                            "nonzero integer")
+                            f"nonzero integer, |k| <= {MAX_POWER}")
         return rep
     raise SpecError("observable.rep", f"got {rep!r}; expected {rule}")
 
@@ -447,8 +519,9 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
     family, n, metric = _group_iv(data)
 
     f = _table(data, "field", "field", _FIELD_KEYS)
-    coupling = _number(f, "coupling", "field.coupling", rule="a number > 0",
-                       check=lambda v: v > 0)
+    coupling = _number(f, "coupling", "field.coupling",
+                       rule="a number > 0 in [1e-100, 1e100]",
+                       check=lambda v: 1e-100 <= v <= 1e100)
     spacing = _number(f, "spacing", "field.spacing", rule="a number > 0",
                       check=lambda v: v > 0)
     gauge = _choice(f, "gauge", "field.gauge", GAUGES, default="axial-y")
@@ -471,15 +544,19 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
                             f"loops[{seen[loop.name]}]; expected distinct names")
         seen[loop.name] = i
 
+    _extent_iv(loops, spacing, reference, gauge)
+
     obs = _table(data, "observable", "observable", _OBS_KEYS, required=False)
     rep = _rep_iv(obs, family, n)
 
     sampling = purpose in ("run", "study")
     r = _table(data, "run", "run", _RUN_KEYS, required=sampling)
-    samples = _integer(r, "samples", "run.samples", rule="an integer > 0",
-                       check=lambda v: v > 0, required=sampling)
-    block = _integer(r, "block", "run.block", rule="an integer > 0",
-                     check=lambda v: v > 0, required=False, default=DEFAULT_BLOCK)
+    samples = _integer(r, "samples", "run.samples",
+                       rule=f"an integer > 0 and <= {MAX_SAMPLES:.0e}",
+                       check=lambda v: 0 < v <= MAX_SAMPLES, required=sampling)
+    block = _integer(r, "block", "run.block", rule=f"an integer > 0 and <= {MAX_BLOCK:.0e}",
+                     check=lambda v: 0 < v <= MAX_BLOCK, required=False,
+                     default=DEFAULT_BLOCK)
     seed = _integer(r, "seed", "run.seed", rule="an integer >= 0",
                     check=lambda v: v >= 0, required=sampling)
 
