@@ -33,26 +33,9 @@ class MatrixKernel:
 
     def __init__(self, group):
         self.group = group
-        flat = group.basis.reshape(group.dim, -1)
-        self._basis_re = np.ascontiguousarray(flat.real)
-        self._basis_im = np.ascontiguousarray(flat.imag)
-        self._closed3 = group.N == 3 and group.family in ("U", "SU")
-
-    def algebra(self, coords: np.ndarray) -> np.ndarray:
-        """sum_a c_a X_a as two real matrix products (no complex copy of ``coords``)."""
-        c = np.asarray(coords, float)
-        n = self.group.N
-        if self.group.real:
-            return (c @ self._basis_re).reshape(c.shape[:-1] + (n, n))
-        out = np.empty(c.shape[:-1] + (n * n,), complex)
-        out.real = c @ self._basis_re
-        out.imag = c @ self._basis_im
-        return out.reshape(c.shape[:-1] + (n, n))
 
     def exp(self, coords: np.ndarray) -> np.ndarray:
-        if self._closed3:
-            return expm_u3(self.algebra(coords))
-        return self.group.exp_matrix(self.algebra(coords))
+        return self.group.exp_matrix(self.group.algebra(coords))
 
     def from_matrices(self, m: np.ndarray) -> np.ndarray:
         return m
@@ -180,60 +163,3 @@ def kernel_for(group) -> MatrixKernel:
         return QuaternionKernel(group)
     return MatrixKernel(group)
 
-
-def expm_u3(X: np.ndarray) -> np.ndarray:
-    """Closed-form exponential of skew-Hermitian 3 x 3 matrices (u(3), su(3)).
-
-    With X = i (q Id + Q), q = tr(X) / (3i) and Q traceless Hermitian,
-    exp(iQ) = f_0 Id + f_1 Q + f_2 Q^2 by the Cayley-Hamilton theorem; the f_j follow
-    from c_0 = det Q and c_1 = tr(Q^2) / 2 through the stable parametrization of
-    Morningstar and Peardon (2004), eqs. (23)-(34), using f_j(-c_0) = (-1)^j conj(f_j(c_0))
-    so that the denominator 9u^2 - w^2 stays away from zero.
-
-    References
-    ----------
-    .. [1] Morningstar, C. and Peardon, M. (2004). "Analytic smearing of SU(3) link
-       variables in lattice QCD." Phys. Rev. D 69, 054501.
-    """
-    X = np.asarray(X)
-    q = np.trace(X, axis1=-2, axis2=-1).imag / 3.0
-    Q = -1j * X
-    Q[..., 0, 0] -= q
-    Q[..., 1, 1] -= q
-    Q[..., 2, 2] -= q
-    Q = 0.5 * (Q + np.conj(np.swapaxes(Q, -1, -2)))  # exactly Hermitian
-    Q2 = Q @ Q
-    c1 = 0.5 * np.trace(Q2, axis1=-2, axis2=-1).real
-    c0 = np.einsum("...ij,...ji->...", Q, Q2).real / 3.0  # det Q = tr(Q^3) / 3
-    neg = c0 < 0
-    c0 = np.abs(c0)
-    c0max = 2.0 * (c1 / 3.0) ** 1.5
-    tiny = c1 < 1e-30
-    ratio = np.where(tiny, 0.0, c0 / np.where(tiny, 1.0, c0max))
-    theta = np.arccos(np.clip(ratio, -1.0, 1.0))
-    u = np.sqrt(c1 / 3.0) * np.cos(theta / 3.0)
-    w = np.sqrt(c1) * np.sin(theta / 3.0)
-    xi0 = np.sinc(w / np.pi)  # sin(w)/w
-    cw = np.cos(w)
-    e2iu = np.exp(2j * u)
-    emiu = np.exp(-1j * u)
-    u2, w2 = u * u, w * w
-    h0 = (u2 - w2) * e2iu + emiu * (8 * u2 * cw + 2j * u * (3 * u2 + w2) * xi0)
-    h1 = 2 * u * e2iu - emiu * (2 * u * cw - 1j * (3 * u2 - w2) * xi0)
-    h2 = e2iu - emiu * (cw + 3j * u * xi0)
-    den = 9 * u2 - w2
-    den = np.where(tiny, 1.0, den)
-    f0, f1, f2 = h0 / den, h1 / den, h2 / den
-    # Q = 0: exp(iQ) = Id
-    f0 = np.where(tiny, 1.0, f0)
-    f1 = np.where(tiny, 1j, f1)
-    f2 = np.where(tiny, -0.5, f2)
-    # c_0 < 0: f_j(-c_0) = (-1)^j conj(f_j(c_0))
-    f0 = np.where(neg, np.conj(f0), f0)
-    f1 = np.where(neg, -np.conj(f1), f1)
-    f2 = np.where(neg, np.conj(f2), f2)
-    out = f1[..., None, None] * Q + f2[..., None, None] * Q2
-    out[..., 0, 0] += f0
-    out[..., 1, 1] += f0
-    out[..., 2, 2] += f0
-    return out * np.exp(1j * q)[..., None, None]

@@ -30,7 +30,9 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ._expmap import expm_eigh, expm_so3, expm_su2, expm_u1
+from ._expmap import expm_eigh, expm_so3, expm_su2, expm_taylor, expm_u1, expm_u3
+
+_TAYLOR_MAX_N = 8  # up to this size scaled Taylor beats a batched eigh (benchmarks/bench_heat.py)
 
 if TYPE_CHECKING:  # pragma: no cover
     from ._heat import BrownianResult
@@ -252,7 +254,24 @@ class Group:
             raise ValueError(
                 f"`coords` must have last axis of length d={self.dim}; got shape {c.shape}."
             )
-        return np.tensordot(c, self.basis, axes=([-1], [0]))
+        # Real and imaginary parts as two real matrix products: cheaper than casting
+        # the coordinates to complex (the heat samplers call this once per sub-step).
+        re, im = self._basis_parts
+        flat = c.reshape(-1, self.dim)
+        shape = c.shape[:-1] + (self.N, self.N)
+        if im is None:
+            return (flat @ re).reshape(shape)
+        out = np.empty((flat.shape[0], self.N * self.N), complex)
+        out.real = flat @ re
+        out.imag = flat @ im
+        return out.reshape(shape)
+
+    @cached_property
+    def _basis_parts(self):
+        flat = self.basis.reshape(self.dim, -1)
+        if self.real:
+            return np.ascontiguousarray(flat), None
+        return np.ascontiguousarray(flat.real), np.ascontiguousarray(flat.imag)
 
     def coords(self, X: np.ndarray) -> np.ndarray:
         """Coordinates ``<X_a, X> = -k Re tr(X_a X)`` of matrices ``(..., N, N)``."""
@@ -330,7 +349,13 @@ class Group:
             X = np.asarray(X).real
             if N == 3:
                 return expm_so3(X)
+            if N <= _TAYLOR_MAX_N:
+                return expm_taylor(X)
             return expm_eigh(X, real=True)
+        if N == 3:  # U(3), SU(3)
+            return expm_u3(X.astype(complex, copy=False))
+        if N <= _TAYLOR_MAX_N:
+            return expm_taylor(X.astype(complex, copy=False))
         return expm_eigh(X)
 
     # ---------------------------------------------------------- group elements
@@ -455,8 +480,9 @@ class Group:
 
     @property
     def exact_heat_kernel(self) -> bool:
-        """True when `heat_kernel` samples exactly (U(1), SU(2), Sp(1))."""
-        return self.N == 1 or (self.N == 2 and self.family in ("SU", "Sp"))
+        """True when `heat_kernel` samples exactly (U(1), SO(2), SU(2), Sp(1), SO(3))."""
+        return self.N == 1 or (self.N == 2 and self.family in ("SU", "Sp", "SO")) or (
+            self.family == "SO" and self.N == 3)
 
     def __getstate__(self):
         # Drop cached arrays; they are rebuilt on demand after unpickling.

@@ -21,15 +21,23 @@ Exact samplers:
   The CDF (`su2_angle_cdf`) is in closed form from either line: the character series
   for ``tau >= 0.05``, truncated where ``n exp(-(n^2-1) tau) < 1e-14``, and the
   Poisson-summed (image) form below, whose terms fall like ``exp(-pi^2 m^2 / tau)``
-  (through the complex error function). Sampling: for ``tau >= 0.06`` inverse CDF
-  (safeguarded Newton on the closed form, started from a per-tau CDF table); for
-  ``tau < 0.06``, where the character series converges slowly, an exact rejection
-  sampler from the image form (the ``m != 0`` terms carry a total mass below 1e-16
-  there, of order exp(-pi^2/(4 tau))): proposal
-  ``sqrt(2 tau) |N(0, I_3)|``, acceptance ``sin(theta)/theta``.
+  (through the complex error function). Sampling: for ``tau >= 0.5`` inverse CDF
+  (one Newton step on the closed form from a cubic Hermite interpolant of exact
+  quantiles per tau, safeguarded Newton where that is not enough); for ``tau < 0.5`` an
+  exact rejection sampler from the image form with the images ``m in {-1, 0, 1}``
+  (the others carry a total mass below 1e-17 there): proposal
+  ``sqrt(2 tau) |N(0, I_3)|`` (drawn as ``2 sqrt(tau Gamma(3/2))``), acceptance
+  ``sin(theta)/theta`` times the image correction, which is at most 1
+  (see `_sample_small_tau`).
 
-Other groups: `heat_kernel` uses `brownian` with ``steps = max(MIN_STEPS, ceil(max(t) /
-HEAT_KERNEL_DT))`` sub-steps (``HEAT_KERNEL_DT = 0.01``, ``MIN_STEPS = 8``).
+- ``SO(2)``: abelian, ``exp(a X_1)`` with ``a ~ N(0, t)``.
+- ``SO(3)``: the image of the SU(2) sampler under the double cover (rotation angle
+  ``2 theta``, ``theta`` drawn at ``tau = t / (16 k)``: the cover is a local isometry from
+  SU(2) with metric ``4k``).
+
+Other groups: `heat_kernel` runs the geodesic random walk with a step count per time,
+``max(MIN_STEPS, ceil(t_k / HEAT_KERNEL_DT))`` (``HEAT_KERNEL_DT = 0.01``,
+``MIN_STEPS = 8``); its law error per unit time is O(dt) (see `heat_kernel`).
 
 References
 ----------
@@ -168,8 +176,15 @@ def brownian(group, t, size: int, *, rng=None, steps: int | None = None) -> Brow
 def heat_kernel(group, t, size: int, *, rng=None) -> np.ndarray:
     """Samples of the heat kernel p_t (the law of Brownian motion at time t).
 
-    Exact for U(1), SU(2) and Sp(1); otherwise `brownian` with the default step count
-    ``max(MIN_STEPS, ceil(max(t) / HEAT_KERNEL_DT))``.
+    Exact for U(1), SO(2), SU(2), Sp(1) and SO(3) (image of SU(2)); otherwise the geodesic random walk of `brownian`
+    with a step count per time, ``max(MIN_STEPS, ceil(t_k / HEAT_KERNEL_DT))`` (cost
+    proportional to the sum of the step counts). The law error of the walk per unit
+    time is O(dt): for an irreducible pi one step has
+    ``E[pi(exp(sqrt(dt) Z.X))] = exp(-c dt/2 - c_ss c_ad dt^2/48 + O(dt^3)) Id``
+    (fourth Gaussian moment by Isserlis' theorem; ``c_ad`` the adjoint Casimir of the
+    semisimple part, ``c_ss`` the Casimir of pi without the centre of u(n); checked in
+    the tests), so at time t every Fourier coefficient of the law is
+    ``exp(-c t/2) (1 - c_ss c_ad t dt/48 + O(dt^2))`` with ``dt = t / steps``.
 
     Parameters
     ----------
@@ -188,6 +203,10 @@ def heat_kernel(group, t, size: int, *, rng=None) -> np.ndarray:
     ----------
     .. [1] L. Gross, Lecture Notes in Math. 1158, Springer, 1986.
     .. [2] H. Weyl, "The Classical Groups", Princeton, 1939.
+    .. [3] M. Liao, "Levy Processes in Lie Groups", Cambridge, 2004, Section 1.3.
+    .. [4] L. Isserlis, "On a formula for the product-moment coefficient of any order of
+       a normal frequency distribution in any number of variables", Biometrika 12
+       (1918) 134.
 
     Examples
     --------
@@ -208,13 +227,54 @@ def heat_kernel(group, t, size: int, *, rng=None) -> np.ndarray:
     if group.N == 1:
         a = rng.standard_normal(batch + (1,)) * np.sqrt(tt)[..., None]
         return group.exp(a, coords=True)
-    if group.N == 2 and group.family in ("SU", "Sp"):
-        tau = np.broadcast_to(tt / (4.0 * group.k), batch)
+    if group.family == "SO" and group.N == 2:
+        # Abelian: Brownian motion is exp(sqrt(t) Z X_1) exactly.
+        a = rng.standard_normal(batch + (1,)) * np.sqrt(tt)[..., None]
+        return group.exp(a, coords=True)
+    if (group.N == 2 and group.family in ("SU", "Sp")) or (group.family == "SO" and group.N == 3):
+        # SO(3) = SU(2)/{+-1}: with metric k on so(3) the covering map is a local
+        # isometry from SU(2) with metric 4k and doubles the rotation angle, so the
+        # SO(3) heat kernel at t is the image of the SU(2) one at tau = t / (16 k).
+        so3 = group.family == "SO"
+        kk = 4.0 * group.k if so3 else group.k
+        tau = np.broadcast_to(tt / (4.0 * kk), batch)
         theta = sample_su2_angle(tau, rng=rng)
+        if so3:
+            theta = 2.0 * theta
         axis = rng.standard_normal(batch + (3,))
-        axis /= np.linalg.norm(axis, axis=-1, keepdims=True)
-        return group.exp(axis * (theta * np.sqrt(2.0 * group.k))[..., None], coords=True)
-    return brownian(group, tt if not scalar else float(tt), size, rng=rng).value
+        axis *= (theta * np.sqrt(2.0 * group.k) / np.sqrt(np.einsum("...i,...i->...", axis, axis)))[..., None]
+        return group.exp(axis, coords=True)
+    return _heat_substeps(group, tt, size, rng)
+
+
+def _heat_substeps(group, tt, size, rng):
+    """Heat kernel by sub-stepping with a step count per time.
+
+    Time ``t_k`` gets ``s_k = max(MIN_STEPS, ceil(t_k / HEAT_KERNEL_DT))`` steps of
+    ``dt_k = t_k / s_k`` (``t_k = 0``: the identity, no steps), so the cost is
+    proportional to ``sum_k s_k`` rather than ``m * max_k s_k``. The times are sorted by
+    step count (descending) so that the paths still moving at sub-step ``i`` are a
+    contiguous leading block; each step draws fresh Gaussians for that block only.
+    The law of each column is exactly that of `brownian` with ``steps = s_k``.
+    """
+    scalar = tt.ndim == 0
+    t1 = np.atleast_1d(tt)
+    m = t1.size
+    steps = np.where(t1 > 0, np.maximum(MIN_STEPS, np.ceil(t1 / HEAT_KERNEL_DT)), 0).astype(np.intp)
+    order = np.argsort(-steps, kind="stable")
+    s_sorted = steps[order]
+    sq = np.sqrt(np.where(s_sorted > 0, t1[order] / np.maximum(s_sorted, 1), 0.0))
+    # Time-major layout (m, size, N, N): the active block U[:a] is contiguous.
+    U = group.identity((m, size))
+    smax = int(s_sorted[0]) if m else 0
+    for i in range(smax):
+        a = int(np.count_nonzero(s_sorted > i))  # leading block still moving
+        Z = rng.standard_normal((a, size, group.dim))
+        Z *= sq[:a, None, None]
+        U[:a] = U[:a] @ group.exp(Z, coords=True)
+    out = np.empty((size, m, group.N, group.N), dtype=U.dtype)
+    out[:, order] = np.swapaxes(U, 0, 1)
+    return out[:, 0] if scalar else out
 
 
 # ------------------------------------------------------------ SU(2) angle law
@@ -310,28 +370,67 @@ def su2_angle_pdf(theta, tau) -> np.ndarray:
     return _cdf_pdf(theta, tau)[1]
 
 
-_TAU_REJECT = 0.06  # below: rejection sampler (neglected image mass < 1e-16)
+_TAU_REJECT = 0.5  # below: rejection sampler (neglected image mass < 1e-18)
+_IMAGE_LOG_TOL = 60 * math.log(2.0)  # images skipped where their effect is < 2^-60
 _GRID = 1025
 
 
-def _sample_small_tau(tau, rng):
-    """Angles for ``tau < _TAU_REJECT`` by rejection.
+def _accept_numerator(th, t):
+    """``sin(theta) [theta + (theta + 2 pi) e_+ + (theta - 2 pi) e_-]``; the acceptance
+    probability is this over ``theta^2``.
 
-    For such tau the image terms m != 0 of the dual density carry a total mass of order
-    exp(-pi^2/(4 tau)) < 1e-16 (they matter only near theta = pi, where the density is
-    that small), so up to that total-variation error p(theta) is proportional to
-    theta sin(theta) exp(-theta^2/(4 tau)) on [0, pi]. Proposal: theta = sqrt(2 tau) |Z|, Z ~ N(0, I_3) (density proportional
-    to theta^2 exp(-theta^2/(4 tau))); accept with probability sin(theta)/theta and
-    theta <= pi. The acceptance rate is about 1 - tau.
+    The images change the bracket by ``-theta (B - A)`` with
+    ``0 <= B - A <= (4 pi^2 / tau) exp(-pi (pi - theta) / tau)`` (from
+    ``sinh(x) <= x cosh(x) <= x e^x``); they are evaluated only where that bound exceeds
+    ``2^-60``, elsewhere the acceptance probability is exact to that relative error.
+    """
+    need = (np.pi / t) * (np.pi - th) < np.log(4 * np.pi**2 / t) + _IMAGE_LOG_TOL
+    rhs = th.copy()
+    idx = np.flatnonzero(need)
+    if idx.size:
+        h, ti = th[idx], t[idx]
+        em = np.exp(-(np.pi / ti) * (np.pi - h))  # e_-; e_+ = e_- exp(-2 pi h / tau)
+        rhs[idx] += (h - 2 * np.pi) * em + (h + 2 * np.pi) * (em * np.exp(-(2 * np.pi / ti) * h))
+    return np.sin(th) * rhs
+
+
+def _sample_small_tau(tau, rng):
+    """Angles for ``tau < _TAU_REJECT`` by rejection from the image form.
+
+    Dividing the image-form density by ``exp(-theta^2/(4 tau))`` and keeping the images
+    ``m in {-1, 0, 1}``, the target is proportional to
+
+        sin(theta) [theta + (theta + 2 pi) e_+ + (theta - 2 pi) e_-] exp(-theta^2/(4 tau)),
+        e_+- = exp(-pi (pi +- theta) / tau),
+
+    on [0, pi]. Proposal: ``theta = sqrt(2 tau) |Z|``, Z ~ N(0, I_3), i.e.
+    ``theta = 2 sqrt(tau G)`` with G ~ Gamma(3/2) (density proportional to
+    ``theta^2 exp(-theta^2/(4 tau))``); accept when ``theta <= pi`` and
+    ``u theta^2 <= sin(theta) [theta + (theta + 2 pi) e_+ + (theta - 2 pi) e_-]``.
+    The ratio is at most 1: ``sin(theta) <= theta`` and the m = -1 term outweighs the
+    m = +1 term, ``(2 pi - theta) e_- >= (2 pi + theta) e_+`` whenever
+    ``tau <= pi (2 pi - theta)``, which holds for tau < pi^2. The images |m| >= 2 carry
+    a total mass below about ``exp(-2 pi^2 / tau) < 1e-17`` for tau < 0.5; the m = +-1
+    images are evaluated only where they can change the acceptance probability by more
+    than 2^-60 (see `_accept_numerator`). The acceptance rate is ``exp(-tau)`` (ratio of the normalising
+    constants), 0.61 at tau = 0.5.
+
+    References
+    ----------
+    .. [1] L. Devroye, "Non-Uniform Random Variate Generation", Springer, 1986,
+       Section II.3 (rejection) and IX.3 (gamma variates; chi^2_3 / 2 ~ Gamma(3/2)).
     """
     out = np.empty_like(tau)
     todo = np.arange(tau.size)
+    t = tau
     while todo.size:
-        t = tau[todo]
-        th = np.sqrt(2 * t) * np.linalg.norm(rng.standard_normal((todo.size, 3)), axis=1)
-        ok = (th <= np.pi) & (rng.random(todo.size) * th <= np.sin(th))
+        th = 2.0 * np.sqrt(t * rng.standard_gamma(1.5, todo.size))
+        u = rng.random(todo.size)
+        with np.errstate(invalid="ignore"):
+            ok = (th <= np.pi) & (u * th * th <= _accept_numerator(th, t))
         out[todo[ok]] = th[ok]
         todo = todo[~ok]
+        t = t[~ok]
     return out
 
 
@@ -384,18 +483,47 @@ def _initial_guess(u, tau):
                           pos - 1 - inv * G)
 
 
+_QUANTILES = 1024  # cells of the per-tau quantile table
+
+
+def _quantile_table(taus):
+    """Exact quantiles ``theta_j = F^{-1}(j / M)`` (``M = _QUANTILES``) per tau and the
+    slopes ``d theta / du = 1 / p(theta_j)``, shape (len(taus), M + 1)."""
+    M = _QUANTILES
+    U = np.broadcast_to(np.linspace(0.0, 1.0, M + 1), (taus.size, M + 1))
+    Tq = np.broadcast_to(taus[:, None], U.shape)
+    th = _sample_inverse_cdf(Tq.ravel(), U.ravel()).reshape(U.shape)
+    th[:, 0], th[:, -1] = 0.0, np.pi
+    p = _cdf_pdf(th, Tq)[1]
+    with np.errstate(divide="ignore"):
+        d = np.where(p > 0, 1.0 / p, 0.0)
+    return th, d
+
+
 def _initial_guess_columns(u, row):
-    """As `_initial_guess` for u of shape (size, m) whose column i has tau = row[i]:
-    one small table search per column (cache-friendly)."""
+    """Starting points for u of shape (size, m) whose column i has tau = row[i].
+
+    Cubic Hermite interpolation of the quantile function between exact quantiles at
+    ``j / M`` (slopes ``1/p``; error O(M^-4), about 1e-12 away from the two end cells,
+    where the quantile function behaves like ``u^(1/3)`` and linear interpolation is
+    used). One Newton step on the exact CDF then finishes (`_sample_inverse_cdf`).
+    """
     taus, inv = np.unique(row, return_inverse=True)
-    grid, T, P = _cdf_table(taus)
-    G = _GRID
-    pos = np.empty(u.shape, dtype=np.intp)
-    for i in range(row.size):  # loop over distinct columns (times), not samples
-        pos[:, i] = np.searchsorted(T[inv[i]], u[:, i], side="right")
-    pos = np.clip(pos, 1, G - 1)
-    r = inv[None, :]
-    return _hermite_solve(u, grid, T[r, pos - 1], T[r, pos], P[r, pos - 1], P[r, pos], pos - 1)
+    th, d = _quantile_table(taus)
+    M = _QUANTILES
+    y = u * M
+    j = np.minimum(y.astype(np.intp), M - 1)
+    x = y - j
+    base = (inv * (M + 1))[None, :] + j  # flat index of the left node
+    t0, t1 = th.ravel()[base], th.ravel()[base + 1]
+    h = 1.0 / M
+    d0, d1 = d.ravel()[base] * h, d.ravel()[base + 1] * h
+    end = (j == 0) | (j == M - 1)
+    d0[end] = t1[end] - t0[end]
+    d1[end] = d0[end]
+    x2 = x * x
+    x3 = x2 * x
+    return (t0 + (3 * x2 - 2 * x3) * (t1 - t0) + (x3 - 2 * x2 + x) * d0 + (x3 - x2) * d1)
 
 
 def _sample_inverse_cdf(tau, u, guess=None):
@@ -433,11 +561,13 @@ def _sample_inverse_cdf(tau, u, guess=None):
 def sample_su2_angle(tau, *, rng=None) -> np.ndarray:
     """Draw SU(2) heat-kernel angles, one per entry of ``tau = t/(4k)``.
 
-    ``tau < 0.06``: exact rejection from the image form (see `_sample_small_tau`).
-    Otherwise inverse CDF: ``F_tau(theta) = u`` is solved by a vectorised safeguarded
-    Newton iteration on the closed-form character-series CDF (bisection whenever a step
-    leaves the bracket), started from a CDF table per distinct ``tau``; it stops when
-    the predicted error is below about 1e-15.
+    ``tau < 0.5``: exact rejection from the image form (see `_sample_small_tau`;
+    acceptance rate ``exp(-tau)``). Otherwise inverse CDF: ``F_tau(theta) = u`` is
+    solved by a vectorised safeguarded Newton iteration on the closed-form
+    character-series CDF (bisection whenever a step leaves the bracket), started, when
+    the rows share one tau per column (the sampler's layout), from a cubic Hermite
+    interpolant of exact quantiles (usually one Newton step), else from a CDF table per
+    distinct ``tau``; it stops when the predicted error is below about 1e-15.
 
     References
     ----------

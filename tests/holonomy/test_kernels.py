@@ -43,24 +43,3 @@ def test_quaternion_heat_kernel_moment():
     mean, se = a0.mean(axis=0), a0.std(axis=0, ddof=1) / np.sqrt(a0.shape[0])
     assert np.all(np.abs(mean - np.exp(-0.375 * t)) <= 4 * se)
 
-
-@pytest.mark.parametrize("eigs", [None, (1.0, 1.0, -2.0), (-2.0, 1.0, 1.0), (0.5, 0.5 + 1e-9, -1.0),
-                                  (0.0, 0.0, 0.0), (3.0, 0.0, -3.0), (40.0, -15.0, -25.0)])
-def test_closed_form_u3_exponential_matches_expm(eigs):
-    # Morningstar and Peardon 2004 (Phys. Rev. D 69, 054501) closed form against
-    # scipy.linalg.expm, including degenerate spectra where the formula is delicate
-    import scipy.linalg
-    from scipy.stats import unitary_group
-
-    from holonomy._kernels import expm_u3
-
-    rng = np.random.default_rng(4)
-    if eigs is None:
-        group = make_group("U", 3, "trace")
-        X = group.algebra(rng.standard_normal((200, 9)) * 5)
-    else:
-        V = unitary_group.rvs(3, size=20, random_state=2)
-        X = 1j * (V * np.array(eigs)[None, None, :]) @ np.conj(np.swapaxes(V, 1, 2))
-        X = X + 0.3j * np.eye(3)  # a u(1) part too
-    ref = np.array([scipy.linalg.expm(x) for x in X])
-    np.testing.assert_allclose(expm_u3(X), ref, atol=1e-12 * max(1.0, np.abs(X).max()))

@@ -12,7 +12,7 @@ from hypothesis.extra.numpy import arrays
 
 from holonomy.groups import make_group
 
-GROUPS = [("U", 1), ("U", 2), ("U", 4), ("SU", 2), ("SU", 3), ("SU", 5), ("SO", 2),
+GROUPS = [("U", 1), ("U", 2), ("U", 3), ("U", 4), ("SU", 2), ("SU", 3), ("SU", 5), ("SO", 2),
           ("SO", 3), ("SO", 4), ("SO", 5), ("Sp", 1), ("Sp", 2), ("Sp", 3)]
 
 
@@ -104,3 +104,44 @@ def test_haar_on_group(family, n):
     G = make_group(family, n)
     U = G.haar(50, rng=np.random.default_rng(2))
     assert U.shape == (50, G.N, G.N) and G.drift(U) < 1e-12
+
+
+@pytest.mark.parametrize("family", ["U", "SU"])
+def test_expm_u3_edge_cases_match_scipy(family):
+    # Closed form (Morningstar & Peardon 2004, Phys. Rev. D 69, 054501) against
+    # scipy.linalg.expm (Al-Mohy & Higham 2009) at the special points of the
+    # parametrization: X = 0, degenerate spectra (det Q = +-max, the theta = 0 end),
+    # tiny and large norms, and random matrices of both signs of det Q.
+    from holonomy.groups import expm_u3
+
+    G = make_group(family, 3, "trace")
+    rng = np.random.default_rng(5)
+    c = [np.zeros(G.dim), 1e-9 * rng.standard_normal(G.dim), 7.0 * rng.standard_normal(G.dim)]
+    c += list(rng.standard_normal((20, G.dim)))
+    X = list(G.algebra(np.array(c)))
+    for d in ([1.0, 1.0, -2.0], [-1.0, -1.0, 2.0], [0.3, 0.3, 0.3]):  # degenerate spectra
+        V = G.haar(1, rng=rng)[0] if family == "SU" else make_group("U", 3).haar(1, rng=rng)[0]
+        H = V @ np.diag(d) @ V.conj().T
+        X.append(1j * (H - (np.trace(H) / 3 if family == "SU" else 0)))
+    X = np.array(X)
+    ref = np.array([scipy.linalg.expm(x) for x in X])
+    np.testing.assert_allclose(expm_u3(X), ref, atol=1e-12, rtol=0)
+    np.testing.assert_allclose(G.exp_matrix(X), ref, atol=1e-12, rtol=0)
+
+
+
+@pytest.mark.parametrize("family,n", [("U", 2), ("U", 4), ("SO", 4), ("Sp", 2), ("SO", 6)])
+def test_expm_taylor_mixed_norms_match_scipy(family, n):
+    # Scaled Taylor (Moler & Van Loan 2003, SIAM Review 45, Method 3) against
+    # scipy.linalg.expm (Al-Mohy & Higham 2009): one batch mixing X = 0, tiny, step-sized
+    # and large norms, so matrices take different numbers of squarings.
+    from holonomy.groups import expm_taylor
+
+    G = make_group(family, n, "trace")
+    rng = np.random.default_rng(11)
+    scales = np.array([0.0, 1e-10, 0.05, 0.3, 1.0, 4.0, 12.0])
+    c = scales[:, None] * rng.standard_normal((scales.size, G.dim))
+    X = G.algebra(c)
+    ref = np.array([scipy.linalg.expm(x) for x in X])
+    np.testing.assert_allclose(expm_taylor(X), ref, atol=1e-12, rtol=0)
+    assert G.drift(expm_taylor(X)) < 1e-12
