@@ -22,18 +22,23 @@ Figures (see DEVELOPERS.md, "Benchmarks"):
 
 from __future__ import annotations
 
-import argparse
-import json
 import os
-import resource
-import subprocess
-import sys
-import tempfile
-import textwrap
-import time
 
-import numpy as np
-import scipy.linalg
+# one BLAS thread for every side of every comparison: small-matrix BLAS calls with
+# several threads on a shared 2-core machine are erratic (seen: 100x slower)
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
+import argparse  # noqa: E402
+import json  # noqa: E402
+import resource  # noqa: E402
+import subprocess  # noqa: E402
+import sys  # noqa: E402
+import tempfile  # noqa: E402
+import textwrap  # noqa: E402
+import time  # noqa: E402
+
+import numpy as np  # noqa: E402
+import scipy.linalg  # noqa: E402
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 sys.path.insert(0, ROOT)

@@ -85,13 +85,17 @@ class QuaternionKernel(MatrixKernel):
         self.V = (np.einsum("aij,bji->ab", group.basis, _PAULI) / 2j).real
 
     def exp(self, coords: np.ndarray) -> np.ndarray:
+        # exp(i u.sigma) = cos|u| + i sin|u| (u/|u|).sigma with u = c V
         c = np.asarray(coords, float)
-        V = self.V
-        u = c[..., 0, None] * V[0] + c[..., 1, None] * V[1] + c[..., 2, None] * V[2]
+        out = np.empty(c.shape[:-1] + (4,))
+        u = out[..., 1:]
+        np.matmul(c, self.V, out=u)
         theta = np.sqrt(np.einsum("...i,...i->...", u, u))
-        out = np.empty(u.shape[:-1] + (4,))
-        out[..., 0] = np.cos(theta)
-        out[..., 1:] = np.sinc(theta / np.pi)[..., None] * u
+        np.cos(theta, out=out[..., 0])
+        ratio = np.sin(theta)
+        np.divide(ratio, theta, out=ratio, where=theta > 0)
+        ratio[theta == 0] = 1.0
+        u *= ratio[..., None]
         return out
 
     def heat(self, t: np.ndarray, size: int, rng) -> np.ndarray:
