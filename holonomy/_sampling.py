@@ -39,7 +39,8 @@ from ._kernels import kernel_for
 from ._schemes import get_scheme
 from .groups import make_group
 
-__all__ = ["Field", "WilsonProblem", "run_block", "estimate_wilson_loops", "PATHS"]
+__all__ = ["Field", "WilsonProblem", "run_block", "estimate_wilson_loops", "PATHS",
+           "chunk_size"]
 
 PATHS = ("auto", "perimeter", "dense")
 
@@ -351,6 +352,23 @@ def run_block(problem: WilsonProblem, block: int, size: int | None = None) -> Bl
     return _block_sums(problem, block, size, block_rng(problem.seed, block))
 
 
+#: working-set budget of one chunk of samples inside a block (bytes): the hot loop's
+#: arrays stay in cache, so time grows linearly with the perimeter and the samples
+CHUNK_BYTES = 4 << 20
+
+
+def chunk_size(problem: WilsonProblem, path: str) -> int:
+    """Samples per chunk inside a block, a function of the problem only (never of the
+    machine or the sample count), so results stay bitwise reproducible."""
+    plan = problem.plan
+    elem = 4 * 8 if problem.kernel.elem_ndim == 1 else problem.group.N ** 2 * 16
+    per_sample = (plan.n_intervals + plan.link_count()) * (elem + 8 * problem.group.dim)
+    if path == "dense":
+        cols, lo, hi = plan.columns_and_rows()
+        per_sample += cols.size * (hi - lo) * (elem + 8 * problem.group.dim)
+    return int(max(64, CHUNK_BYTES // max(per_sample, 1)))
+
+
 def _block_sums(problem: WilsonProblem, block: int, size: int, rng,
                 noise: np.ndarray | None = None) -> BlockSums:
     if problem.formal:
@@ -359,13 +377,19 @@ def _block_sums(problem: WilsonProblem, block: int, size: int, rng,
             "exists to sample; use holonomy.lattice_series or noise.FormalGaussian."
         )
     path = "dense" if noise is not None else problem.resolved_path
-    variables = _interval_variables(problem, size, rng, path, noise)
     kernel = problem.kernel
-    hol = _holonomies(problem, variables, kernel)
     rep = problem.representation
-    values = np.stack([kernel.character(rep, h) for h in hol], axis=1)
-    drift = max(kernel.drift(h) for h in hol)
-    return BlockSums.from_values(block, values, drift)
+    step = chunk_size(problem, path)
+    values, drift = [], 0.0
+    # chunks draw from the block's generator one after the other
+    for start in range(0, size, step):
+        n = min(step, size - start)
+        sub = None if noise is None else noise[start:start + n]
+        variables = _interval_variables(problem, n, rng, path, sub)
+        hol = _holonomies(problem, variables, kernel)
+        values.append(np.stack([kernel.character(rep, h) for h in hol], axis=1))
+        drift = max(drift, max(kernel.drift(h) for h in hol))
+    return BlockSums.from_values(block, np.concatenate(values), drift)
 
 
 def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fundamental", *,

@@ -306,3 +306,20 @@ def test_loop_leaving_the_grid_is_refused():
     grid = Grid((0.0, 0.0), 0.5, (2, 2))
     with pytest.raises(ValueError, match="grid"):
         LatticeLoop.from_moves(grid, "R4 U1 L4 D1")
+
+
+def test_chunks_depend_on_the_problem_not_the_sample_count():
+    # blocks are processed in cache-sized chunks; the chunk size must not change with
+    # the number of samples, or results would depend on it (common practice, no source)
+    from holonomy._sampling import chunk_size
+
+    def make(samples, side):
+        return WilsonProblem(family="SU", n=2, metric="physics", field=Field(1.0, 0.125),
+                             loops=(_rect(side, side),), samples=samples, block=4096, seed=1)
+    assert chunk_size(make(10, 1.0), "perimeter") == chunk_size(make(10**6, 1.0), "perimeter")
+    assert chunk_size(make(10, 4.0), "perimeter") < chunk_size(make(10, 1.0), "perimeter")
+    # a block spanning several chunks is still a pure function of (seed, block)
+    p = make(5000, 4.0)
+    assert p.block_sizes()[0] > chunk_size(p, "perimeter")
+    a, b = run_block(p, 0), run_block(p, 0)
+    assert a.sum_re[0] == b.sum_re[0] and a.count == 4096
