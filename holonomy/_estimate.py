@@ -14,6 +14,8 @@ References
 ----------
 .. [1] Flegal, J. M. and Jones, G. L. (2010). "Batch means and spectral variance
    estimators in Markov chain Monte Carlo." Ann. Statist. 38(2), 1034-1070.
+.. [2] Chan, T. F., Golub, G. H. and LeVeque, R. J. (1979). "Updating formulae and a
+   pairwise algorithm for computing sample variances." Stanford CS report STAN-CS-79-773.
 """
 
 from __future__ import annotations
@@ -45,6 +47,10 @@ class BlockSums:
     cross_sq: np.ndarray
     drift: float
     reprojected: bool = False
+    # centred sums of squares sum_s (x_s - block mean)^2: without them the variance of
+    # values close to a constant (lambda * area ~ 1e-10) cancels to 0 in sumsq - sum^2/n
+    m2_re: np.ndarray | None = None
+    m2_im: np.ndarray | None = None
 
     @classmethod
     def from_values(cls, block: int, values: np.ndarray, drift: float,
@@ -64,6 +70,8 @@ class BlockSums:
             cross_sq=(prod_re * prod_re).sum(axis=0),
             drift=float(drift),
             reprojected=bool(reprojected),
+            m2_re=((re - re.mean(axis=0)) ** 2).sum(axis=0),
+            m2_im=((im - im.mean(axis=0)) ** 2).sum(axis=0),
         )
 
     def to_dict(self) -> dict:
@@ -80,6 +88,8 @@ class BlockSums:
             "cross_sq": self.cross_sq.tolist(),
             "drift": self.drift,
             "reprojected": self.reprojected,
+            **({} if self.m2_re is None else {"m2_re": self.m2_re.tolist(),
+                                               "m2_im": self.m2_im.tolist()}),
         }
 
     @classmethod
@@ -96,6 +106,8 @@ class BlockSums:
             cross_sq=np.asarray(data["cross_sq"], float),
             drift=float(data["drift"]),
             reprojected=bool(data.get("reprojected", False)),
+            m2_re=np.asarray(data["m2_re"], float) if "m2_re" in data else None,
+            m2_im=np.asarray(data["m2_im"], float) if "m2_im" in data else None,
         )
 
 
@@ -151,6 +163,17 @@ def _stderr(total: np.ndarray, total_sq: np.ndarray, n: int) -> np.ndarray:
     return np.sqrt(var / n)
 
 
+def _stderr_centred(blocks, part: str, n: int) -> np.ndarray:
+    """Standard error from per-block centred sums, combined by the pairwise update
+    M2 = sum_b M2_b + sum_b n_b (mean_b - mean)^2 ([2]); accurate
+    in floating point for values that barely vary, where sumsq - sum^2 / n cancels."""
+    total = np.sum([getattr(b, f"sum_{part}") for b in blocks], axis=0)
+    mean = total / n
+    m2 = np.sum([getattr(b, f"m2_{part}") + b.count * (getattr(b, f"sum_{part}") / b.count
+                                                       - mean) ** 2 for b in blocks], axis=0)
+    return np.sqrt(m2 / max(n - 1, 1) / n)
+
+
 def combine_blocks(blocks: Sequence[BlockSums], *, names: Sequence[str],
                    areas: Sequence[float], seed: int, block: int, scheme: str,
                    path: str) -> EstimateResult:
@@ -165,8 +188,12 @@ def combine_blocks(blocks: Sequence[BlockSums], *, names: Sequence[str],
     n = sum(b.count for b in blocks)
     sum_re = np.sum([b.sum_re for b in blocks], axis=0)
     sum_im = np.sum([b.sum_im for b in blocks], axis=0)
-    se_re = _stderr(sum_re, np.sum([b.sumsq_re for b in blocks], axis=0), n)
-    se_im = _stderr(sum_im, np.sum([b.sumsq_im for b in blocks], axis=0), n)
+    if all(b.m2_re is not None for b in blocks):
+        se_re = _stderr_centred(blocks, "re", n)
+        se_im = _stderr_centred(blocks, "im", n)
+    else:  # blocks stored before the centred sums existed
+        se_re = _stderr(sum_re, np.sum([b.sumsq_re for b in blocks], axis=0), n)
+        se_im = _stderr(sum_im, np.sum([b.sumsq_im for b in blocks], axis=0), n)
     mean_re = sum_re / n
     # batch means: block means weighted by block size
     if len(blocks) > 1:

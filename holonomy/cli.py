@@ -42,12 +42,15 @@ def _workers(text: str) -> int:
 
 
 def _order(text: str) -> int:
+    from holonomy.experiment._references import MAX_SERIES_ORDER
+
     try:
         v = int(text)
     except ValueError:
         v = -1
-    if v < 0:
-        raise argparse.ArgumentTypeError(f"got {text!r}; expected an integer >= 0")
+    if not 0 <= v <= MAX_SERIES_ORDER:
+        raise argparse.ArgumentTypeError(f"got {text!r}; expected an integer from 0 to "
+                                         f"{MAX_SERIES_ORDER}")
     return v
 
 
@@ -219,13 +222,16 @@ def main(argv: list[str] | None = None) -> int:
     if args.command is None:
         parser.print_help()
         return 0
-    from holonomy.experiment import SpecError
+    from holonomy.experiment import BlockFailed, SpecError
 
     try:
         return _COMMANDS[args.command](args)
     except SpecError as exc:
         print(f"whitegauge: error: {exc}", file=sys.stderr)
         return 2
+    except BlockFailed as exc:  # a block raised twice: exit 1, finished blocks kept
+        print(f"whitegauge: run stopped: {exc}", file=sys.stderr)
+        return 1
     except KeyboardInterrupt:
         print("whitegauge: interrupted (finished blocks are kept; rerun with --resume)",
               file=sys.stderr)

@@ -18,3 +18,4 @@ from ._references import *  # noqa: F401,F403
 from ._report import *  # noqa: F401,F403
 from ._study import *  # noqa: F401,F403
 from ._demo import *  # noqa: F401,F403
+from ._faults import *  # noqa: F401,F403

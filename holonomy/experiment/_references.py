@@ -267,6 +267,61 @@ def exact_results(spec) -> dict:
 RATIONAL_STEPS = 20
 
 
+SERIES_BUDGET = 60.0  # seconds per loop and kind of coefficient (WHITEGAUGE_SERIES_BUDGET)
+MAX_SERIES_ORDER = 20
+
+
+class SeriesBudgetExceeded(ArithmeticError):
+    """The formal series of one loop did not finish within its time budget."""
+
+
+def _series_worker(conn, fn, args, kwargs):
+    try:
+        conn.send((True, fn(*args, **kwargs)))
+    except BaseException as exc:  # noqa: BLE001  (sent back to the parent)
+        conn.send((False, exc))
+    finally:
+        conn.close()
+
+
+def _bounded(fn, *args, **kwargs):
+    """``fn(*args, **kwargs)`` in a child process, killed after the series budget.
+
+    The Wick expansion's cost grows factorially with the order (the number of pairings
+    of 2M factors is (2M - 1)!!), so no static size test is reliable: the limit is a
+    stated wall time per loop, ``SERIES_BUDGET`` seconds (overridden by the environment
+    variable ``WHITEGAUGE_SERIES_BUDGET``), after which the loop's coefficients are null
+    with a note instead of the command hanging.
+    """
+    import multiprocessing as mp
+    import os
+
+    budget = float(os.environ.get("WHITEGAUGE_SERIES_BUDGET", SERIES_BUDGET))
+    ctx = mp.get_context("fork" if "fork" in mp.get_all_start_methods() else "spawn")
+    parent, child = ctx.Pipe(duplex=False)
+    proc = ctx.Process(target=_series_worker, args=(child, fn, args, kwargs), daemon=True)
+    proc.start()
+    child.close()
+    try:
+        if not parent.poll(budget):
+            raise SeriesBudgetExceeded(
+                f"the series did not finish within the formal route's budget of "
+                f"{budget:g} s (WHITEGAUGE_SERIES_BUDGET); try a lower --order")
+        try:
+            ok, value = parent.recv()
+        except EOFError:
+            raise ArithmeticError("the series worker ended without an answer "
+                                  f"(exit code {proc.exitcode})") from None
+    finally:
+        if proc.is_alive():
+            proc.kill()
+        proc.join()
+        parent.close()
+    if not ok:
+        raise value
+    return value
+
+
 def _rationals(lattice_series, problem, i, order):
     """Exact coefficients as strings, or (None, why not)."""
     try:
@@ -279,7 +334,9 @@ def _rationals(lattice_series, problem, i, order):
         return None, (f"exact coefficients skipped: {m} horizontal steps (more than "
                       f"{RATIONAL_STEPS}); the floats are exact up to rounding")
     try:
-        res = lattice_series(problem, i, order, exact=True)
+        res = _bounded(lattice_series, problem, i, order, exact=True)
+    except SeriesBudgetExceeded as exc:
+        return None, f"exact coefficients skipped: {exc}"
     except NotImplementedError as exc:
         return None, f"exact coefficients not available ({exc})"
     except Exception as exc:  # noqa: BLE001  (rationals are optional: say why)
@@ -328,7 +385,7 @@ def series_results(spec, order: int, *, loops: Sequence[int] | None = None,
         if problem is not None:
             res = None
             try:
-                res = lattice_series(problem, i, order, exact=False)
+                res = _bounded(lattice_series, problem, i, order, exact=False)
             except NotImplementedError as exc:
                 row["note"] = f"{NOT_AVAILABLE} ({exc})" if str(exc) else NOT_AVAILABLE
             except (ValueError, TypeError, ArithmeticError) as exc:

@@ -30,6 +30,8 @@ import tempfile
 from pathlib import Path
 from typing import Any, Sequence
 
+from ._faults import fault_point
+
 __all__ = ["build_results", "write_results", "write_json_atomic", "format_table",
            "format_exact_table", "format_series_table", "fmt_value", "clean"]
 
@@ -117,6 +119,7 @@ def write_json_atomic(obj: Any, path: str | Path) -> Path:
             fh.write("\n")
             fh.flush()
             os.fsync(fh.fileno())
+        fault_point("json-replace")  # test hook: a kill here leaves only the temp file
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):

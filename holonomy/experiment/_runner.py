@@ -26,10 +26,11 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable
 
+from ._faults import fault_point, maybe_fail_block
 from ._spec import Spec, SpecError
 from ._store import STORE_NAME, RunStore, versions
 
-__all__ = ["Job", "ExecutionStats", "execute", "build_problem", "wilson_job",
+__all__ = ["Job", "ExecutionStats", "BlockFailed", "execute", "build_problem", "wilson_job",
            "make_executor", "RunOutcome", "run_spec"]
 
 
@@ -78,16 +79,36 @@ class ExecutionStats:
 
 def _timed(block_fn, problem, b: int):
     """Run one block in a worker; module level so process pools can pickle it."""
+    maybe_fail_block(b)  # test hook, inert unless WHITEGAUGE_TEST_FAIL_BLOCK is set
     t0 = time.perf_counter()
     out = block_fn(problem, b)
     return b, out, time.perf_counter() - t0
 
 
+class BlockFailed(RuntimeError):
+    """A block raised twice (first attempt and one retry); the run stops.
+
+    ``block`` and ``seed`` identify it (it draws from ``SeedSequence(seed,
+    spawn_key=(block,))``); the blocks finished before are in the store.
+    """
+
+    def __init__(self, block: int, seed, cause: BaseException, kept: int):
+        self.block, self.seed, self.cause, self.kept = block, seed, cause, kept
+        msg = " ".join(str(cause).split())
+        super().__init__(
+            f"block {block} (seed {seed}, spawn_key ({block},)) failed twice: "
+            f"{type(cause).__name__}: {msg}; {kept} finished blocks are kept in the "
+            "store (rerun with --resume)")
+
+
 def execute(job: Job, *, store: RunStore | None = None, executor: cf.Executor | None = None,
-            progress: bool = False, max_pending: int | None = None):
+            progress: bool = False, max_pending: int | None = None, retries: int = 1):
     """Run every block of ``job`` not yet in ``store`` and return ``(result, stats)``.
 
-    ``result`` is ``job.problem.finish(blocks)`` with the blocks in index order.
+    ``result`` is ``job.problem.finish(blocks)`` with the blocks in index order. A block
+    that raises is resubmitted up to ``retries`` times (a block is pure, so a retry
+    computes the same numbers); if it still fails, the blocks already running are
+    awaited and stored, and :class:`BlockFailed` names the block and the seed.
     """
     t0 = time.perf_counter()
     n = job.n_blocks
@@ -99,6 +120,8 @@ def execute(job: Job, *, store: RunStore | None = None, executor: cf.Executor | 
                 done[b] = job.decode(text)
         stats.reused = len(done)
     todo = [b for b in range(n) if b not in done]
+    seed = getattr(job.problem, "seed", None)
+    attempts: dict[int, int] = {}
     bar = None
     if progress:
         from tqdm import tqdm
@@ -111,34 +134,69 @@ def execute(job: Job, *, store: RunStore | None = None, executor: cf.Executor | 
             # one transaction per block, right away: a kill loses at most running blocks
             store.put(b, job.count(out), job.encode(out), seconds)
             out = job.decode(job.encode(out))  # what a resume would read back
+            fault_point("block-stored")
         done[b] = out
         stats.computed += 1
         stats.block_seconds += seconds
         if bar is not None:
             bar.update(1)
 
+    def _failed(b, exc) -> bool:
+        """Count a failure of block b; True if it may be retried."""
+        attempts[b] = attempts.get(b, 0) + 1
+        return attempts[b] <= retries
+
     try:
         if executor is None:
             for b in todo:
-                _finish_block(*_timed(job.block_fn, job.problem, b))
+                while True:
+                    try:
+                        res = _timed(job.block_fn, job.problem, b)
+                    except Exception as exc:  # noqa: BLE001  (retried, then reported)
+                        if _failed(b, exc):
+                            continue
+                        raise BlockFailed(b, seed, exc, len(done)) from exc
+                    _finish_block(*res)
+                    break
         else:
             if max_pending is None:
                 max_pending = 4 * (os.cpu_count() or 1)
-            pending: set[cf.Future] = set()
+            pending: dict[cf.Future, int] = {}
             it = iter(todo)
             exhausted = False
+            failure: BlockFailed | None = None
             while True:
-                while not exhausted and len(pending) < max_pending:
+                while failure is None and not exhausted and len(pending) < max_pending:
                     b = next(it, None)
                     if b is None:
                         exhausted = True
                         break
-                    pending.add(executor.submit(_timed, job.block_fn, job.problem, b))
+                    pending[executor.submit(_timed, job.block_fn, job.problem, b)] = b
                 if not pending:
                     break
-                finished, pending = cf.wait(pending, return_when=cf.FIRST_COMPLETED)
+                finished, _ = cf.wait(set(pending), return_when=cf.FIRST_COMPLETED)
                 for fut in finished:
-                    _finish_block(*fut.result())
+                    b = pending.pop(fut)
+                    try:
+                        res = fut.result()
+                    except Exception as exc:  # noqa: BLE001  (retried, then reported)
+                        if failure is None and _failed(b, exc):
+                            try:
+                                pending[executor.submit(_timed, job.block_fn,
+                                                        job.problem, b)] = b
+                                continue
+                            except Exception:  # noqa: BLE001  (a broken pool)
+                                pass
+                        if failure is None:
+                            failure = BlockFailed(b, seed, exc, 0)
+                            for other in pending:  # not started yet: drop
+                                other.cancel()
+                        continue
+                    _finish_block(*res)
+                pending = {f: b for f, b in pending.items() if not f.cancelled()}
+            if failure is not None:
+                raise BlockFailed(failure.block, seed, failure.cause, len(done)) \
+                    from failure.cause
     finally:
         if bar is not None:
             bar.close()
@@ -252,6 +310,7 @@ def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor
                              spec_sha256=spec.sha256, job_key="run", resume=resume,
                              workers=worker_label)
             store.set_meta("name", spec.name)
+            fault_point("store-open")
         estimate, stats = execute(wilson_job(problem), store=store, executor=executor,
                                   progress=progress)
     finally:
@@ -271,6 +330,7 @@ def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor
         "platform": sys.platform,
     })
     results = build_results(spec, problem, estimate, provenance)
+    fault_point("results-ready")
     files = write_results(results, out) if (out is not None and write) else {}
     return RunOutcome(results=results, estimate=estimate, stats=stats, files=files)
 

@@ -26,6 +26,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any
 
+from ._faults import fault_point
 from ._spec import SpecError
 
 __all__ = ["RunStore", "StoreMismatch", "STORE_NAME", "versions"]
@@ -150,6 +151,7 @@ class RunStore:
                 "INSERT OR REPLACE INTO blocks(block, count, data, seconds, session, "
                 "finished) VALUES (?, ?, ?, ?, ?, ?)",
                 (int(block), int(count), data, float(seconds), self.session, _now()))
+            fault_point("block-commit")  # test hook: a kill here is inside the transaction
 
     def blocks(self) -> list[tuple[int, str]]:
         """All stored blocks as ``(index, data)`` in block order."""
