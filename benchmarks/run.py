@@ -138,8 +138,8 @@ def fig_naive_and_floor(quick: bool) -> None:
             naive = naive_linear(fast, naive_n)
             t_naive = (time.perf_counter() - t0) / naive_n
             sums = run_block(fast, 0)
-            est, se = sums.sum_re[0] / sums.count, np.sqrt(
-                sums.sumsq_re[0] / sums.count - (sums.sum_re[0] / sums.count) ** 2) / np.sqrt(sums.count)
+            est = sums.sum_re[0] / sums.count
+            se = np.sqrt(sums.m2_re[0] / (sums.count - 1) / sums.count)
             n_se = np.sqrt(naive.real.var(ddof=1) / naive_n)
             agree = abs(est - naive.real.mean()) <= 4 * np.hypot(se, n_se)
             record(f"1 {family}({n}) linear {shape}: speed-up vs naive", t_naive / t_fast,

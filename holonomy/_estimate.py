@@ -41,16 +41,14 @@ class BlockSums:
     count: int
     sum_re: np.ndarray
     sum_im: np.ndarray
-    sumsq_re: np.ndarray
-    sumsq_im: np.ndarray
     cross: np.ndarray
     cross_sq: np.ndarray
     drift: float
-    reprojected: bool = False
     # centred sums of squares sum_s (x_s - block mean)^2: without them the variance of
     # values close to a constant (lambda * area ~ 1e-10) cancels to 0 in sumsq - sum^2/n
-    m2_re: np.ndarray | None = None
-    m2_im: np.ndarray | None = None
+    m2_re: np.ndarray
+    m2_im: np.ndarray
+    reprojected: bool = False
 
     @classmethod
     def from_values(cls, block: int, values: np.ndarray, drift: float,
@@ -64,14 +62,12 @@ class BlockSums:
             count=int(values.shape[0]),
             sum_re=re.sum(axis=0),
             sum_im=im.sum(axis=0),
-            sumsq_re=(re * re).sum(axis=0),
-            sumsq_im=(im * im).sum(axis=0),
             cross=np.einsum("sa,sb->ab", values, values),
             cross_sq=(prod_re * prod_re).sum(axis=0),
             drift=float(drift),
-            reprojected=bool(reprojected),
             m2_re=((re - re.mean(axis=0)) ** 2).sum(axis=0),
             m2_im=((im - im.mean(axis=0)) ** 2).sum(axis=0),
+            reprojected=bool(reprojected),
         )
 
     def to_dict(self) -> dict:
@@ -81,15 +77,13 @@ class BlockSums:
             "count": self.count,
             "sum_re": self.sum_re.tolist(),
             "sum_im": self.sum_im.tolist(),
-            "sumsq_re": self.sumsq_re.tolist(),
-            "sumsq_im": self.sumsq_im.tolist(),
             "cross_re": self.cross.real.tolist(),
             "cross_im": self.cross.imag.tolist(),
             "cross_sq": self.cross_sq.tolist(),
             "drift": self.drift,
             "reprojected": self.reprojected,
-            **({} if self.m2_re is None else {"m2_re": self.m2_re.tolist(),
-                                               "m2_im": self.m2_im.tolist()}),
+            "m2_re": self.m2_re.tolist(),
+            "m2_im": self.m2_im.tolist(),
         }
 
     @classmethod
@@ -100,14 +94,12 @@ class BlockSums:
             count=int(data["count"]),
             sum_re=np.asarray(data["sum_re"], float),
             sum_im=np.asarray(data["sum_im"], float),
-            sumsq_re=np.asarray(data["sumsq_re"], float),
-            sumsq_im=np.asarray(data["sumsq_im"], float),
             cross=cross,
             cross_sq=np.asarray(data["cross_sq"], float),
             drift=float(data["drift"]),
+            m2_re=np.asarray(data["m2_re"], float),
+            m2_im=np.asarray(data["m2_im"], float),
             reprojected=bool(data.get("reprojected", False)),
-            m2_re=np.asarray(data["m2_re"], float) if "m2_re" in data else None,
-            m2_im=np.asarray(data["m2_im"], float) if "m2_im" in data else None,
         )
 
 
@@ -188,12 +180,8 @@ def combine_blocks(blocks: Sequence[BlockSums], *, names: Sequence[str],
     n = sum(b.count for b in blocks)
     sum_re = np.sum([b.sum_re for b in blocks], axis=0)
     sum_im = np.sum([b.sum_im for b in blocks], axis=0)
-    if all(b.m2_re is not None for b in blocks):
-        se_re = _stderr_centred(blocks, "re", n)
-        se_im = _stderr_centred(blocks, "im", n)
-    else:  # blocks stored before the centred sums existed
-        se_re = _stderr(sum_re, np.sum([b.sumsq_re for b in blocks], axis=0), n)
-        se_im = _stderr(sum_im, np.sum([b.sumsq_im for b in blocks], axis=0), n)
+    se_re = _stderr_centred(blocks, "re", n)
+    se_im = _stderr_centred(blocks, "im", n)
     mean_re = sum_re / n
     # batch means: block means weighted by block size
     if len(blocks) > 1:
