@@ -302,17 +302,17 @@ def _holonomies(problem: WilsonProblem, variables: np.ndarray, kernel) -> list[n
     out = []
     if problem.scheme.kind == "algebra":
         # S_k = S_parent + side_k X_k, cumulated outward from the reference
-        cum = np.empty_like(variables)
-        for dep in range(plan.max_depth):
+        cum = variables * side[:, None]
+        for dep in range(1, plan.max_depth):
             k = np.nonzero(plan.depth == dep)[0]
-            cum[:, k] = side[k, None] * variables[:, k]
-            if dep:
-                cum[:, k] += cum[:, plan.parent[k]]
+            cum[:, k] += cum[:, plan.parent[k]]
         for links, direction in plan.steps:
             on = links >= 0
-            coords = -direction[on, None] * cum[:, links[on]]
             if not on.any():
-                coords = np.zeros((size, 1, variables.shape[-1]))
+                out.append(kernel.identity((size,)))
+                continue
+            coords = cum[:, links[on]]
+            coords *= -direction[on, None]
             out.append(kernel.product(kernel.exp(coords)))
         return out
 
