@@ -37,9 +37,6 @@ class MatrixKernel:
     def exp(self, coords: np.ndarray) -> np.ndarray:
         return self.group.exp_matrix(self.group.algebra(coords))
 
-    def from_matrices(self, m: np.ndarray) -> np.ndarray:
-        return m
-
     def to_matrices(self, a: np.ndarray) -> np.ndarray:
         return a
 
@@ -110,14 +107,6 @@ class QuaternionKernel(MatrixKernel):
         out = np.empty(tau.shape + (4,))
         out[..., 0] = np.cos(theta)
         out[..., 1:] = axis
-        return out
-
-    def from_matrices(self, m: np.ndarray) -> np.ndarray:
-        out = np.empty(m.shape[:-2] + (4,))
-        out[..., 0] = m[..., 0, 0].real
-        out[..., 1] = m[..., 0, 1].imag
-        out[..., 2] = m[..., 0, 1].real
-        out[..., 3] = m[..., 0, 0].imag
         return out
 
     def to_matrices(self, a: np.ndarray) -> np.ndarray:

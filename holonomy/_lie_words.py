@@ -227,44 +227,15 @@ def _classes(n: int, links: list[tuple[int, int]]) -> int:
     return sum(1 for x in range(n) if find(x) == x)
 
 
-@lru_cache(maxsize=None)
-def _exact_factor_cached(family: str, partner: tuple[int, ...], N: Any, k: Any) -> Any:
-    n = len(partner)
-    if n == 0:
-        return N
-    chords = _chords(partner)
-    terms = _delta_terms(family, N, k)
-    total = sympy.Integer(0)
-    # one delta term per chord; each identifies index slots (slot s = i_s, s mod n)
-    for choice in np.ndindex(*([len(terms)] * len(chords))):
-        coeff = sympy.Integer(1)
-        links = []
-        for (p, q), t in zip(chords, choice):
-            c, pattern = terms[t]
-            coeff *= c
-            i, j, kk, l = p, (p + 1) % n, q, (q + 1) % n
-            if pattern == "twist":
-                links += [(i, l), (j, kk)]
-            elif pattern == "trace":
-                links += [(i, j), (kk, l)]
-            else:
-                links += [(i, kk), (j, l)]
-        total += coeff * N ** _classes(n, links)
-    return sympy.factor(total) if total.free_symbols else total
+def _chord_sum(n: int, chords, terms, N: Any, one: Any) -> Any:
+    """sum over one delta term per chord of coeff * N^(#index classes).
 
-
-@lru_cache(maxsize=None)
-def _exact_factor_fraction(family: str, partner: tuple[int, ...], N: int,
-                           k: Fraction) -> Fraction:
-    """As :func:`_exact_factor_cached` for integer N and rational k, in Fractions."""
-    n = len(partner)
-    if n == 0:
-        return Fraction(N)
-    chords = _chords(partner)
-    terms = _delta_terms(family, Fraction(N), k)
-    total = Fraction(0)
+    Each term identifies index slots (slot s = i_s, s mod n); ``one`` fixes the
+    arithmetic (sympy Integer or Fraction).
+    """
+    total = one * 0
     for choice in itertools.product(range(len(terms)), repeat=len(chords)):
-        coeff = Fraction(1)
+        coeff = one
         links = []
         for (p, q), t in zip(chords, choice):
             c, pattern = terms[t]
@@ -278,6 +249,26 @@ def _exact_factor_fraction(family: str, partner: tuple[int, ...], N: int,
                 links += [(i, kk), (j, l)]
         total += coeff * N ** _classes(n, links)
     return total
+
+
+@lru_cache(maxsize=None)
+def _exact_factor_cached(family: str, partner: tuple[int, ...], N: Any, k: Any) -> Any:
+    n = len(partner)
+    if n == 0:
+        return N
+    total = _chord_sum(n, _chords(partner), _delta_terms(family, N, k), N, sympy.Integer(1))
+    return sympy.factor(total) if total.free_symbols else total
+
+
+@lru_cache(maxsize=None)
+def _exact_factor_fraction(family: str, partner: tuple[int, ...], N: int,
+                           k: Fraction) -> Fraction:
+    """As :func:`_exact_factor_cached` for integer N and rational k, in Fractions."""
+    n = len(partner)
+    if n == 0:
+        return Fraction(N)
+    return _chord_sum(n, _chords(partner), _delta_terms(family, Fraction(N), k), N,
+                      Fraction(1))
 
 
 def pairing_group_factor_exact(family: str, partner: Sequence[int], *, n: Any = None,

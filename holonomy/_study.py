@@ -26,17 +26,16 @@ Expected rates (used by the study's report; derived in the docstring of each sch
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, replace
 from functools import cached_property
 from typing import Mapping, Sequence
 
-import numpy as np
 
 from discretize import Grid, LatticeLoop
 from noise import block_rng, cell_noise, refine_noise
 
-from ._estimate import BlockSums, EstimateResult
-from ._sampling import Field, WilsonProblem, _block_sums
+from ._estimate import BlockSums
+from ._sampling import WilsonProblem, _block_sums
 from ._schemes import get_scheme
 
 __all__ = ["StudyProblem", "run_study_block", "EXPECTED_RATES"]
@@ -101,7 +100,7 @@ class StudyProblem:
         base = self.problem
         coarse = WilsonProblem(
             family=base.family, n=base.n, metric=base.metric, loops=base.loops,
-            field=_replace_field(base.field, spacing=self.spacings[0]), samples=1, block=1,
+            field=replace(base.field, spacing=self.spacings[0]), samples=1, block=1,
         ).grid
         out = {}
         for h in self.spacings:
@@ -120,7 +119,7 @@ class StudyProblem:
             for scheme in self.schemes:
                 out[(h, scheme)] = WilsonProblem(
                     family=base.family, n=base.n, metric=base.metric,
-                    field=_replace_field(base.field, spacing=h, scheme=scheme),
+                    field=replace(base.field, spacing=h, scheme=scheme),
                     loops=loops, names=base.names, rep=base.rep, samples=base.samples,
                     block=base.block, seed=base.seed, path="dense",
                 )
@@ -145,13 +144,6 @@ class StudyProblem:
             object.__setattr__(self, k, v)
 
 
-def _replace_field(f: Field, **changes) -> Field:
-    kw = dict(coupling=f.coupling, spacing=f.spacing, gauge=f.gauge, reference=f.reference,
-              scheme=f.scheme, area=f.area)
-    kw.update(changes)
-    return Field(**kw)
-
-
 def run_study_block(study: StudyProblem, block: int) -> dict:
     """Block sums for every (spacing, scheme) of ``study`` from one coupled noise.
 
@@ -160,22 +152,14 @@ def run_study_block(study: StudyProblem, block: int) -> dict:
     """
     size = study.block_sizes()[block]
     rng = block_rng(study.problem.seed, block)
-    base = study.problem
-    lam = base.field.coupling
-    d = study.problems[(study.spacings[0], study.schemes[0])].group.dim
-    noises = {}
+    area, lam = study.problem.field.area, study.problem.field.coupling
     h0 = study.spacings[0]
-    current = cell_noise(lam * base.field.area.cell_measures(study.grids[h0]), d, size, rng=rng)
-    noises[h0] = current
-    h = h0
-    while h > study.spacings[-1] * (1 + 1e-12):
-        h = h / 2
-        grid = Grid(study.grids[h0].origin, h,
-                    (study.grids[h0].nx * round(h0 / h), study.grids[h0].ny * round(h0 / h)))
-        current = refine_noise(current, lam * base.field.area.cell_measures(grid), rng=rng)
-        noises[h] = current
-    out = {}
-    for (hh, scheme), problem in study.problems.items():
-        noise = next(v for k, v in noises.items() if math.isclose(k, hh))
-        out[(hh, scheme)] = _block_sums(problem, block, size, rng, noise)
-    return out
+    level = {h: round(math.log2(h0 / h)) for h in study.spacings}
+    grid = study.grids[h0]
+    d = study.problems[(h0, study.schemes[0])].group.dim
+    noises = [cell_noise(lam * area.cell_measures(grid), d, size, rng=rng)]
+    for _ in range(max(level.values())):
+        grid = grid.refined()
+        noises.append(refine_noise(noises[-1], lam * area.cell_measures(grid), rng=rng))
+    return {(h, scheme): _block_sums(problem, block, size, rng, noises[level[h]])
+            for (h, scheme), problem in study.problems.items()}

@@ -154,7 +154,7 @@ def gaussian_step(family: str, n: int, t, k):
        SO(3) forms derived above.
     .. [3] Harish-Chandra, "Differential operators on a semisimple Lie algebra", Amer.
        J. Math. 79 (1957) 87-120 (Weyl integration formula on the Lie algebra); roots
-       of so(n), sp(n): W. Fulton, J. Harris, "Representation Theory" (1991), Lectures
+       of so(n), sp(n): W. Fulton, J. Harris, "Representation Theory" (1991), sections
        16-19.
 
     Examples

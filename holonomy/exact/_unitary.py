@@ -81,7 +81,7 @@ def unitary_casimir(partition, N: int, *, k=None, special: bool = False) -> floa
     References
     ----------
     .. [1] W. Fulton, J. Harris, "Representation Theory", Springer GTM 129 (1991),
-       Lecture 15 (highest weights of gl(N); from memory); the quadratic Casimir
+       section 15 (highest weights of gl(N); from memory); the quadratic Casimir
        ``<lambda, lambda + 2 rho>``.
     .. [2] T. Levy, "Schur-Weyl duality and the heat kernel measure on the unitary
        group", Adv. Math. 218 (2008) 537-575 (Casimir of U(N) irreducibles).

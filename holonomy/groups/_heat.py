@@ -42,7 +42,7 @@ Other groups: `heat_kernel` runs the geodesic random walk with a step count per 
 References
 ----------
 .. [1] L. Gross, "Lattice gauge theory; heuristics and convergence", in Stochastic
-   Processes - Mathematics and Physics, Lecture Notes in Math. 1158, Springer, 1986
+   Processes - Mathematics and Physics, Springer LNM 1158, 1986
    (heat kernel on compact groups as character series; citation from memory).
 .. [2] A. Sengupta, "Gauge theory on compact surfaces", Mem. AMS 126 (600), 1997.
 .. [3] H. Weyl, "The Classical Groups", Princeton, 1939 (Weyl integration formula:
@@ -201,7 +201,7 @@ def heat_kernel(group, t, size: int, *, rng=None) -> np.ndarray:
 
     References
     ----------
-    .. [1] L. Gross, Lecture Notes in Math. 1158, Springer, 1986.
+    .. [1] L. Gross, Springer LNM 1158, 1986.
     .. [2] H. Weyl, "The Classical Groups", Princeton, 1939.
     .. [3] M. Liao, "Levy Processes in Lie Groups", Cambridge, 2004, Section 1.3.
     .. [4] L. Isserlis, "On a formula for the product-moment coefficient of any order of

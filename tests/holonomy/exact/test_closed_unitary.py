@@ -39,7 +39,7 @@ def syt_count(lam):
 
 def weyl_dimension(lam, N):
     """Weyl dimension formula prod_{i<j} (l_i - l_j + j - i) / (j - i) (Fulton and
-    Harris 1991, "Representation Theory", Lecture 15; from memory)."""
+    Harris 1991, "Representation Theory", section 15; from memory)."""
     l = list(lam) + [0] * (N - len(lam))
     num = den = 1
     for i in range(N):
@@ -110,7 +110,7 @@ class TestCasimirAndDimension:
         # Schur-Weyl duality: (C^N)^{(x) n} = sum_lambda V_lambda (x) S_lambda, so the
         # Casimir operator -sum_a d rho(X_a)^2 built from the group's orthonormal basis
         # has eigenvalue c(lambda) with multiplicity f^lambda d_lambda (Fulton and Harris
-        # 1991, Lecture 6; Weyl 1939, "The Classical Groups").
+        # 1991, section 6; Weyl 1939, "The Classical Groups").
         G = make_group(family, N, metric)
         D = tensor_algebra(G, n)
         ev = np.sort(np.linalg.eigvalsh(-np.einsum("aij,ajk->ik", D, D)))

@@ -3,7 +3,7 @@
 Reference route: Weyl integration over eigenvalue angles. The Haar measure of U(N)
 induces on the angles the density |Delta(e^{i theta})|^2 / (N! (2 pi)^N), and that of
 SU(N) the same on the torus theta_1 + ... + theta_N = 0 (H. Weyl, "The Classical
-Groups", Princeton 1939; Fulton and Harris 1991, Lecture 26, from memory). The integrands are smooth
+Groups", Princeton 1939; Fulton and Harris 1991, section 26, from memory). The integrands are smooth
 and periodic, so the trapezoidal rule on a uniform periodic grid converges geometrically
 (L. N. Trefethen, J. A. C. Weideman, "The exponentially convergent trapezoidal rule",
 SIAM Review 56 (2014) 385-458); we use scipy.integrate.trapezoid for N = 3 and
