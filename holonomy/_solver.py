@@ -29,6 +29,8 @@ from typing import Any, Callable
 
 import numpy as np
 
+from .groups._expmap import expm_general
+
 __all__ = [
     "ProductScheme",
     "ExpEuler",
@@ -57,7 +59,10 @@ class ProductResult:
         ``group.drift(value)``: the distance ``||U^* U - I||`` of the returned value from
         the group (the largest over the samples). Rounding level (about 1e-15 times the
         number of steps) for group-preserving schemes; of order the step for
-        ``ito-euler``.
+        ``ito-euler``. With ``complexified=True``: the defect of the holomorphic
+        defining relations of the complexified group (``|det U - 1|`` for SL(N, C),
+        also ``||U^T U - I||`` for SO(N, C), ``||U^T J U - J||`` for Sp(2n, C)), and
+        None for GL(N, C), which has none.
     method : str
         Name of the scheme that formed the factors, or ``"factors"`` when group factors
         were given directly.
@@ -69,14 +74,17 @@ class ProductResult:
         before it).
     drift_before_projection : float or None
         Drift of the raw product before projection; None when nothing was projected.
+    complexified : bool
+        True when the product was computed in the complexified group.
     """
 
     value: np.ndarray
-    drift: float
+    drift: float | None
     method: str
     steps: int
     reprojected: bool = False
     drift_before_projection: float | None = None
+    complexified: bool = False
 
 
 # --------------------------------------------------------------------------- products
@@ -229,11 +237,19 @@ class ProductScheme:
         return group.exp(omega, coords=False)
 
     def factors(
-        self, group: Any, omega: np.ndarray, directions: np.ndarray | None
+        self, group: Any, omega: np.ndarray, directions: np.ndarray | None,
+        complexified: bool = False,
     ) -> np.ndarray:
-        """Step factors from generators, reversed steps sign-flipped first."""
+        """Step factors from generators, reversed steps sign-flipped first.
+
+        With `complexified`, the generators are complex (in ``g + i g``) and the
+        exponential schemes use `expm_general` (the group's routes assume a compact
+        algebra).
+        """
         if directions is not None:
             omega = omega * directions[..., None, None]
+        if complexified and self.group_preserving:
+            return expm_general(omega)
         return self._factor_impl(group, omega)
 
 
@@ -396,11 +412,63 @@ PRODUCT_SCHEMES: dict[str, type[ProductScheme]] = {
 # --------------------------------------------------------------------------- validation
 
 
-def _algebra_matrices(group: Any, x: np.ndarray, name: str, coord_ndim: int) -> np.ndarray:
-    """Coordinates (ndim == coord_ndim, last axis d) or matrices (one more axis, N x N)."""
+def _complex_parts(group: Any, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``X = A + iB`` with ``A``, ``B`` anti-Hermitian (every compact algebra here is)."""
+    Xh = np.conj(np.swapaxes(X, -1, -2))
+    return 0.5 * (X - Xh), -0.5j * (X + Xh)
+
+
+def _refuse_complex(group: Any, name: str, imag: float) -> None:
+    raise ValueError(
+        f"`{name}` is complex (largest imaginary part of its coordinates {imag:.3g}): it "
+        f"lies in the complexified Lie algebra of {group.family}({group.n}), where the "
+        "compact group's exponential does not apply; pass complexified=True to compute "
+        f"in {_complex_group_name(group)}, or give real coordinates."
+    )
+
+
+def _complex_group_name(group: Any) -> str:
+    N = group.N
+    return {"U": f"GL({N}, C)", "SU": f"SL({N}, C)", "SO": f"SO({N}, C)",
+            "Sp": f"Sp({N}, C)"}[group.family]
+
+
+def _algebra_matrices(group: Any, x: np.ndarray, name: str, coord_ndim: int,
+                      complexified: bool = False) -> np.ndarray:
+    """Coordinates (ndim == coord_ndim, last axis d) or matrices (one more axis, N x N).
+
+    Complex coordinates, or matrices with a complexified-algebra part, are refused
+    unless `complexified`; then they are returned as complex matrices of the
+    complexified algebra ``g + i g``.
+    """
     N, d = group.N, group.dim
     if x.ndim == coord_ndim and x.shape[-1] == d:
+        if np.iscomplexobj(x):
+            imag = float(np.max(np.abs(x.imag))) if x.size else 0.0
+            if complexified:
+                return group.algebra(x.real) + 1j * group.algebra(x.imag)
+            if imag > 0:
+                _refuse_complex(group, name, imag)
+            x = x.real
         return group.algebra(x)
+    if x.ndim == coord_ndim + 1 and x.shape[-2:] == (N, N) and np.iscomplexobj(x) and x.size:
+        # X = A + iB, A and B anti-Hermitian; X is in g + ig iff both are in g.
+        a, b = _complex_parts(group, x)
+        zb = group.coords(b)
+        x_back = group.algebra(group.coords(a)) + 1j * group.algebra(zb)
+        off = float(np.max(np.abs(x - x_back)))
+        scale = max(float(np.max(np.abs(x))), 1.0)
+        if complexified:
+            if not off <= 1e-10 * scale:
+                raise ValueError(
+                    f"`{name}` matrices are not in the complexified Lie algebra of "
+                    f"{group.family}({group.n}) (largest entry off it: {off:.3g}); "
+                    "accepted: A + iB with A, B in the Lie algebra, or complex coordinates."
+                )
+            return x_back
+        imag = float(np.max(np.abs(zb)))
+        if off <= 1e-10 * scale and imag > 1e-10 * scale:
+            _refuse_complex(group, name, imag)
     if x.ndim == coord_ndim + 1 and x.shape[-2:] == (N, N):
         # Matrices must lie in the Lie algebra: the exponential routes assume it.
         off = np.max(np.abs(x - group.algebra(group.coords(x)))) if x.size else 0.0
@@ -420,8 +488,32 @@ def _algebra_matrices(group: Any, x: np.ndarray, name: str, coord_ndim: int) -> 
     )
 
 
+def complexified_drift(group: Any, U: np.ndarray) -> float | None:
+    """Defect of the holomorphic defining relations of the complexified group.
+
+    ``GL(N, C)`` (from ``U(N)``) has none: None. ``SL(N, C)``: ``max |det U - 1|``.
+    ``SO(N, C)``: also ``max ||U^T U - I||_F``. ``Sp(2n, C)``: ``max ||U^T J U - J||_F``
+    (the relations of the compact group without complex conjugation).
+    """
+    U = np.asarray(U)
+    if group.family == "U":
+        return None
+    if U.size == 0:
+        return 0.0
+    out = 0.0
+    if group.family in ("SU", "SO"):
+        out = float(np.abs(np.linalg.det(U) - 1.0).max())
+    Ut = np.swapaxes(U, -1, -2)
+    if group.family == "SO":
+        out = max(out, float(np.linalg.norm(Ut @ U - np.eye(group.N), axis=(-2, -1)).max()))
+    if group.family == "Sp":
+        J = group.J
+        out = max(out, float(np.linalg.norm(Ut @ J @ U - J, axis=(-2, -1)).max()))
+    return out
+
+
 def _ordered_product_iv(group, increments, factors, connection, nodes, dt, directions,
-                        method, project):
+                        method, project, complexified=False):
     """Input validation and standardization for `ordered_product`."""
     for attr in ("N", "dim", "exp", "algebra", "drift"):
         if not hasattr(group, attr):
@@ -477,7 +569,7 @@ def _ordered_product_iv(group, increments, factors, connection, nodes, dt, direc
     data = None
     if kind == "increments":
         x = np.asarray(increments)
-        data = _algebra_matrices(group, x, "increments", 3)
+        data = _algebra_matrices(group, x, "increments", 3, complexified)
         samples, steps = data.shape[:2]
     elif kind == "factors":
         data = np.asarray(factors)
@@ -487,7 +579,15 @@ def _ordered_product_iv(group, increments, factors, connection, nodes, dt, direc
                 f"for {group.family}({group.n})."
             )
         samples, steps = data.shape[:2]
-        off = float(group.drift(data)) if data.size else 0.0
+        if complexified:
+            off = complexified_drift(group, data) or 0.0
+            if not (np.all(np.isfinite(data)) and off <= 1e-8):
+                raise ValueError(
+                    f"`factors` are not in {_complex_group_name(group)} (largest defect "
+                    f"of its defining relations {off:.3g}); accepted: finite matrices "
+                    "satisfying them to 1e-8."
+                )
+        off = 0.0 if complexified else (float(group.drift(data)) if data.size else 0.0)
         if not off <= 1e-8:
             raise ValueError(
                 f"`factors` are not on the group {group.family}({group.n}) (largest "
@@ -540,7 +640,7 @@ def _ordered_product_iv(group, increments, factors, connection, nodes, dt, direc
             vals = vals.reshape(vals.shape[0], steps, q, *vals.shape[2:])
         else:
             vals = np.asarray(connection)
-        data = _algebra_matrices(group, vals, "connection", 4)
+        data = _algebra_matrices(group, vals, "connection", 4, complexified)
         samples, steps = data.shape[:2]
         if data.shape[2] != q:
             raise ValueError(
@@ -575,6 +675,13 @@ def _ordered_product_iv(group, increments, factors, connection, nodes, dt, direc
         dirs = np.broadcast_to(d, (samples, steps)).astype(float)
     if not isinstance(project, (bool, np.bool_)):
         raise TypeError(f"`project` must be True or False; got {project!r}.")
+    if not isinstance(complexified, (bool, np.bool_)):
+        raise TypeError(f"`complexified` must be True or False; got {complexified!r}.")
+    if complexified and project:
+        raise ValueError(
+            "`project`=True does not apply with `complexified`=True: there is no "
+            f"projection onto {_complex_group_name(group)}; leave `project` False."
+        )
     return kind, scheme, data, h, dirs, steps, bool(project)
 
 
@@ -592,6 +699,7 @@ def ordered_product(
     directions: np.ndarray | None = None,
     method: str | type[ProductScheme] | None = None,
     project: bool = False,
+    complexified: bool = False,
 ) -> ProductResult:
     r"""Ordered product ``U = F_1 F_2 ... F_m`` along a path, batched over samples.
 
@@ -634,6 +742,15 @@ def ordered_product(
     project : bool
         If True, map the product back to the group with ``group.project``
         (``drift_before_projection`` keeps the raw drift). Default False.
+    complexified : bool
+        If True, accept complex increments, connections or factors (complex
+        coordinates ``a + i b``, or matrices ``A + iB`` with ``A``, ``B`` in the Lie
+        algebra) and compute in the complexified group: ``GL(N, C)`` for ``U(n)``,
+        ``SL(N, C)`` for ``SU(n)``, ``SO(N, C)``, ``Sp(2n, C)``. The exponential is then
+        the general one (`expm_general`) and ``drift`` reports only the holomorphic
+        defining relations (None for ``GL``). Needed for formal (complex-rotated)
+        Gaussian fields. Without it, complex input is refused (its imaginary part would
+        otherwise be lost). Default False.
 
     Returns
     -------
@@ -672,7 +789,8 @@ def ordered_product(
     ('exp-euler', 3, True)
     """
     kind, scheme, data, h, dirs, steps, project = _ordered_product_iv(
-        group, increments, factors, connection, nodes, dt, directions, method, project
+        group, increments, factors, connection, nodes, dt, directions, method, project,
+        complexified,
     )
     if kind == "factors":
         f = data
@@ -680,13 +798,16 @@ def ordered_product(
             back = dirs < 0
             if np.any(back):
                 f = np.array(f, copy=True)
-                f[back] = group.inv(f[back])
+                f[back] = np.linalg.inv(f[back]) if complexified else group.inv(f[back])
         name = "factors"
     else:
         omega = data if kind == "increments" else scheme._generator_impl(data, h)
-        f = scheme.factors(group, omega, dirs)
+        f = scheme.factors(group, omega, dirs, bool(complexified))
         name = scheme.name
     value = _ordered(f)
+    if complexified:
+        return ProductResult(value, complexified_drift(group, value), name, steps,
+                             complexified=True)
     raw = float(group.drift(value))
     if project:
         value = group.project(value)

@@ -18,6 +18,11 @@ Routes (chosen by the group, never per sample):
   skew-Hermitian matrices, so ``H = -i X`` is Hermitian, ``H = V diag(w) V^*`` by a
   batched ``eigh`` and ``exp(X) = V diag(exp(i w)) V^*``; for ``SO(n)`` the real part is
   taken (the imaginary part is rounding).
+- complex matrices of the complexified algebras (formal computations, `expm_general`):
+  ``exp`` elementwise for ``1 x 1``; for ``2 x 2``, with ``Y = X - (tr X / 2) Id``,
+  ``Y^2 = -det(Y) Id`` and ``exp(X) = e^{tr X / 2} (cosh s Id + sinh(s)/s Y)``,
+  ``s^2 = -det Y`` (any root: both functions are even in ``s``); up to ``N = 8`` the
+  Taylor route above (it assumes nothing about ``X``), beyond it ``scipy.linalg.expm``.
 
 References
 ----------
@@ -33,7 +38,10 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["expm_u1", "expm_su2", "expm_so3", "expm_u3", "expm_taylor", "expm_eigh"]
+__all__ = [
+    "expm_u1", "expm_su2", "expm_so3", "expm_u3", "expm_taylor", "expm_eigh",
+    "expm_general",
+]
 
 
 def expm_u1(X: np.ndarray) -> np.ndarray:
@@ -193,3 +201,32 @@ def expm_taylor(X: np.ndarray) -> np.ndarray:
         else:
             E[m] = E[m] @ E[m]
     return E
+
+
+def expm_general(X: np.ndarray) -> np.ndarray:
+    """Exponential of arbitrary complex matrices ``(..., N, N)`` (complexified groups).
+
+    Routes in the module docstring; nothing is assumed about ``X`` (no skew-Hermitian
+    symmetry), so the result lies in ``GL(N, C)``.
+    """
+    X = np.asarray(X, dtype=complex)
+    N = X.shape[-1]
+    if N == 1:
+        return np.exp(X)
+    if N == 2:
+        half = 0.5 * (X[..., 0, 0] + X[..., 1, 1])
+        Y = X.copy()
+        Y[..., 0, 0] -= half
+        Y[..., 1, 1] -= half
+        s = np.sqrt(-(Y[..., 0, 0] * Y[..., 1, 1] - Y[..., 0, 1] * Y[..., 1, 0]))
+        # sinh(s)/s = sin(i s)/(i s) = np.sinc(i s / pi), finite at s = 0.
+        out = np.sinc(1j * s / np.pi)[..., None, None] * Y
+        c = np.cosh(s)
+        out[..., 0, 0] += c
+        out[..., 1, 1] += c
+        return out * np.exp(half)[..., None, None]
+    if N <= 8:
+        return expm_taylor(X)
+    import scipy.linalg
+
+    return scipy.linalg.expm(X)
