@@ -46,6 +46,7 @@ class LoopReference:
     continuum: float | None = None
     continuum_method: str | None = None
     continuum_note: str | None = None
+    snapped: float | None = None          # the continuum value of the loop as snapped
 
 
 def _exact_value(group, rep, loop, coupling, area):
@@ -176,6 +177,25 @@ def _lattice_polygon(lattice_loop):
     return Loop.polygon([tuple(map(float, p)) for p in xy[corner]])
 
 
+def _snapped_value(spec, problem, i, group, area):
+    """The continuum Wilson loop of loop ``i`` as snapped to the problem's lattice:
+    ``(value, method, note)`` (the exact value the ``heat`` scheme samples)."""
+    lat = problem.lattice_loops[i]
+    value, method, note = _exact_value(group, spec.rep, lat, spec.coupling, area)
+    if value is None:
+        try:
+            poly = _lattice_polygon(lat)
+        except _EXPECTED:
+            poly = None
+        if poly is not None:
+            v2, m2, n2 = _exact_value(group, spec.rep, poly, spec.coupling, area)
+            if v2 is not None:
+                value, method, note = v2, m2, n2
+    if value is not None:
+        method = f"{method} (lattice loop)"
+    return value, method, note
+
+
 def loop_references(spec, problem, i: int, *, scheme: str | None = None) -> LoopReference:
     """Exact references of loop ``i`` of ``spec`` under ``scheme`` (default the spec's).
 
@@ -193,25 +213,19 @@ def loop_references(spec, problem, i: int, *, scheme: str | None = None) -> Loop
         return ref
     value, method, note = _exact_value(group, spec.rep, loop, spec.coupling, area)
     if value is not None:
+        faces = getattr(loop, "exact_faces", None)
+        if faces is not None:
+            method = f"{method}, {faces.description}: exact face areas"
         ref.continuum, ref.continuum_method = value.real, method
     ref.continuum_note = note
     abelian = spec.family == "U" and spec.n == 1
+    snapped = _snapped_value(spec, problem, i, group, area)
+    if snapped[0] is not None:
+        ref.snapped = snapped[0].real
     if scheme == "wilson":
         value, method, note = _wilson_value(spec, problem, i)
     elif scheme == "heat" or abelian:
-        lat = problem.lattice_loops[i]
-        value, method, note = _exact_value(group, spec.rep, lat, spec.coupling, area)
-        if value is None:
-            try:
-                poly = _lattice_polygon(lat)
-            except _EXPECTED:
-                poly = None
-            if poly is not None:
-                v2, m2, n2 = _exact_value(group, spec.rep, poly, spec.coupling, area)
-                if v2 is not None:
-                    value, method, note = v2, m2, n2
-        if value is not None:
-            method = f"{method} (lattice loop)"
+        value, method, note = snapped
     else:
         value, method, note = _gaussian_value(spec, problem, i, scheme)
     if value is not None:

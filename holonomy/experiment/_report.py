@@ -11,9 +11,13 @@ The results object (a contract)::
 
 Extra per-loop fields: ``kind`` (``"estimate"``), ``scheme``, ``stderr_imag``,
 ``stderr_batch`` (batch means), ``drift`` (distance of the sampled holonomies from the
-group), ``area_error`` (lattice area minus the specified area), ``continuum_method``,
-and ``exact_note``/``continuum_note`` saying why a reference is null. Non-finite
-numbers are written as null.
+group), ``area_error`` (lattice area minus the specified area, signed total),
+``max_face_area_error`` (the largest relative area error over the faces of the loop as
+specified, so the two lobes of a figure eight are judged by their own areas),
+``snapped`` (the continuum value of the loop as snapped to the lattice),
+``snapping_error`` (``snapped - continuum``), ``warning`` (set when the snapping error
+exceeds ``stderr``), ``continuum_method``, and ``exact_note``/``continuum_note`` saying
+why a reference is null. Non-finite numbers are written as null.
 
 ``z = (estimate - exact) / stderr``: with a correct sampler it is a draw from about
 N(0, 1) (central limit theorem), so |z| > 4 flags a problem.
@@ -58,6 +62,22 @@ def _z(estimate: float, exact: float | None, stderr: float) -> float | None:
     return (estimate - exact) / stderr
 
 
+def _difference(a: float | None, b: float | None) -> float | None:
+    return None if a is None or b is None else a - b
+
+
+def _snapping_warning(ref, stderr: float) -> str | None:
+    """A warning when snapping the loop to the lattice moves its value by more than the
+    estimate's statistical error: the estimate then measures the lattice loop, not the
+    loop as specified, to better than it can tell them apart."""
+    err = _difference(ref.snapped, ref.continuum)
+    if err is None or not (stderr > 0) or abs(err) <= stderr:
+        return None
+    return (f"snapping error {err:+.3g} (the loop as snapped minus as specified) exceeds "
+            f"the statistical error {stderr:.3g}: use a finer spacing to measure the loop "
+            "as specified")
+
+
 def build_results(spec, problem, estimate, provenance: dict, *,
                   references: Sequence | None = None) -> dict:
     """The results object of a run of ``spec`` (see the module docstring)."""
@@ -84,6 +104,10 @@ def build_results(spec, problem, estimate, provenance: dict, *,
             "continuum_method": ref.continuum_method,
             "area": le.area,
             "area_error": float(problem.area_errors[i]),
+            "max_face_area_error": problem.lattice_loops[i].max_face_area_error,
+            "snapped": ref.snapped,
+            "snapping_error": _difference(ref.snapped, ref.continuum),
+            "warning": _snapping_warning(ref, le.stderr),
             "samples": le.samples,
             "drift": le.drift,
             "reprojected": le.reprojected,

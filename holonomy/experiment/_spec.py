@@ -17,6 +17,10 @@ The keys (a contract that scripts rely on)::
                 over a base of 1 (optional; default 1)
     [[loops]]   name; exactly one of  vertices = [[x, y], ...]  |
                 circle = {center = [x, y], radius = r, sides = m}  |
+                ellipse = {center = [x, y], radii = [a, b], sides = m}  |
+                curve = {family = "cardioid" | "limacon" | "lemniscate" | "rose",
+                         center = [x, y] (default [0, 0]), sides = m, and the family's
+                         parameters a, b, k}  |
                 moves = "R4 U2 L4 D2" with start = [x, y];  turns = int (default 1)
     [observable] rep = "fundamental" (default) | "adjoint" | "spin:3/2" | "power:2"
     [run]       samples > 0; block > 0 (default 4096); seed >= 0
@@ -61,8 +65,11 @@ MAX_STEPS = 10**6        # count of one moves token
 _TOP_KEYS = ("name", "group", "field", "loops", "observable", "run")
 _GROUP_KEYS = ("family", "n", "metric")
 _FIELD_KEYS = ("coupling", "spacing", "gauge", "reference", "scheme", "density")
-_LOOP_KEYS = ("name", "vertices", "circle", "moves", "start", "turns")
+_LOOP_KINDS = ("vertices", "circle", "ellipse", "curve", "moves")
+_LOOP_KEYS = ("name",) + _LOOP_KINDS + ("start", "turns")
 _CIRCLE_KEYS = ("center", "radius", "sides")
+_ELLIPSE_KEYS = ("center", "radii", "sides")
+MAX_SIDES = 100_000      # vertices of a sampled circle, ellipse or curve
 _OBS_KEYS = ("rep",)
 _RUN_KEYS = ("samples", "block", "seed")
 _MOVE = re.compile(r"^([RULD])(\d*)$")
@@ -71,7 +78,7 @@ _STEP = {"R": (1, 0), "L": (-1, 0), "U": (0, 1), "D": (0, -1)}
 
 LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM, "power": MAX_POWER,
           "samples": MAX_SAMPLES, "block": MAX_BLOCK, "grid cells": MAX_CELLS,
-          "steps per move": MAX_STEPS}
+          "steps per move": MAX_STEPS, "sides": MAX_SIDES}
 
 
 class SpecError(ValueError):
@@ -88,7 +95,7 @@ class LoopSpec:
     """One validated ``[[loops]]`` entry; :meth:`build` makes the ``discretize.Loop``."""
 
     name: str
-    kind: str                                   # "vertices" | "circle" | "moves"
+    kind: str                 # "vertices" | "circle" | "ellipse" | "curve" | "moves"
     vertices: tuple[tuple[float, float], ...] | None = None
     center: tuple[float, float] | None = None
     radius: float | None = None
@@ -96,6 +103,9 @@ class LoopSpec:
     moves: str | None = None
     start: tuple[float, float] | None = None
     turns: int = 1
+    radii: tuple[float, float] | None = None
+    family: str | None = None                   # a curve family of discretize.CURVES
+    params: tuple[tuple[str, float], ...] = ()  # the curve family's parameters
 
     def build(self, spacing: float):
         """The ``discretize.Loop`` this entry describes (moves are in units of spacing)."""
@@ -105,6 +115,11 @@ class LoopSpec:
             return Loop.polygon(self.vertices, turns=self.turns)
         if self.kind == "circle":
             return Loop.circle(self.center, self.radius, self.sides, turns=self.turns)
+        if self.kind == "ellipse":
+            return Loop.ellipse(self.center, self.radii, self.sides, turns=self.turns)
+        if self.kind == "curve":
+            return Loop.curve(self.family, self.sides, center=self.center,
+                              turns=self.turns, **dict(self.params))
         return Loop.from_moves(self.moves, self.start, spacing, turns=self.turns)
 
 
@@ -363,11 +378,11 @@ def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
     if not isinstance(name, str) or not name.strip():
         raise SpecError(f"{path}.name", f"got {_describe(name)}; expected a non-empty "
                         "string")
-    kinds = [k for k in ("vertices", "circle", "moves") if k in item]
+    kinds = [k for k in _LOOP_KINDS if k in item]
     if len(kinds) != 1:
         got = "none" if not kinds else " and ".join(kinds)
-        raise SpecError(path, f"has {got}; expected exactly one of vertices, circle, "
-                        "moves")
+        raise SpecError(path, f"has {got}; expected exactly one of "
+                        f"{', '.join(_LOOP_KINDS)}")
     kind = kinds[0]
     turns = _integer(item, "turns", f"{path}.turns", rule="an integer >= 1",
                      check=lambda v: v >= 1, required=False, default=1)
@@ -399,6 +414,8 @@ def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
                          check=lambda v: v >= 3)
         return LoopSpec(name=name, kind=kind, center=center, radius=radius, sides=sides,
                         turns=turns)
+    if kind in ("ellipse", "curve"):
+        return _curve_iv(item[kind], kind, f"{path}.{kind}", name, turns)
     moves = item["moves"]
     mpath = f"{path}.moves"
     if not isinstance(moves, str) or not moves.split():
@@ -427,6 +444,51 @@ def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
                     turns=turns)
 
 
+def _sides(c: dict, path: str) -> int:
+    return _integer(c, "sides", f"{path}.sides", rule=f"an integer >= 3 and <= {MAX_SIDES}",
+                    check=lambda v: 3 <= v <= MAX_SIDES)
+
+
+def _curve_iv(c: Any, kind: str, path: str, name: str, turns: int) -> LoopSpec:
+    """``loops[i].ellipse`` and ``loops[i].curve`` (the families of discretize.CURVES)."""
+    from discretize import CURVES
+
+    if kind == "ellipse":
+        if not isinstance(c, dict):
+            raise SpecError(path, f"got {_describe(c)}; expected a table "
+                            "{center = [x, y], radii = [a, b], sides = m}")
+        _no_unknown(c, path, _ELLIPSE_KEYS)
+        if "center" not in c:
+            raise SpecError(f"{path}.center", "missing; expected a point [x, y]")
+        center = _point(c["center"], f"{path}.center")
+        if "radii" not in c:
+            raise SpecError(f"{path}.radii", "missing; expected [a, b], two numbers > 0")
+        radii = _point(c["radii"], f"{path}.radii")
+        for j, r in enumerate(radii):
+            if not r > 0:
+                raise SpecError(f"{path}.radii[{j}]", f"got {r!r}; expected a number > 0")
+        return LoopSpec(name=name, kind=kind, center=center, radii=radii,
+                        sides=_sides(c, path), turns=turns)
+    if not isinstance(c, dict):
+        raise SpecError(path, f"got {_describe(c)}; expected a table {{family = ..., "
+                        "sides = m, ...}")
+    family = _choice(c, "family", f"{path}.family", tuple(CURVES))
+    fam = CURVES[family]
+    _no_unknown(c, path, ("family", "center", "sides") + fam.params)
+    center = _point(c["center"], f"{path}.center") if "center" in c else (0.0, 0.0)
+    params = []
+    for key in fam.params:
+        if key == "k":
+            v = _integer(c, key, f"{path}.{key}", rule=f"an integer >= 1 ({fam.equation})",
+                         check=lambda v: 1 <= v <= 1000)
+        else:
+            v = _number(c, key, f"{path}.{key}", rule=f"a number > 0 ({fam.equation})",
+                        check=lambda v: v > 0)
+        params.append((key, v))
+    return LoopSpec(name=name, kind=kind, center=center, sides=_sides(c, path),
+                    family=family, params=tuple(params), turns=turns)
+
+
 def _loop_bbox(loop: LoopSpec, spacing: float) -> tuple[float, float, float, float]:
     if loop.kind == "vertices":
         xs, ys = zip(*loop.vertices)
@@ -434,6 +496,8 @@ def _loop_bbox(loop: LoopSpec, spacing: float) -> tuple[float, float, float, flo
     if loop.kind == "circle":
         (cx, cy), r = loop.center, loop.radius
         return cx - r, cy - r, cx + r, cy + r
+    if loop.kind in ("ellipse", "curve"):
+        return loop.build(spacing).bbox
     x = y = 0
     xs, ys = [0], [0]
     for tok in loop.moves.split():
