@@ -127,8 +127,33 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _progress(args) -> bool:
-    return not getattr(args, "quiet", False) and sys.stderr.isatty()
+def _progress(args):
+    """The command's one progress bar (a no-op unless stderr is a terminal and neither
+    --quiet nor --json is given)."""
+    from holonomy.experiment import Progress
+
+    return Progress(enabled=_talk(args) and sys.stderr.isatty())
+
+
+def _talk(args) -> bool:
+    """Whether to print the start and end lines on stderr (not with --quiet or --json:
+    then stderr carries errors only)."""
+    return not getattr(args, "quiet", False) and not getattr(args, "json", False)
+
+
+def _say(args, text: str) -> None:
+    if _talk(args):
+        print(f"whitegauge {args.command}: {text}", file=sys.stderr, flush=True)
+
+
+def _blocks(spec) -> str:
+    n = -(-spec.samples // spec.block)
+    return (f"{spec.samples} samples in {n} block{'s' * (n != 1)} of {spec.block} "
+            f"(seed {spec.seed})")
+
+
+def _workers_text(workers) -> str:
+    return "inline" if not workers or workers <= 1 else f"on {workers} worker processes"
 
 
 def _cmd_run(args) -> int:
@@ -137,16 +162,24 @@ def _cmd_run(args) -> int:
 
     spec = load_spec(args.spec, purpose="run")
     out = args.out or f"whitegauge-{spec.name}"
-    outcome = run_spec(spec, out=out, workers=args.workers, resume=args.resume,
-                       progress=_progress(args))
+    _say(args, f"{spec.name}: {spec.family}({spec.n}), {spec.scheme} scheme, spacing "
+         f"{spec.spacing:g}, {len(spec.loops)} loop(s), {_blocks(spec)}, "
+         f"{_workers_text(args.workers)}; output in {out}/")
+    bar = _progress(args)
+    try:
+        outcome = run_spec(spec, out=out, workers=args.workers, resume=args.resume,
+                           progress=bar)
+    finally:
+        bar.close()
     if args.json:
         print(json.dumps(outcome.results, indent=2))
     elif not args.quiet:
         print(f"{spec.name}: {spec.family}({spec.n}), {spec.scheme} scheme, spacing "
               f"{spec.spacing:g}, {spec.samples} samples (seed {spec.seed})")
         print(format_table(outcome.results))
-        print(f"wrote {os.path.join(out, 'results.json')}, results.csv, run.sqlite "
-              f"({outcome.stats.computed} blocks computed, {outcome.stats.reused} reused)")
+    _say(args, f"wrote {os.path.join(out, 'results.json')}, results.csv and the run "
+         f"store run.sqlite ({outcome.stats.computed} blocks computed, "
+         f"{outcome.stats.reused} reused, {outcome.stats.seconds:.1f} s)")
     return 0
 
 
@@ -181,27 +214,42 @@ def _cmd_study(args) -> int:
 
     spec = load_spec(args.spec, purpose="study")
     out = args.out or f"whitegauge-{spec.name}-study"
-    outcome = run_study(spec, spacings=args.spacings, schemes=args.schemes, out=out,
-                        workers=args.workers, resume=args.resume,
-                        progress=_progress(args))
+    _say(args, f"{spec.name}: {spec.family}({spec.n}), schemes {', '.join(args.schemes)} "
+         f"at spacings {', '.join(f'{h:g}' for h in args.spacings)} on one noise field, "
+         f"{_blocks(spec)}, {_workers_text(args.workers)}; output in {out}/")
+    bar = _progress(args)
+    try:
+        outcome = run_study(spec, spacings=args.spacings, schemes=args.schemes, out=out,
+                            workers=args.workers, resume=args.resume, progress=bar)
+    finally:
+        bar.close()
     if args.json:
         print(json.dumps(outcome.results, indent=2))
     elif not args.quiet:
         print(outcome.table)
-        print(f"wrote {os.path.join(out, 'study.json')}, study.csv, convergence.png")
+    _say(args, f"wrote {os.path.join(out, 'study.json')}, study.csv, convergence.png and "
+         "the run store study.sqlite")
     return 0
 
 
 def _cmd_demo(args) -> int:
-    from holonomy.experiment import run_demo
+    from holonomy.experiment import DEMO_GROUPS, run_demo
 
-    outcome = run_demo(out=args.out, workers=args.workers, progress=_progress(args))
+    runs = sum(len(g[3]) for g in DEMO_GROUPS)
+    _say(args, f"{runs} runs ({', '.join(f'{f}({n})' for f, n, _, _ in DEMO_GROUPS)}; "
+         f"3 loops; schemes heat, gauss, linear and wilson where it applies), "
+         f"{_workers_text(args.workers or 2)}; output in {args.out}/")
+    bar = _progress(args)
+    try:
+        outcome = run_demo(out=args.out, workers=args.workers, progress=bar)
+    finally:
+        bar.close()
     if args.json:
         print(json.dumps(outcome.results, indent=2))
     elif not args.quiet:
         print(outcome.table)
-        print(f"wrote {args.out}/report.md, results.json and "
-              f"{len(outcome.plots)} plots")
+    _say(args, f"wrote {os.path.join(args.out, 'report.md')}, results.json, "
+         f"{len(outcome.plots)} plots, the specs in specs/ and their runs in runs/")
     return 0
 
 

@@ -19,3 +19,4 @@ from ._report import *  # noqa: F401,F403
 from ._study import *  # noqa: F401,F403
 from ._demo import *  # noqa: F401,F403
 from ._faults import *  # noqa: F401,F403
+from ._progress import *  # noqa: F401,F403

@@ -37,7 +37,7 @@ from typing import Any, Sequence
 from ._faults import fault_point
 
 __all__ = ["build_results", "write_results", "write_json_atomic", "format_table",
-           "format_exact_table", "format_series_table", "fmt_value", "clean"]
+           "format_exact_table", "format_series_table", "fmt_value", "clean", "MISSING"]
 
 
 def clean(obj: Any) -> Any:
@@ -132,11 +132,29 @@ def build_results(spec, problem, estimate, provenance: dict, *,
     })
 
 
+def _file_mode() -> int:
+    """The mode a plain ``open(path, "w")`` would give: 0666 minus the umask (0644
+    under the usual umask 022). ``mkstemp`` makes its files 0600, which would hide
+    results from the group and others."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
+def _temporary(path: Path) -> tuple[int, str]:
+    """A temporary file beside ``path`` (same filesystem: the rename is atomic), with
+    the ordinary file mode."""
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    os.fchmod(fd, _file_mode())
+    return fd, tmp
+
+
 def write_json_atomic(obj: Any, path: str | Path) -> Path:
     """Write ``obj`` as JSON to ``path`` through a temporary file and ``os.replace``,
-    so a reader never sees a half-written file."""
+    so a reader never sees a half-written file. The file gets the mode ``open`` would
+    give it (0644 under umask 022)."""
     path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    fd, tmp = _temporary(path)
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
             json.dump(clean(obj), fh, indent=2, allow_nan=False)
@@ -152,28 +170,47 @@ def write_json_atomic(obj: Any, path: str | Path) -> Path:
     return path
 
 
+#: columns of ``results.csv``, one row per loop (the first sixteen are the original
+#: columns, in their order; later ones are appended): ``group`` is like ``SU(2)``,
+#: ``metric`` the spec's metric, ``spacing`` the lattice spacing; an empty cell is a null
 _CSV_FIELDS = ("loop", "rep", "kind", "scheme", "estimate", "estimate_imag", "stderr",
                "stderr_batch", "exact", "exact_method", "z", "continuum", "area",
-               "area_error", "samples", "drift")
+               "area_error", "samples", "drift", "group", "metric", "spacing", "snapped",
+               "snapping_error", "max_face_area_error", "warning")
 
 
 def _write_text_atomic(text: str, path: Path) -> Path:
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-        fh.write(text)
-    os.replace(tmp, path)
+    fd, tmp = _temporary(path)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+            fh.write(text)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
     return path
 
 
+def _csv_cell(value: Any) -> Any:
+    if value is None:
+        return ""
+    return repr(value) if isinstance(value, float) else value
+
+
 def results_csv(results: dict) -> str:
+    """``results.csv``: the columns :data:`_CSV_FIELDS`, one row per loop."""
+    group = results.get("group") or {}
+    fld = results.get("field") or {}
+    common = {"group": f"{group['family']}({group['n']})" if group else None,
+              "metric": group.get("metric"), "spacing": fld.get("spacing")}
     buf = io.StringIO()
     w = csv.DictWriter(buf, fieldnames=_CSV_FIELDS, extrasaction="ignore",
                        lineterminator="\n")
     w.writeheader()
     for row in results["results"]:
-        w.writerow({k: ("" if row.get(k) is None else
-                        (repr(row[k]) if isinstance(row.get(k), float) else row[k]))
-                    for k in _CSV_FIELDS})
+        full = {**common, **{k: v for k, v in row.items() if v is not None}}
+        w.writerow({k: _csv_cell(full.get(k)) for k in _CSV_FIELDS})
     return buf.getvalue()
 
 
@@ -194,13 +231,17 @@ def _digits(err: float | None) -> int:
     return max(1, min(12, 1 - int(math.floor(math.log10(err)))))
 
 
+#: what a table shows for a missing value (the row's note says why it is missing)
+MISSING = "—"
+
+
 def fmt_value(value: float | None, err: float | None, kind: str) -> str:
-    """``value ± err`` rounded to the error's second significant digit; exact values
-    are shown with ``± 0``."""
+    """``value ± err`` rounded to the error's second significant digit; an exact value
+    alone (it has no error); :data:`MISSING` for a missing one."""
     if value is None:
-        return "null"
+        return MISSING
     if kind == "exact":
-        return f"{value:.10g} ± 0"
+        return f"{value:.10g}"
     d = _digits(err)
     if err is None or not math.isfinite(err):
         return f"{value:.{d}f} ± ?"
@@ -222,45 +263,53 @@ def format_table(results: dict) -> str:
         z = "" if r.get("z") is None else f"z = {r['z']:+.2f} vs exact"
         rows.append([r["loop"], "estimate", fmt_value(r["estimate"], r["stderr"], "est"),
                      f"{r.get('scheme', '')}, {r['samples']} samples; {z}".rstrip("; ")])
-        if r.get("exact") is not None:
-            rows.append(["", "exact", fmt_value(r["exact"], 0.0, "exact"),
-                         r.get("exact_method") or ""])
-        else:
-            rows.append(["", "exact", "null", r.get("exact_note") or
-                         "not available for this loop"])
-        if r.get("continuum") is not None:
-            rows.append(["", "exact (continuum)", fmt_value(r["continuum"], 0.0, "exact"),
-                         f"{r.get('continuum_method') or ''}; loop as specified, area "
-                         f"error {r.get('area_error', 0.0):+.3g}"])
+        rows.extend(_reference_rows(r))
+        if r.get("warning"):
+            rows.append(["", "warning", "", r["warning"]])
     return _render(rows, ["loop", "kind", "value ± error", "note"])
+
+
+def _area_note(r: dict) -> str:
+    note = f"area error {r.get('area_error') or 0.0:+.3g}"
+    if r.get("max_face_area_error") is not None:
+        note += f" (largest per face {100 * r['max_face_area_error']:.2g} %)"
+    return note
+
+
+def _reference_rows(r: dict) -> list[list[str]]:
+    """The exact and continuum rows of a loop, with what they are or why missing."""
+    rows = [["", "exact", fmt_value(r.get("exact"), 0.0, "exact"),
+             r.get("exact_method") if r.get("exact") is not None else
+             (r.get("exact_note") or "not available for this loop")]]
+    if r.get("continuum") is not None:
+        rows.append(["", "exact (continuum)", fmt_value(r["continuum"], 0.0, "exact"),
+                     f"{r.get('continuum_method') or ''}; loop as specified, "
+                     f"{_area_note(r)}"])
+    else:
+        rows.append(["", "exact (continuum)", MISSING, r.get("continuum_note") or
+                     "not available for this loop"])
+    return rows
 
 
 def format_exact_table(obj: dict) -> str:
     rows = []
     for r in obj["results"]:
-        if r["exact"] is None:
-            rows.append([r["loop"], "exact", "null", r.get("exact_note") or
-                         "not available for this loop"])
-        else:
-            rows.append([r["loop"], "exact", fmt_value(r["exact"], 0.0, "exact"),
-                         r["exact_method"] or ""])
-        if r.get("continuum") is not None:
-            rows.append(["", "exact (continuum)",
-                         fmt_value(r["continuum"], 0.0, "exact"),
-                         r.get("continuum_method") or ""])
-    return _render(rows, ["loop", "kind", "value ± error", "method"])
+        first, *rest = _reference_rows(r)
+        rows.append([r["loop"]] + first[1:])
+        rows.extend(rest)
+    return _render(rows, ["loop", "kind", "value", "method"])
 
 
 def format_series_table(obj: dict) -> str:
     rows = []
     for r in obj["results"]:
         if r["coefficients"] is None:
-            rows.append([r["loop"], "series", "", "null", r.get("note") or
+            rows.append([r["loop"], "series", "", MISSING, r.get("note") or
                          "not available for this loop"])
             continue
         rats = r.get("rationals") or [None] * len(r["coefficients"])
         for m, (c, q) in enumerate(zip(r["coefficients"], rats)):
             rows.append([r["loop"] if m == 0 else "", "series", f"c_{m}",
-                         f"{c:.12g} ± 0", f"= {q} (exact rational)" if q else
-                         "float"])
-    return _render(rows, ["loop", "kind", "term", "value ± error", "note"])
+                         f"{c:.12g}", f"= {q} (exact rational)" if q else
+                         "float, exact up to rounding"])
+    return _render(rows, ["loop", "kind", "term", "value", "note"])

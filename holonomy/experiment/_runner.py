@@ -27,6 +27,7 @@ from pathlib import Path
 from typing import Any, Callable
 
 from ._faults import fault_point, maybe_fail_block
+from ._progress import Progress
 from ._spec import Spec, SpecError
 from ._store import STORE_NAME, RunStore, versions
 
@@ -102,8 +103,12 @@ class BlockFailed(RuntimeError):
 
 
 def execute(job: Job, *, store: RunStore | None = None, executor: cf.Executor | None = None,
-            progress: bool = False, max_pending: int | None = None, retries: int = 1):
+            progress: bool | Progress = False, max_pending: int | None = None,
+            retries: int = 1, name: str | None = None):
     """Run every block of ``job`` not yet in ``store`` and return ``(result, stats)``.
+
+    ``progress`` is a :class:`Progress` shared by the command (the blocks are added to
+    its bar under ``name``), or True for a bar of this job alone.
 
     ``result`` is ``job.problem.finish(blocks)`` with the blocks in index order. A block
     that raises is resubmitted up to ``retries`` times (a block is pure, so a retry
@@ -122,12 +127,13 @@ def execute(job: Job, *, store: RunStore | None = None, executor: cf.Executor | 
     todo = [b for b in range(n) if b not in done]
     seed = getattr(job.problem, "seed", None)
     attempts: dict[int, int] = {}
-    bar = None
-    if progress:
-        from tqdm import tqdm
-
-        bar = tqdm(total=n, initial=len(done), file=sys.stderr, unit="block",
-                   desc="whitegauge", leave=False, dynamic_ncols=True)
+    bar = own_bar = None
+    if isinstance(progress, Progress):
+        bar = progress
+    elif progress:
+        bar = own_bar = Progress()
+    if bar is not None:
+        bar.stage(name or job.key, n, done=len(done))
 
     def _finish_block(b, out, seconds):
         if store is not None:
@@ -198,8 +204,8 @@ def execute(job: Job, *, store: RunStore | None = None, executor: cf.Executor | 
                 raise BlockFailed(failure.block, seed, failure.cause, len(done)) \
                     from failure.cause
     finally:
-        if bar is not None:
-            bar.close()
+        if own_bar is not None:
+            own_bar.close()
     blocks = [done[b] for b in range(n)]
     result = (job.finish or job.problem.finish)(blocks)
     stats.seconds = time.perf_counter() - t0
@@ -284,12 +290,13 @@ class RunOutcome:
 
 
 def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor | None = None,
-             workers: int | None = None, resume: bool = False, progress: bool = False,
-             write: bool = True) -> RunOutcome:
+             workers: int | None = None, resume: bool = False,
+             progress: bool | Progress = False, write: bool = True) -> RunOutcome:
     """Run ``spec`` and (with ``out``) write ``run.sqlite``, ``results.json``, ``results.csv``.
 
     ``executor`` wins over ``workers``; with neither, the blocks run inline. The run
-    store lives in ``out``; without ``out`` nothing is stored (no resume).
+    store lives in ``out``; without ``out`` nothing is stored (no resume). ``progress``
+    is True for a progress bar on stderr, or the :class:`Progress` of the command.
     """
     from ._report import build_results, write_results
 
@@ -302,6 +309,7 @@ def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor
     worker_label = workers if workers is not None else (
         1 if executor is None else type(executor).__name__)
     store = None
+    bar = Progress() if progress is True else (progress or None)
     try:
         if out is not None:
             out = Path(out)
@@ -312,7 +320,11 @@ def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor
             store.set_meta("name", spec.name)
             fault_point("store-open")
         estimate, stats = execute(wilson_job(problem), store=store, executor=executor,
-                                  progress=progress)
+                                  progress=bar or False, name=spec.name)
+    except BaseException:
+        if progress is True:
+            bar.close()
+        raise
     finally:
         if own_pool is not None:
             own_pool.shutdown(cancel_futures=True)
@@ -329,7 +341,11 @@ def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor
         "executor": "inline" if executor is None else type(executor).__name__,
         "platform": sys.platform,
     })
+    if bar is not None:
+        bar.step(f"{spec.name}: exact values")
     results = build_results(spec, problem, estimate, provenance)
+    if progress is True and bar is not None:
+        bar.close()
     fault_point("results-ready")
     files = write_results(results, out) if (out is not None and write) else {}
     return RunOutcome(results=results, estimate=estimate, stats=stats, files=files)

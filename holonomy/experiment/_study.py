@@ -52,6 +52,7 @@ from typing import Sequence
 
 import numpy as np
 
+from ._progress import Progress
 from ._spec import Spec, SpecError
 
 __all__ = ["THEORY_RATES", "RateFit", "fit_rate", "StudyOutcome", "run_study",
@@ -202,7 +203,7 @@ def _references(spec: Spec, study, h: float, i: int) -> dict:
 def run_study(spec: Spec, *, spacings: Sequence[float],
               schemes: Sequence[str] = ("heat", "linear", "gauss"),
               out: str | Path | None = None, executor=None, workers: int | None = None,
-              resume: bool = False, progress: bool = False) -> StudyOutcome:
+              resume: bool = False, progress: bool | Progress = False) -> StudyOutcome:
     """Run the study and (with ``out``) write ``study.json``, ``study.csv``,
     ``convergence.png`` and the store ``study.sqlite``."""
     from holonomy import StudyProblem
@@ -237,7 +238,9 @@ def run_study(spec: Spec, *, spacings: Sequence[float],
                              job_key=f"study:{list(spacings)}:{list(schemes)}",
                              resume=resume, workers=workers or 1)
         (estimates, blocks), stats = execute(job, store=store, executor=executor,
-                                             progress=progress)
+                                             progress=progress, name=f"{spec.name} study")
+        if isinstance(progress, Progress):
+            progress.step(f"{spec.name} study: exact values and fits")
     finally:
         if own is not None:
             own.shutdown(cancel_futures=True)

@@ -1,0 +1,139 @@
+"""Outputs that behave: file modes from the umask, CSV columns, tables without fake
+errors and with a reason for every missing value, one progress bar per command, and
+the start and end lines of the command line."""
+
+import csv
+import io
+import os
+import re
+import stat
+import subprocess
+import sys
+
+import pytest
+
+from holonomy.experiment import MISSING, Progress, format_exact_table, format_table, \
+    parse_spec, run_spec
+from holonomy.experiment._report import _write_text_atomic
+
+SPEC = """
+name = "outputs"
+[group]
+family = "SU"
+n = 2
+metric = "physics"
+[field]
+coupling = 1.0
+spacing = 0.25
+scheme = "gauss"
+[[loops]]
+name = "box"
+vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
+[[loops]]
+name = "eight"
+vertices = [[0.0, 0.0], [0.5, 0.0], [0.5, 1.0], [1.0, 1.0], [1.0, 0.5], [0.0, 0.5]]
+[run]
+samples = 600
+block = 200
+seed = 3
+"""
+
+
+@pytest.fixture
+def umask():
+    old = os.umask(0o022)
+    yield lambda m: os.umask(m)
+    os.umask(old)
+
+
+@pytest.mark.parametrize("mask,mode", [(0o022, 0o644), (0o027, 0o640), (0o002, 0o664)])
+def test_files_get_the_umask_mode(tmp_path, umask, mask, mode):
+    umask(mask)
+    outcome = run_spec(parse_spec(SPEC), out=tmp_path / "run")
+    for name in ("results.json", "results.csv"):
+        assert stat.S_IMODE(os.stat(outcome.files[name]).st_mode) == mode, name
+    # report.md and study.csv go through the same writer
+    path = _write_text_atomic("# report\n", tmp_path / "report.md")
+    assert stat.S_IMODE(os.stat(path).st_mode) == mode
+
+
+def test_csv_has_group_metric_scheme_spacing(tmp_path):
+    outcome = run_spec(parse_spec(SPEC), out=tmp_path / "run")
+    rows = list(csv.DictReader(io.StringIO(open(outcome.files["results.csv"]).read())))
+    assert [r["loop"] for r in rows] == ["box", "eight"]
+    for r in rows:
+        assert (r["group"], r["metric"], r["scheme"], float(r["spacing"])) == \
+            ("SU(2)", "physics", "gauss", 0.25)
+    # a null is an empty cell: the gauss scheme has no closed form for the figure eight
+    assert rows[1]["exact"] == "" and rows[0]["exact"] != ""
+
+
+def test_tables_mark_missing_values_and_say_why(tmp_path):
+    results = run_spec(parse_spec(SPEC)).results
+    table = format_table(results)
+    assert not exact_zero_error(table) and "null" not in table
+    eight = [line for line in table.splitlines() if MISSING in line]
+    assert eight, table
+    # every line with a missing value carries its reason
+    for line in eight:
+        assert "not available" in line or "closed form" in line, line
+    from holonomy.experiment import exact_results
+
+    exact = format_exact_table(exact_results(parse_spec(SPEC, purpose="exact")))
+    assert not exact_zero_error(exact) and "null" not in exact
+
+
+def exact_zero_error(text: str) -> bool:
+    """True if some value is shown with a fake error ``± 0`` (not ``± 0.0057``)."""
+    return re.search(r"± 0(?![.\d])", text) is not None
+
+
+class Recording(Progress):
+    opened = 0
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.stages = []
+        self.ticks = 0
+
+    def _open(self):
+        if self.bar is None and self.enabled:
+            Recording.opened += 1
+        return super()._open()
+
+    def stage(self, name, blocks, done=0):
+        self.stages.append((name, blocks, done))
+        super().stage(name, blocks, done)
+
+    def update(self, k=1):
+        self.ticks += k
+        super().update(k)
+
+
+def test_one_bar_for_a_whole_command(tmp_path, capsys):
+    bar = Recording(enabled=True)
+    Recording.opened = 0
+    spec = parse_spec(SPEC)
+    run_spec(spec, out=tmp_path / "a", progress=bar)
+    run_spec(spec, out=tmp_path / "a", progress=bar, resume=True)  # all blocks reused
+    bar.close()
+    assert Recording.opened == 1
+    assert bar.stages == [("outputs", 3, 0), ("outputs", 3, 3)]
+    assert bar.ticks == 3 and bar.total == 6
+    assert "outputs" in capsys.readouterr().err
+
+
+def test_cli_says_what_runs_where_and_where_the_files_are(tmp_path):
+    spec = tmp_path / "outputs.toml"
+    spec.write_text(SPEC)
+    proc = subprocess.run([sys.executable, "-m", "holonomy.cli", "run", str(spec), "--out",
+                           str(tmp_path / "out")], capture_output=True, text=True,
+                          timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    first, *_, last = proc.stderr.strip().splitlines()
+    assert first.startswith("whitegauge run: outputs: SU(2), gauss scheme, spacing 0.25")
+    assert "600 samples in 3 blocks of 200 (seed 3)" in first
+    assert str(tmp_path / "out") in first
+    assert last.startswith(f"whitegauge run: wrote {tmp_path / 'out' / 'results.json'}")
+    assert "3 blocks computed, 0 reused" in last
+    assert not exact_zero_error(proc.stdout)
