@@ -14,9 +14,10 @@ convention):
     E[tr Q]/dim = f(s), the exponential moment of one Gaussian, which differs from the
     heat kernel exp(-c s/2) at order s^2 per plaquette.
 ``heat``
-    Plaquettes drawn exactly from the heat kernel at time s = lambda mu(c) (exact for
-    U(1), where Q_c = exp(X_c) is already heat-kernel distributed, and for SU(2); by
-    Brownian sub-stepping elsewhere, as :meth:`Group.heat_kernel` states). Products of
+    Plaquettes drawn exactly from the heat kernel at time s = lambda mu(c) (exact in
+    law for U(1), where Q_c = exp(X_c) is already heat-kernel distributed, and for the
+    groups of :func:`holonomy.groups.exact_heat_route`; by Brownian sub-stepping for
+    larger groups, as :meth:`Group.heat_kernel` states). Products of
     independent heat-kernel variables are heat-kernel variables of the summed time, so
     interval products can be drawn directly (perimeter-only path) and lattice loops are
     exact at every spacing.

@@ -480,9 +480,10 @@ class Group:
 
     @property
     def exact_heat_kernel(self) -> bool:
-        """True when `heat_kernel` samples exactly (U(1), SO(2), SU(2), Sp(1), SO(3))."""
-        return self.N == 1 or (self.N == 2 and self.family in ("SU", "Sp", "SO")) or (
-            self.family == "SO" and self.N == 3)
+        """True when `heat_kernel` samples exactly in law; see `exact_heat_route`."""
+        from ._heat import exact_heat_route
+
+        return exact_heat_route(self) is not None
 
     def __getstate__(self):
         # Drop cached arrays; they are rebuilt on demand after unpickling.

@@ -35,9 +35,19 @@ Exact samplers:
   ``2 theta``, ``theta`` drawn at ``tau = t / (16 k)``: the cover is a local isometry from
   SU(2) with metric ``4k``).
 
-Other groups: `heat_kernel` runs the geodesic random walk with a step count per time,
-``max(MIN_STEPS, ceil(t_k / HEAT_KERNEL_DT))`` (``HEAT_KERNEL_DT = 0.01``,
-``MIN_STEPS = 8``); its law error per unit time is O(dt) (see `heat_kernel`).
+- ``U(2)``: ``exp(i b) V`` with V from the SU(2) sampler and ``b ~ N(0, t/(2k))``
+  (centre and su(2) are orthogonal and commute).
+- ``U(n)``, ``SU(n)`` (3 <= n <= 5), ``SO(n)`` (4 <= n <= 7), ``Sp(n)`` (n = 2, 3): the
+  class-function route on the maximal torus (`_torus_law`): rejection from the
+  exponential of a Gaussian algebra element, accepted with the ratio of the heat
+  kernel's lattice sum to the proposal's (acceptance rate ``exp(-|rho|^2 t/2)``),
+  eigenvectors of the proposal (Haar-distributed given the eigenvalues); U(n) as its
+  centre times SU(n). Law error below 1e-18 per draw (stated there).
+
+Other groups (larger ones): `heat_kernel` runs the geodesic random walk with a step
+count per time, ``max(MIN_STEPS, ceil(t_k / HEAT_KERNEL_DT))`` (``HEAT_KERNEL_DT =
+0.01``, ``MIN_STEPS = 8``); its law error per unit time is O(dt) (see `heat_kernel`);
+`exact_heat_route` tells which route a group takes.
 
 References
 ----------
@@ -59,6 +69,7 @@ from __future__ import annotations
 import math
 import numbers
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from scipy import special, stats
@@ -72,6 +83,7 @@ __all__ = [
     "sample_su2_angle",
     "HEAT_KERNEL_DT",
     "MIN_STEPS",
+    "exact_heat_route",
 ]
 
 HEAT_KERNEL_DT = 1e-2
@@ -176,7 +188,9 @@ def brownian(group, t, size: int, *, rng=None, steps: int | None = None) -> Brow
 def heat_kernel(group, t, size: int, *, rng=None) -> np.ndarray:
     """Samples of the heat kernel p_t (the law of Brownian motion at time t).
 
-    Exact for U(1), SO(2), SU(2), Sp(1) and SO(3) (image of SU(2)); otherwise the geodesic random walk of `brownian`
+    Exact in law for the groups of `exact_heat_route` (U(1), SO(2), SU(2), Sp(1), SO(3),
+    U(n) and SU(n) for n <= 5, SO(n) for n <= 7, Sp(n) for n <= 3); otherwise the
+    geodesic random walk of `brownian`
     with a step count per time, ``max(MIN_STEPS, ceil(t_k / HEAT_KERNEL_DT))`` (cost
     proportional to the sum of the step counts). The law error of the walk per unit
     time is O(dt): for an irreducible pi one step has
@@ -244,6 +258,8 @@ def heat_kernel(group, t, size: int, *, rng=None) -> np.ndarray:
         axis = rng.standard_normal(batch + (3,))
         axis *= (theta * np.sqrt(2.0 * group.k) / np.sqrt(np.einsum("...i,...i->...", axis, axis)))[..., None]
         return group.exp(axis, coords=True)
+    if exact_heat_route(group) is not None:
+        return _heat_torus(group, tt, size, rng)
     return _heat_substeps(group, tt, size, rng)
 
 
@@ -597,3 +613,225 @@ def sample_su2_angle(tau, *, rng=None) -> np.ndarray:
     if small.size:
         theta[small] = _sample_small_tau(tau[small], rng)
     return theta.reshape(shape)
+
+
+# ------------------------------------------------ exact kernels on the maximal torus
+#: largest neglected law error (total variation) of one exact torus draw
+_TORUS_TV = 1e-18
+
+
+@dataclass(frozen=True)
+class _TorusLaw:
+    """The heat kernel of a compact group read on its maximal torus (see `_torus_law`).
+
+    ``roots`` (r, m): the positive roots as linear forms on the torus coordinates x;
+    ``images`` (s, m): the lattice vectors kept in the image sums (entries in
+    {-1, 0, 1}, times 2 pi); ``c``: ``|X|^2 = c sum x_j^2``; ``piece``: the largest time
+    drawn in one go; ``rho2``: ``|rho|^2``; ``lattice``: "A" (sum zero) or "Z".
+    """
+
+    family: str
+    N: int
+    m: int
+    roots: np.ndarray
+    images: np.ndarray
+    c: float
+    piece: float
+    rho2: float
+    lattice: str
+    dim: int
+    bound: float
+
+
+def _images(m: int, lattice: str) -> np.ndarray:
+    grid = np.array(np.meshgrid(*[(-1, 0, 1)] * m, indexing="ij")).reshape(m, -1).T
+    if lattice == "A":
+        grid = grid[grid.sum(axis=1) == 0]
+    return 2 * np.pi * grid.astype(float)
+
+
+@lru_cache(maxsize=None)
+def _torus_law(family: str, n: int, k: float):
+    """Torus data of SU(n) (n <= 5), SO(n) (4 <= n <= 7) or Sp(n) (2 <= n <= 3), else None.
+
+    The heat kernel of a compact connected group, as a density against Haar measure at
+    ``exp(X)``, ``X`` conjugate to the torus point ``x``, is [1]_ [2]_
+
+        p_t(exp x) = C e^{|rho|^2 t/2} / prod_a sin(a(x)/2)
+                     sum_{g in L} prod_a a(x+g)/2 exp(-|x+g|^2 / (2t)),
+
+    ``a`` the positive roots, ``L`` the kernel of exp on the torus (this form also holds
+    for groups that are not simply connected: their kernel is summed over, each term
+    with the sign of ``prod_a sin(a(x+g)/2)``). The law of ``exp(X)`` with ``X`` Gaussian
+    in the algebra (variance t per orthonormal coordinate) has the same form with
+    ``prod_a (a(x+g)/2)^2 / sin(a(x)/2)^2`` and no ``e^{|rho|^2 t/2}`` (the Jacobian of
+    exp [3]_). So with ``w(y) = prod_a a(y)^2 exp(-|y|^2/(2t))`` and
+    ``s(y) = prod_a sin(a(y)/2) / (a(y)/2)``,
+
+        p_t / q_t = e^{|rho|^2 t/2} r(x),  r(x) = sum_g s(x+g) w(x+g) / sum_g w(x+g),
+
+    and ``0 <= r <= 1`` (``|s| <= 1``; ``r >= 0`` because p_t is a density): rejection
+    from the Gaussian proposal accepts with probability r, at the rate
+    ``exp(-|rho|^2 t/2)``.
+
+    The sums run over the images with entries in {-1, 0, 1} (times 2 pi) around the
+    representative of x nearest to 0 (Conway and Sloane [4]_). A lattice vector left
+    out has norm >= G, the representative norm <= R (the covering radius), so the law
+    error in total variation is at most the proposal's mass at ``|x| >= G - R``,
+    ``P(chi^2_d >= c (G - R)^2 / t)``: longer times are drawn as products of pieces
+    (the semigroup property) of length ``piece``, the smaller of ``2/|rho|^2`` (least
+    work per unit time) and the time where that bound reaches ``_TORUS_TV``.
+
+    References
+    ----------
+    .. [1] R. Eskin, "Heat equation on Lie groups", in: In Memoriam I. G. Petrovskii
+       (1973); H. Urakawa, "The heat equation on compact Lie group", Osaka J. Math.
+       12 (1975) 285-297 (the heat kernel as a sum over the lattice; from memory).
+    .. [2] I. B. Frenkel, "Orbital theory for affine Lie algebras", Invent. Math. 77
+       (1984) 301-352 (the same sum from the Weyl character formula and Poisson
+       summation; from memory).
+    .. [3] S. Helgason, "Groups and Geometric Analysis", Academic Press, 1984, Ch. II
+       (the Jacobian prod_a (sin(a/2)/(a/2))^2 of exp and the Weyl integration formula).
+    .. [4] J. H. Conway and N. J. A. Sloane, "Sphere Packings, Lattices and Groups",
+       Springer, 1988, Ch. 20 (closest points of A_n and Z^n; covering radii in Ch. 4).
+    """
+    if family == "SU" and 3 <= n <= 5:
+        m, lattice, c = n, "A", k
+        eye = np.eye(n)
+        roots = np.array([eye[i] - eye[j] for i in range(n) for j in range(i + 1, n)])
+        G2, R2 = 6.0, (n // 2) * (n - n // 2) / n
+        dim = n * n - 1
+    elif (family == "SO" and 4 <= n <= 7) or (family == "Sp" and 2 <= n <= 3):
+        m = n // 2 if family == "SO" else n
+        lattice, c = "Z", 2.0 * k
+        eye = np.eye(m)
+        roots = [eye[i] + s * eye[j] for i in range(m) for j in range(i + 1, m) for s in (1, -1)]
+        if family == "SO" and n % 2:
+            roots += list(eye)
+        if family == "Sp":
+            roots += list(2 * eye)
+        roots = np.array(roots)
+        G2, R2 = 4.0, m / 4.0
+        dim = n * (n - 1) // 2 if family == "SO" else n * (2 * n + 1)
+    else:
+        return None
+    rho = 0.5 * roots.sum(axis=0)
+    if lattice == "A":
+        rho = rho - rho.mean()
+    rho2 = float(rho @ rho) / c
+    D2 = c * (2 * np.pi) ** 2 * (math.sqrt(G2) - math.sqrt(R2)) ** 2
+
+    def excess(t):  # log10 of the neglected mass minus log10 of the tolerance
+        return stats.chi2.logsf(D2 / t, dim) / math.log(10) - math.log10(_TORUS_TV)
+
+    from scipy.optimize import brentq
+
+    safe = brentq(excess, 1e-3, 1e3) if excess(1e3) > 0 else 1e3
+    piece = min(2.0 / rho2, safe)
+    bound = float(stats.chi2.sf(D2 / piece, dim))
+    return _TorusLaw(family, n, m, roots, _images(m, lattice), c, piece, rho2, lattice, dim, bound)
+
+
+def _nearest_representative(x: np.ndarray, lattice: str) -> np.ndarray:
+    """x minus its nearest lattice point (2 pi Z^m or 2 pi A_{m-1})."""
+    z = x / (2 * np.pi)
+    f = np.rint(z)
+    if lattice == "A":
+        delta = f.sum(axis=-1).astype(np.intp)
+        e = z - f
+        rank = np.argsort(np.argsort(e, axis=-1), axis=-1)
+        m = x.shape[-1]
+        f -= (rank < delta[:, None]).astype(float)  # delta > 0: lower the smallest e
+        f += (rank >= m + delta[:, None]).astype(float)  # delta < 0: raise the largest
+    return x - 2 * np.pi * f
+
+
+def _torus_coords(law: _TorusLaw, H: np.ndarray) -> np.ndarray:
+    """Torus point of ``exp(iH)`` from the eigenvalues of the Hermitian H."""
+    w = np.linalg.eigvalsh(H)
+    if law.lattice == "A":
+        return w
+    return w[..., -law.m:]  # eigenvalues come in pairs +-x (and 0 for SO(odd))
+
+
+def _torus_accept(law: _TorusLaw, x: np.ndarray, t: np.ndarray) -> np.ndarray:
+    """The acceptance probability r(x) of `_torus_law` (x (s, m), t (s,))."""
+    x = _nearest_representative(x, law.lattice)
+    y = x[:, None, :] + law.images[None]  # (s, images, m)
+    a = y @ law.roots.T  # root values
+    expo = np.exp(-law.c * (np.einsum("sim,sim->si", y, y) - np.einsum("sm,sm->s", x, x)[:, None])
+                  / (2 * t[:, None]))
+    w = np.prod(a * a, axis=-1) * expo
+    sw = w * np.prod(np.sinc(a / (2 * np.pi)), axis=-1)
+    return sw.sum(axis=1) / w.sum(axis=1)
+
+
+def _torus_draw(group, law: _TorusLaw, t: np.ndarray, rng) -> np.ndarray:
+    """One exact heat-kernel sample per entry of t (1-D, each <= law.piece)."""
+    out = np.empty(t.shape + (group.N, group.N), dtype=group.dtype)
+    todo = np.arange(t.size)
+    while todo.size:
+        tt = t[todo]
+        Z = rng.standard_normal((todo.size, group.dim))
+        u = rng.random(todo.size)
+        Z *= np.sqrt(tt)[:, None]
+        X = group.algebra(Z)
+        ok = u <= _torus_accept(law, _torus_coords(law, -1j * X), tt)
+        if ok.any():
+            out[todo[ok]] = group.exp_matrix(X[ok])
+        todo = todo[~ok]
+    return out
+
+
+def _su_part(group):
+    """SU(n) with the metric of ``group`` (U(n)): u(n) = centre + su(n), orthogonal."""
+    from ._group import make_group
+
+    return make_group("SU", group.n, float(group.k))
+
+
+def _heat_torus(group, tt, size, rng):
+    """Exact heat kernel through `_torus_law`, U(n) as centre times SU(n).
+
+    U(n) Brownian motion is ``exp(i b / sqrt(k n)) V`` with ``b`` a standard Brownian
+    motion along the unit central direction ``i Id / sqrt(k n)`` and V the SU(n)
+    Brownian motion of the same metric, independent (the two parts of the algebra are
+    orthogonal and commute).
+    """
+    scalar = tt.ndim == 0
+    t1 = np.atleast_1d(tt)
+    base = _su_part(group) if group.family == "U" else group
+    law = _torus_law(base.family, base.n, float(base.k)) if base.N > 2 else None
+    U = np.empty((size, t1.size, group.N, group.N), dtype=group.dtype)
+    if law is None:  # U(2): centre times the SU(2) sampler
+        U[...] = heat_kernel(base, t1, size, rng=rng)
+    else:
+        pieces = np.where(t1 > 0, np.ceil(t1 / law.piece), 0).astype(np.intp)
+        U[...] = base.identity(())
+        for i in range(int(pieces.max()) if t1.size else 0):
+            cols = np.flatnonzero(pieces > i)
+            tp = np.broadcast_to(t1[cols] / pieces[cols], (size, cols.size)).ravel()
+            V = _torus_draw(base, law, tp, rng).reshape(size, cols.size, group.N, group.N)
+            U[:, cols] = V if i == 0 else U[:, cols] @ V
+    if group.family == "U":
+        beta = rng.standard_normal((size, t1.size)) * np.sqrt(t1 / (group.k * group.n))
+        U *= np.exp(1j * beta)[..., None, None]
+    return U[:, 0] if scalar else U
+
+
+def exact_heat_route(group) -> str | None:
+    """How `heat_kernel` samples ``group`` exactly in law, or None (sub-stepping).
+
+    ``"gaussian"`` (U(1), SO(2)), ``"su2-angle"`` (SU(2), Sp(1), SO(3), U(2) with its
+    centre), ``"torus"`` (U(n), SU(n) for 3 <= n <= 5, SO(n) for 4 <= n <= 7, Sp(n) for
+    n = 2, 3; see `_torus_law`).
+    """
+    fam, n, N = group.family, group.n, group.N
+    if N == 1 or (fam == "SO" and N == 2):
+        return "gaussian"
+    if (N == 2 and fam in ("SU", "Sp", "U")) or (fam == "SO" and N == 3):
+        return "su2-angle"
+    base = "SU" if fam == "U" else fam
+    if _torus_law(base, n, 1.0) is not None:
+        return "torus"
+    return None
