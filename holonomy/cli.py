@@ -77,53 +77,121 @@ def _schemes(text: str) -> tuple[str, ...]:
     return vals
 
 
+_EPILOG = ("Exit codes: 0 success; 2 invalid input (one line on stderr naming the key "
+           "or option and what is expected; nothing computed is lost); 1 internal error "
+           "(set WHITEGAUGE_DEBUG=1 for the traceback); 130 interrupted.")
+
+
+def _sub(sub, name: str, summary: str, description: str):
+    return sub.add_parser(name, help=summary, description=description, epilog=_EPILOG)
+
+
+def _spec_arg(p, purpose: str) -> None:
+    p.add_argument("spec", metavar="SPEC", help=f"the experiment spec, a TOML file ({purpose}; "
+                   "the keys are listed in README.md, section The spec)")
+
+
+def _json_arg(p) -> None:
+    p.add_argument("--json", action="store_true",
+                   help="print the results object as JSON on stdout instead of the table "
+                   "(no start or end line on stderr)")
+
+
+def _workers_arg(p, default: str) -> None:
+    p.add_argument("--workers", type=_workers, default=1 if default == "1" else None,
+                   metavar="N", help=f"worker processes, an integer >= 1 (default "
+                   f"{default}); the numbers do not depend on it")
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog="whitegauge",
-        description="Stochastic holonomy experiments in two-dimensional gauge theory.",
+        description="Stochastic holonomy experiments in two-dimensional gauge theory: "
+        "Wilson loops of white-noise gauge fields in axial gauge, with error bars, exact "
+        "references and perturbative series, from TOML spec files. Every number printed "
+        "says what it is (estimate, exact, series, formal) and carries its error.",
+        epilog=_EPILOG,
     )
     parser.add_argument("--version", action="version", version=f"whitegauge {__version__}")
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser,
+                                title="commands (whitegauge COMMAND --help for each)")
 
-    p = sub.add_parser("run", help="run a spec: Monte Carlo Wilson loops with error bars")
-    p.add_argument("spec", metavar="SPEC", help="the experiment spec (TOML)")
-    p.add_argument("--out", metavar="DIR", help="output folder (default: whitegauge-<name>)")
-    p.add_argument("--workers", type=_workers, default=1, metavar="N",
-                   help="worker processes (default 1: run inline)")
+    p = _sub(sub, "run", "run a spec: Monte Carlo Wilson loops with error bars",
+             "Sample the spec's loops with its scheme and print, per loop, the estimate "
+             "with its standard error, the exact value of what the scheme samples (with "
+             "z = (estimate - exact) / stderr) and the exact value of the loop as "
+             "specified. Writes results.json, results.csv and the run store run.sqlite "
+             "into DIR. Needs [run] samples and seed in the spec.")
+    _spec_arg(p, "run needs [run] samples and seed")
+    p.add_argument("--out", metavar="DIR", help="output folder, created if missing "
+                   "(default: whitegauge-<name> in the current folder, <name> the spec's "
+                   "name)")
+    _workers_arg(p, "1")
     p.add_argument("--resume", action="store_true",
-                   help="keep the finished blocks of an interrupted run in DIR")
-    p.add_argument("--json", action="store_true", help="print the results object")
-    p.add_argument("--quiet", action="store_true", help="no progress bar, no table")
+                   help="keep the finished blocks of an interrupted run of the same spec "
+                   "in DIR and compute only the missing ones (the numbers are bitwise the "
+                   "same)")
+    _json_arg(p)
+    p.add_argument("--quiet", action="store_true",
+                   help="print nothing but errors: no progress bar, table or start/end line")
 
-    p = sub.add_parser("exact", help="exact values of the spec's loops where known")
-    p.add_argument("spec", metavar="SPEC")
-    p.add_argument("--json", action="store_true")
+    p = _sub(sub, "exact", "exact values of the spec's loops where known",
+             "Print, per loop, the exact value of what the spec's scheme samples and the "
+             "exact continuum value of the loop as specified, with the method used, or "
+             "— and the reason where no exact route applies. No sampling: [run] is not "
+             "needed, and a density of changing sign is evaluated formally.")
+    _spec_arg(p, "[run] is not needed")
+    _json_arg(p)
 
-    p = sub.add_parser("series", help="perturbative coefficients c_0..c_M per loop")
-    p.add_argument("spec", metavar="SPEC")
-    p.add_argument("--order", type=_order, required=True, metavar="M")
-    p.add_argument("--json", action="store_true")
+    p = _sub(sub, "series", "perturbative coefficients c_0..c_M per loop",
+             "Print the coefficients c_0..c_M of E[W](lambda) = sum_m c_m lambda^m per "
+             "loop: the Wick series of the linear scheme on the spec's grid, as floats "
+             "and, for loops with few steps, exact rationals. Each loop has a time "
+             "budget (WHITEGAUGE_SERIES_BUDGET seconds, default 60); a loop over budget "
+             "gets — and a note.")
+    _spec_arg(p, "[run] is not needed")
+    p.add_argument("--order", type=_order, required=True, metavar="M",
+                   help="the highest order M, an integer from 0 to 20 (required)")
+    _json_arg(p)
 
-    p = sub.add_parser("study", help="the loops at several spacings and schemes, "
-                       "on one coupled noise field; convergence rates")
-    p.add_argument("spec", metavar="SPEC")
-    p.add_argument("--spacings", type=_spacings, required=True, metavar="H1,H2,...")
+    p = _sub(sub, "study", "the loops at several spacings and schemes, "
+             "on one coupled noise field; convergence rates",
+             "Run the spec's loops at every spacing and scheme on one coupled noise field "
+             "(the noise at a coarse spacing is the sum of the noise at the finer ones), "
+             "report per row the error against the scheme's own exact lattice value and "
+             "against the continuum value of the loop as specified, and fit the rate p of "
+             "the scheme error C h^p. Writes study.json, study.csv, convergence.png and "
+             "the store study.sqlite into DIR. The spec's field.spacing and "
+             "field.scheme are replaced by --spacings and --schemes.")
+    _spec_arg(p, "study needs [run] samples and seed")
+    p.add_argument("--spacings", type=_spacings, required=True, metavar="H1,H2,...",
+                   help="at least two spacings, the coarsest divided by powers of 2, "
+                   "e.g. 0.5,0.25,0.125 (required)")
     p.add_argument("--schemes", type=_schemes, default=("heat", "linear", "gauss"),
-                   metavar="S1,S2,...")
-    p.add_argument("--out", metavar="DIR", help="output folder (default: "
-                   "whitegauge-<name>-study)")
-    p.add_argument("--workers", type=_workers, default=1, metavar="N")
+                   metavar="S1,S2,...", help="comma-separated schemes from heat, linear, "
+                   "gauss, wilson (default heat,linear,gauss; wilson needs U(1) or SU(2))")
+    p.add_argument("--out", metavar="DIR", help="output folder, created if missing "
+                   "(default: whitegauge-<name>-study in the current folder)")
+    _workers_arg(p, "1")
     p.add_argument("--resume", action="store_true",
-                   help="keep the finished blocks of an interrupted study in DIR")
-    p.add_argument("--json", action="store_true")
-    p.add_argument("--quiet", action="store_true")
+                   help="keep the finished blocks of an interrupted study of the same spec "
+                   "in DIR")
+    _json_arg(p)
+    p.add_argument("--quiet", action="store_true",
+                   help="print nothing but errors: no progress bar, table or start/end line")
 
-    p = sub.add_parser("demo", help="a built-in survey: report.md, plots, results.json")
-    p.add_argument("--out", metavar="DIR", default="whitegauge-demo")
-    p.add_argument("--workers", type=_workers, default=None, metavar="N",
-                   help="worker processes (default: the number of cores, at most 2)")
-    p.add_argument("--json", action="store_true")
-    p.add_argument("--quiet", action="store_true")
+    p = _sub(sub, "demo", "a built-in survey: report.md, plots, results.json",
+             "Run a built-in survey (SU(2) and U(3); a rectangle, a doubly wound circle "
+             "and a figure eight; the heat, gauss, linear and, where it applies, wilson "
+             "schemes; the perturbative series of the rectangle) and write report.md, "
+             "PNG plots, results.json, the specs in specs/ and their runs in runs/. "
+             "About a minute on two cores.")
+    p.add_argument("--out", metavar="DIR", default="whitegauge-demo",
+                   help="output folder, created if missing (default: whitegauge-demo)")
+    _workers_arg(p, "the number of cores, at most 2")
+    _json_arg(p)
+    p.add_argument("--quiet", action="store_true",
+                   help="print nothing but errors: no progress bar, table or start/end line")
     return parser
 
 
