@@ -136,6 +136,65 @@ def tree_vs_loop(shapes=((1, 4096), (64, 1024), (4096, 128), (16384, 16)), sizes
     return rows
 
 
+def _pairwise_matmul(f):
+    """The sampler's product step before it went through the solver (issue 11): pairwise
+    reduction over axis 1 with ``@`` and a concatenate for odd counts (the baseline)."""
+    while f.shape[1] > 1:
+        m = f.shape[1]
+        paired = f[:, 0:m - 1:2] @ f[:, 1:m:2]
+        f = np.concatenate([paired, f[:, m - 1:]], axis=1) if m % 2 else paired
+    return f[:, 0]
+
+
+def _pairwise_quaternion(f, mul):
+    """Same baseline for quaternion storage (the old kernel's concatenate variant)."""
+    while f.shape[1] > 1:
+        m = f.shape[1]
+        paired = mul(f[:, 0:m - 1:2], f[:, 1:m:2])
+        f = np.concatenate([paired, f[:, m - 1:]], axis=1) if m % 2 else paired
+    return f[:, 0]
+
+
+def product_step(cases=(("U", 2), ("U", 3), ("SU", 2)), shapes=((780, 63), (4096, 64)),
+                 seed: int = 3, rounds: int = 5, verbose: bool = True) -> list[dict]:
+    """The sampler's product step through the solver's storage against the old kernel
+    product, CPU time over interleaved rounds (best of each side)."""
+    from holonomy._kernels import kernel_for
+    from holonomy._solver import quaternion_mul
+
+    rng = np.random.default_rng(seed)
+    rows = []
+    for family, n in cases:
+        G = make_group(family, n)
+        K = kernel_for(G)
+        for samples, steps in shapes:
+            f = K.exp(0.3 * rng.normal(size=(samples, steps, G.dim)))
+            if K.elem_ndim == 1:
+                def old():
+                    return _pairwise_quaternion(f, quaternion_mul)
+            else:
+                def old():
+                    return _pairwise_matmul(f)
+            t_old = t_new = np.inf
+            for _ in range(rounds):  # interleaved: both sides see the same load
+                t0 = time.process_time()
+                a = old()
+                t_old = min(t_old, time.process_time() - t0)
+                t0 = time.process_time()
+                b = K.product(f)
+                t_new = min(t_new, time.process_time() - t0)
+            rows.append({"group": f"{family}({n})", "samples": samples, "steps": steps,
+                         "old_over_new": t_old / t_new,
+                         "agree": bool(np.allclose(a, b, rtol=0, atol=1e-12))})
+    if verbose:
+        print("sampler product step: time(old kernel product) / time(solver storage); "
+              ">= 1 means the solver is at least as fast")
+        for r in rows:
+            print(f"  {r['group']:6} samples={r['samples']:5d} steps={r['steps']:3d}  "
+                  f"{r['old_over_new']:6.2f}  agree={r['agree']}")
+    return rows
+
+
 def _print(rows):
     threads = os.environ.get("OPENBLAS_NUM_THREADS", "unset")
     print("batched exp + ordered product, sample-steps per second (best of 3; "
@@ -161,5 +220,7 @@ def _print(rows):
 if __name__ == "__main__":
     rows = main()
     tl = tree_vs_loop()
-    ok = all(r["agree_1e-10"] for r in rows) and all(r["agree"] for r in tl)
+    ps = product_step()
+    ok = (all(r["agree_1e-10"] for r in rows) and all(r["agree"] for r in tl)
+          and all(r["agree"] for r in ps))
     sys.exit(0 if ok else 1)

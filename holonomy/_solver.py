@@ -41,6 +41,10 @@ __all__ = [
     "ProductResult",
     "ordered_product",
     "tree_product",
+    "quaternion_mul",
+    "MatrixStorage",
+    "QuaternionStorage",
+    "storage_for",
 ]
 
 
@@ -128,17 +132,24 @@ def tree_product(factors: np.ndarray, axis: int = -3) -> np.ndarray:
         The ordered product (the step axis removed).
     """
     f = np.moveaxis(np.asarray(factors), axis, -3)
-    m = f.shape[-3]
+    return _pairwise(f, _mul, f.ndim - 3)
+
+
+def _pairwise(f: np.ndarray, mul, axis: int) -> np.ndarray:
+    """Pairwise reduction of ``f`` over the (non-negative) step ``axis`` with ``mul``:
+    the one product engine of `tree_product` and the storage classes."""
+    m = f.shape[axis]
     if m == 0:
         raise ValueError("`factors` must have at least one step.")
+    head = (slice(None),) * axis
     while m > 1:
-        half = m // 2
-        prod = _mul(f[..., 0 : 2 * half : 2, :, :], f[..., 1 : 2 * half : 2, :, :])
-        if m % 2:
-            # Odd count: the last factor joins the last pair (keeps the order).
-            prod[..., -1, :, :] = _mul(prod[..., -1, :, :], f[..., -1, :, :])
-        f, m = prod, half
-    return f[..., 0, :, :]
+        paired = mul(f[head + (slice(0, m - 1, 2),)], f[head + (slice(1, m, 2),)])
+        # Odd count: the last factor is carried to the next level (keeps the order;
+        # measured a little faster than folding it into the last pair).
+        f = np.concatenate([paired, f[head + (slice(m - 1, m),)]], axis=axis) if m % 2 \
+            else paired
+        m = f.shape[axis]
+    return f[head + (0,)]
 
 
 def _sequential_product(factors: np.ndarray) -> np.ndarray:
@@ -163,6 +174,104 @@ def _ordered(factors: np.ndarray) -> np.ndarray:
     if factors.shape[-1] == 2 and batch >= _SEQUENTIAL_MIN_BATCH_2x2:
         return _sequential_product(factors)
     return tree_product(factors)
+
+
+# --------------------------------------------------------------------------- storage
+
+
+def quaternion_mul(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Hamilton product of unit quaternions ``(..., 4)`` standing for SU(2) matrices
+    ``a_0 Id + i (a_1 sigma_1 + a_2 sigma_2 + a_3 sigma_3)`` (see `QuaternionStorage`)."""
+    a0, a1, a2, a3 = a[..., 0], a[..., 1], a[..., 2], a[..., 3]
+    b0, b1, b2, b3 = b[..., 0], b[..., 1], b[..., 2], b[..., 3]
+    out = np.empty(np.broadcast_shapes(a.shape, b.shape))
+    # (a0 + i a.s)(b0 + i b.s) = a0 b0 - a.b + i (a0 b + b0 a - a x b).s
+    out[..., 0] = a0 * b0 - a1 * b1 - a2 * b2 - a3 * b3
+    out[..., 1] = a0 * b1 + b0 * a1 - (a2 * b3 - a3 * b2)
+    out[..., 2] = a0 * b2 + b0 * a2 - (a3 * b1 - a1 * b3)
+    out[..., 3] = a0 * b3 + b0 * a3 - (a1 * b2 - a2 * b1)
+    return out
+
+
+class MatrixStorage:
+    """Group elements stored as ``(..., N, N)`` matrices; products by `_mul`.
+
+    The solver's storage of elements: the sampler's ordered products (links along
+    columns, holonomies along loops) all run through `mul` and `product`, so there is
+    one product engine. `QuaternionStorage` stores SU(2) and Sp(1) elements as unit
+    quaternions instead (4 reals in place of 4 complex entries).
+    """
+
+    elem_ndim = 2
+
+    def __init__(self, group):
+        self.group = group
+
+    def mul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return _mul(a, b)
+
+    def dagger(self, a: np.ndarray) -> np.ndarray:
+        return np.conj(np.swapaxes(a, -1, -2))
+
+    def identity(self, shape: tuple, dtype=complex) -> np.ndarray:
+        n = self.group.N
+        return np.broadcast_to(np.eye(n, dtype=dtype), shape + (n, n)).copy()
+
+    def to_matrices(self, a: np.ndarray) -> np.ndarray:
+        return a
+
+    def product(self, factors: np.ndarray) -> np.ndarray:
+        """Ordered product ``F_1 F_2 ... F_m`` over the step axis (axis 1) by
+        `tree_product` (for the sampler's (samples, steps, N, N) layout the tree beat
+        the loop over steps at every batch size measured, 2 x 2 included:
+        benchmarks/bench_products.py, ``product_step``)."""
+        return tree_product(factors, axis=1)
+
+
+class QuaternionStorage(MatrixStorage):
+    """SU(2) / Sp(1) elements as unit quaternions ``(..., 4)`` = ``(a_0, a_1, a_2, a_3)``
+    for ``a_0 Id + i (a_1 sigma_1 + a_2 sigma_2 + a_3 sigma_3)``.
+
+    References
+    ----------
+    .. [1] Hamilton, W. R. (1844). "On quaternions." Philos. Mag. 25, 489-495; Hall,
+       B. C. (2015). "Lie Groups, Lie Algebras, and Representations", 2nd ed.,
+       Springer, section 1.3.3 (SU(2) and the unit quaternions).
+    """
+
+    elem_ndim = 1
+
+    def mul(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return quaternion_mul(a, b)
+
+    def dagger(self, a: np.ndarray) -> np.ndarray:
+        out = -a
+        out[..., 0] = a[..., 0]
+        return out
+
+    def identity(self, shape: tuple, dtype=float) -> np.ndarray:
+        out = np.zeros(shape + (4,))
+        out[..., 0] = 1.0
+        return out
+
+    def to_matrices(self, a: np.ndarray) -> np.ndarray:
+        out = np.empty(a.shape[:-1] + (2, 2), complex)
+        out[..., 0, 0] = a[..., 0] + 1j * a[..., 3]
+        out[..., 0, 1] = a[..., 2] + 1j * a[..., 1]
+        out[..., 1, 0] = -a[..., 2] + 1j * a[..., 1]
+        out[..., 1, 1] = a[..., 0] - 1j * a[..., 3]
+        return out
+
+    def product(self, factors: np.ndarray) -> np.ndarray:
+        """Pairwise reduction over axis 1, as `tree_product` for matrices."""
+        return _pairwise(factors, quaternion_mul, 1)
+
+
+def storage_for(group) -> MatrixStorage:
+    """The fastest storage for ``group``: quaternions for SU(2) and Sp(1)."""
+    if group.N == 2 and group.family in ("SU", "Sp"):
+        return QuaternionStorage(group)
+    return MatrixStorage(group)
 
 
 # --------------------------------------------------------------------------- schemes

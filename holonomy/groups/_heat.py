@@ -84,6 +84,7 @@ __all__ = [
     "HEAT_KERNEL_DT",
     "MIN_STEPS",
     "exact_heat_route",
+    "su2_heat_quaternions",
 ]
 
 HEAT_KERNEL_DT = 1e-2
@@ -614,6 +615,50 @@ def sample_su2_angle(tau, *, rng=None) -> np.ndarray:
         theta[small] = _sample_small_tau(tau[small], rng)
     return theta.reshape(shape)
 
+
+
+def su2_heat_quaternions(tau, *, rng=None) -> np.ndarray:
+    """SU(2) heat-kernel samples as unit quaternions ``(..., 4)``, ``tau = t / (4k)``.
+
+    The quaternion ``(cos theta, sin theta n)`` stands for
+    ``cos theta Id + i sin theta n.sigma``; its law is that of `heat_kernel` for SU(2)
+    (Haar-random axis n, heat-kernel angle theta). For ``tau < 0.5`` each attempt draws
+    three normals Z and one uniform: ``theta = sqrt(2 tau) |Z|`` is the proposal of
+    `_sample_small_tau` and, since the direction of Z is uniform and independent of
+    ``|Z|``, ``n = Z / |Z|`` is the axis (no separate axis draws). Larger tau: inverse
+    CDF (`sample_su2_angle`) and three normals for the axis.
+
+    References
+    ----------
+    .. [1] L. Devroye, "Non-Uniform Random Variate Generation", Springer, 1986,
+       Sections II.3 (rejection) and V.4 (uniform directions from normal vectors).
+    """
+    rng = np.random.default_rng(rng)
+    tau = np.asarray(tau, float)
+    flat = tau.ravel()
+    out = np.zeros(flat.shape + (4,))
+    out[:, 0] = 1.0
+    small = np.flatnonzero((flat > 0) & (flat < _TAU_REJECT))
+    large = np.flatnonzero(flat >= _TAU_REJECT)
+    todo, t = small, flat[small]
+    while todo.size:
+        Z = rng.standard_normal((todo.size, 3))
+        u = rng.random(todo.size)
+        r = np.sqrt(np.einsum("ij,ij->i", Z, Z))
+        th = np.sqrt(2.0 * t) * r
+        with np.errstate(invalid="ignore"):
+            ok = (th <= np.pi) & (u * th * th <= _accept_numerator(th, t))
+        idx, th_ok = todo[ok], th[ok]
+        out[idx, 0] = np.cos(th_ok)
+        out[idx, 1:] = Z[ok] * (np.sin(th_ok) / r[ok])[:, None]
+        todo, t = todo[~ok], t[~ok]
+    if large.size:
+        theta = sample_su2_angle(flat[large], rng=rng)
+        axis = rng.standard_normal((large.size, 3))
+        axis *= (np.sin(theta) / np.sqrt(np.einsum("ij,ij->i", axis, axis)))[:, None]
+        out[large, 0] = np.cos(theta)
+        out[large, 1:] = axis
+    return out.reshape(tau.shape + (4,))
 
 # ------------------------------------------------ exact kernels on the maximal torus
 #: largest neglected law error (total variation) of one exact torus draw

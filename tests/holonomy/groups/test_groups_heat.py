@@ -381,3 +381,18 @@ def test_one_step_fourth_moment(family, n, metric, spec):
         d_ss = G.dim - 1
     c_ad = total / d_ss
     assert m4 == pytest.approx(3 * c**2 - c_ss * c_ad / 2, rel=1e-10, abs=1e-12)
+
+
+@pytest.mark.parametrize("t,k", [(0.05, 2.0), (1.2, 1.0), (3.0, 2.0)])
+def test_su2_heat_quaternions_law(t, k):
+    # Angle against the character-series CDF (quadrature), axis against the uniform law
+    # on the sphere: one coordinate of a uniform unit vector is uniform on [-1, 1]
+    # (Archimedes' hat-box theorem); one-sample KS tests from scipy.stats.
+    from holonomy.groups import su2_heat_quaternions
+
+    q = su2_heat_quaternions(np.full(4000, t / (4 * k)), rng=np.random.default_rng(8))
+    assert np.allclose(np.einsum("...i,...i->...", q, q), 1.0, atol=1e-14)
+    theta = np.arccos(np.clip(q[:, 0], -1, 1))
+    assert stats.kstest(theta, _ks_cdf(t, k)).pvalue > 1e-3
+    z = q[:, 3] / np.sin(theta)
+    assert stats.kstest(z, stats.uniform(-1, 2).cdf).pvalue > 1e-3
