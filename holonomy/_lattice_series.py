@@ -28,33 +28,53 @@ import numbers
 import numpy as np
 
 from ._sampling import WilsonProblem
-from ._series import SeriesResult, exp_product_series
+from ._series import SeriesResult, exp_product_series, factor_product_series
 
-__all__ = ["lattice_covariance", "lattice_series"]
+__all__ = ["lattice_covariance", "lattice_loadings", "lattice_series"]
 
 
-def lattice_covariance(problem: WilsonProblem, loop_index: int = 0) -> np.ndarray:
-    """The matrix C (per unit coupling) of the loop's step exponents A_e.
+def lattice_loadings(problem: WilsonProblem, loop_index: int = 0
+                     ) -> tuple[np.ndarray, np.ndarray]:
+    """The step exponents as sums of independent interval noises: ``(U, mu)``.
 
-    Steps on the reference line (identity links) are left out. Returns an (m, m)
-    symmetric matrix, m the number of remaining horizontal steps.
+    ``A_e = sum_s U_es eta_s`` with eta_s of variance ``lambda mu_s`` per component;
+    ``U_es = -dir_e`` if interval s lies on the chain of step e, else 0. Intervals used
+    by exactly the same steps are merged (their noises always appear summed), so S is
+    the number of distinct ways the loop's steps share a column. Steps on the reference
+    line (identity links) are left out.
     """
     plan = problem.plan
     links, direction = plan.steps[loop_index]
     keep = links >= 0
     links, direction = links[keep], direction[keep].astype(float)
     K = plan.n_intervals
-    # ancestors[k] = indicator of chain(k) (intervals from the reference to k)
+    # chain[k, j] = 1 if interval j lies between interval k and the reference
     chain = np.zeros((K, K))
     for k in range(K):
         j = k
         while j >= 0:
             chain[k, j] = 1.0
             j = plan.parent[j]
-    measure = plan.measure
-    shared = (chain * measure) @ chain.T  # mu of common intervals of chain(k), chain(l)
-    c = shared[np.ix_(links, links)]
-    return direction[:, None] * direction[None, :] * c
+    U = -direction[:, None] * chain[links]
+    used = np.any(U != 0, axis=0)
+    U, measure = U[:, used], np.asarray(plan.measure, dtype=float)[used]
+    if U.shape[1] == 0:
+        return U, measure
+    patterns, inverse = np.unique(U, axis=1, return_inverse=True)
+    merged = np.zeros(patterns.shape[1])
+    np.add.at(merged, inverse.ravel(), measure)
+    return patterns, merged
+
+
+def lattice_covariance(problem: WilsonProblem, loop_index: int = 0) -> np.ndarray:
+    """The matrix C (per unit coupling) of the loop's step exponents A_e.
+
+    Steps on the reference line (identity links) are left out. Returns an (m, m)
+    symmetric matrix, m the number of remaining horizontal steps:
+    ``C_ef = dir_e dir_f mu(chain(e) & chain(f)) = (U diag(mu) U^T)_ef``.
+    """
+    U, mu = lattice_loadings(problem, loop_index)
+    return (U * mu) @ U.T
 
 
 def lattice_series(problem: WilsonProblem, loop_index: int = 0, order: int = 4, *,
@@ -81,16 +101,19 @@ def lattice_series(problem: WilsonProblem, loop_index: int = 0, order: int = 4, 
         raise ValueError(f"`order` must be an integer >= 0, got {order!r}.")
     if not 0 <= loop_index < len(problem.loops):
         raise ValueError(f"`loop_index` must be in [0, {len(problem.loops)}), got {loop_index!r}.")
-    cov = lattice_covariance(problem, loop_index)
+    U, mu = lattice_loadings(problem, loop_index)
     if exact:
         import sympy
 
         h = problem.field.spacing
         # interval measures are integer multiples of h^2 for a constant density
-        cov = sympy.Matrix(cov.shape[0], cov.shape[1],
-                           lambda i, j: sympy.nsimplify(cov[i, j], rational=True,
-                                                        tolerance=1e-12 * max(1.0, h * h)))
-    if cov.shape[0] == 0:
+        mu = np.array([sympy.nsimplify(v, rational=True, tolerance=1e-12 * max(1.0, h * h))
+                       for v in mu], dtype=object)
+    if U.shape[0] == 0:
         return exp_product_series(problem.group, np.zeros((1, 1)), int(order),
                                   rep=problem.rep, exact=exact)
-    return exp_product_series(problem.group, cov, int(order), rep=problem.rep, exact=exact)
+    m = U.shape[0]
+    period = next(p for p in range(1, m + 1)
+                  if m % p == 0 and np.array_equal(U, np.tile(U[:p], (m // p, 1))))
+    return factor_product_series(problem.group, U[:period], mu, int(order),
+                                 rep=problem.rep, exact=exact, turns=m // period)

@@ -149,7 +149,8 @@ def pairing_group_factor(omega: np.ndarray, partner: Sequence[int]) -> complex:
     return complex(np.einsum(expr, *([omega] * len(subs)), optimize="greedy"))
 
 
-def all_pairing_group_factors(basis: np.ndarray, n: int) -> dict[tuple[int, ...], complex]:
+def all_pairing_group_factors(basis: np.ndarray, n: int, start: np.ndarray | None = None
+                              ) -> dict[tuple[int, ...], complex]:
     """G(D) for every perfect pairing D of n positions, sharing work between pairings.
 
     A depth-first walk over positions 0..n-1 keeps the partial product of basis
@@ -163,6 +164,10 @@ def all_pairing_group_factors(basis: np.ndarray, n: int) -> dict[tuple[int, ...]
         pi(X_a) for an orthonormal basis.
     n : int
         Number of positions (even).
+    start : ndarray (D, D), optional
+        A matrix P put in front of the word: ``tr(P pi(X_a1) ... pi(X_an))`` (default
+        the identity). With pi a tensor power and P a cyclic permutation this is the
+        trace of a power, ``tr(X^w) = tr(X^{(x)w} P)``.
 
     References
     ----------
@@ -190,7 +195,8 @@ def all_pairing_group_factors(basis: np.ndarray, n: int) -> dict[tuple[int, ...]
             rec(q + 1, T2, open_list[:idx] + open_list[idx + 1:])
             partner[p] = partner[q] = -1
 
-    rec(0, np.eye(D, dtype=B.dtype), [])
+    rec(0, np.eye(D, dtype=B.dtype) if start is None
+        else np.asarray(start, dtype=np.result_type(B, start)), [])
     return out
 
 

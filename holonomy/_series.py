@@ -29,8 +29,19 @@ positions are kept only while p + r <= 2M. No word is enumerated: the work per e
 the number of partial pairings of at most 2M points times (m - e)^r, independent of the
 number of words (which grows like m^(2M)). The group factors G(D) are computed once per
 complete pairing D (a depth-first contraction shared between pairings with a common
-prefix). Cost: the number of partial pairings grows like (2M)!/..., so orders above 5
-are practical only for a few edges; see benchmarks/bench_series.py.
+prefix).
+
+Labels. When the exponents are sums of independent noises, ``A_e = sum_s U_es eta_s``
+(`factor_product_series`; the interval noises of the lattice series), an open position
+carries the label s of its noise instead of its closing edge, and only labels that
+connect the past with the future of the current cut are kept on the axes (`_alive`).
+In floating point all partial pairings with the same number of open positions are
+stacked in one array and each group of transitions (same closed axes, same number of
+new open positions) is one sparse matrix product over the pairings followed by shared
+tensor contractions (`_transfer_batched`). A product repeated w times (a loop wound w
+times) is expanded once, in the representation ``pi^{(x)w}``, traced against the cyclic
+shift. Cost: the partial pairings of 2M points times L^r for r open positions and L
+alive labels; see benchmarks/bench_series.py (order 6 of the README example: seconds).
 
 Exact group factors: with the delta form of the Casimir tensor, G(D) (k N)^j for U(N),
 SU(N) and G(D) (2k)^j for SO(N) are sums of signed powers of N, hence integers; they
@@ -55,6 +66,7 @@ References
 
 from __future__ import annotations
 
+import itertools
 import math
 import numbers
 from dataclasses import dataclass, field
@@ -75,7 +87,7 @@ from ._lie_words import (
     pairing_group_factor,
 )
 
-__all__ = ["SeriesResult", "exp_product_series"]
+__all__ = ["SeriesResult", "exp_product_series", "factor_product_series"]
 
 
 @dataclass
@@ -235,12 +247,14 @@ def _transitions(key: tuple[int, ...], max_total: int, last: bool) -> tuple:
     return tuple(out)
 
 
-def _group_factors(B: np.ndarray, n: int, keys: list) -> dict:
+def _group_factors(B: np.ndarray, n: int, keys: list,
+                   twist: np.ndarray | None = None) -> dict:
     """G(D) for the pairings ``keys`` of n positions: shared depth-first contraction when
-    the open-index tensors stay small, else one einsum per pairing."""
+    the open-index tensors stay small, else one einsum per pairing. ``twist``: a matrix
+    in front of the word (`all_pairing_group_factors`; the shared route only)."""
     d, D = B.shape[0], B.shape[1]
-    if d ** (n // 2) * D * D <= 200_000:
-        return all_pairing_group_factors(B, n)
+    if twist is not None or d ** (n // 2) * D * D <= 200_000:
+        return all_pairing_group_factors(B, n, twist)
     omega = np.einsum("aij,akl->ijkl", B, B)
     return {key: pairing_group_factor(omega, key) for key in keys}
 
@@ -310,40 +324,269 @@ def exp_product_series(group: Any, cov: Any, order: int, *, rep: Any = "fundamen
     C, M, rep_name, B, D, exact, c_exact = _exp_product_series_iv(group, cov, order, rep,
                                                                   exact)
     m = C.shape[0]
+    # Labels = edges: a position opened on edge e carries the row C[e, :] and closes on
+    # edge f with weight C[e, f] (closing vector = the unit vector of f).
+    close = np.zeros((m, m), dtype=C.dtype)
+    close[np.arange(m), np.arange(m)] = Fraction(1) if c_exact else 1.0
+    states = _transfer(C, close, np.diagonal(C).copy(), M, c_exact)
+    return _finish(group, states, M, rep_name, B, D, exact, c_exact)
+
+
+def _alive(opening: np.ndarray, closing: np.ndarray) -> list[np.ndarray]:
+    """Labels that can carry an open position across each cut.
+
+    After edge e a label is alive if some edge <= e opens it (non-zero opening weight)
+    and some edge > e closes it; only those can appear on an open position's axis.
+    Entry ``e + 1`` of the list is the cut after edge e (entry 0: before edge 0).
+    """
+    m = opening.shape[0]
+    opened = np.logical_or.accumulate(opening != 0, axis=0)
+    closes = np.logical_or.accumulate((closing != 0)[::-1], axis=0)[::-1]
+    later = np.zeros_like(closes)
+    later[:-1] = closes[1:]
+    return [np.zeros(0, dtype=int)] + [np.nonzero(opened[e] & later[e])[0]
+                                       for e in range(m)]
+
+
+def _transfer(opening: np.ndarray, closing: np.ndarray, diag: np.ndarray, M: int,
+              c_exact: bool) -> dict:
+    """The transfer over the edges: `_transfer_batched` in floating point, the per-state
+    loop `_transfer_keys` for exact (object) arithmetic."""
+    if c_exact:
+        return _transfer_keys(opening, closing, diag, M, True)
+    return _transfer_batched(opening, closing, diag, M)
+
+
+def _transfer_keys(opening: np.ndarray, closing: np.ndarray, diag: np.ndarray, M: int,
+                   c_exact: bool) -> dict:
+    """The transfer over the edges (module docstring), with open positions carrying
+    *labels* instead of edges.
+
+    ``opening[e, s]`` is the weight of a position opened on edge e with label s,
+    ``closing[f, s]`` the weight of closing it on edge f > e, so the covariance of two
+    positions on edges e < f is ``sum_s opening[e, s] closing[f, s]``; ``diag[e]`` is
+    ``C_ee`` (chords inside one edge). The axes of a state's tensor run over the labels
+    alive at the current cut (`_alive`), so a tensor is only as large as the number of
+    Gaussian directions that connect the past with the future: for the lattice series
+    (labels = column intervals) that is the number of columns the loop still has to
+    revisit, not the number of edges left. All-zero tensors are dropped.
+
+    Returns the complete states: partner tuple -> covariance sum S(D).
+    """
+    m = opening.shape[0]
     max_total = 2 * M
-    dtype = object if c_exact else C.dtype
+    dtype = object if c_exact else np.result_type(opening.dtype, closing.dtype, float)
     one = Fraction(1) if c_exact else 1.0
     inv_fact = [Fraction(1, math.factorial(n)) if c_exact else 1.0 / math.factorial(n)
                 for n in range(max_total + 1)]
+    alive = _alive(opening, closing)
 
-    # state: partner tuple (-1 = open) -> tensor over labels of the open positions
     states: dict[tuple[int, ...], np.ndarray] = {(): np.array(one, dtype=dtype)}
     for e in range(m):
-        # axes of every state index the edges e..m-1 at which an open position may close
-        row = C[e, e + 1:]  # covariance of a position opened on edge e with later edges
-        cee = C[e, e]
-        last = e == m - 1  # on the last edge every position must be paired
+        prev, cur = alive[e], alive[e + 1]
+        kvec = np.asarray(closing[e, prev], dtype=dtype)
+        ovec = np.asarray(opening[e, cur], dtype=dtype)
+        # old axis position of each label alive after edge e (len(prev): new label)
+        where = {int(s): i for i, s in enumerate(prev)}
+        take = np.array([where.get(int(s), len(prev)) for s in cur], dtype=int)
+        cee = diag[e]
+        last = e == m - 1
         new_states: dict[tuple[int, ...], np.ndarray] = {}
-
-        def add(k: tuple[int, ...], arr: Any) -> None:
-            arr = np.asarray(arr, dtype=dtype)
-            prev = new_states.get(k)
-            new_states[k] = arr if prev is None else np.asarray(prev + arr, dtype=dtype)
 
         for key, T in states.items():
             r = T.ndim
             if not (last and r):
-                add(key, T[(slice(1, None),) * r])  # no position on edge e
+                moved = _reindex(T, take, c_exact)
+                if moved is not None:
+                    _add(new_states, key, moved, dtype)
+            cache: dict[tuple[int, ...], Any] = {}
             for n, closed, internal, u, new_key in _transitions(key, max_total, last):
-                # closing on edge e selects index 0 (edge e) of the closed axes
-                idx = tuple(0 if ax in closed else slice(1, None) for ax in range(r))
+                base = cache.get(closed, False)
+                if base is False:
+                    out = T
+                    for ax in sorted(closed, reverse=True):
+                        out = np.tensordot(out, kvec, axes=([ax], [0]))
+                    cache[closed] = base = _reindex(out, take, c_exact)
+                if base is None or (u and not len(cur)):
+                    continue
                 w = inv_fact[n] * cee ** internal if internal else inv_fact[n]
-                out = np.asarray(T[idx], dtype=dtype) * w
+                out = base * w
                 for _ in range(u):
-                    out = np.multiply.outer(out, row)
-                add(new_key, out)
+                    out = np.multiply.outer(out, ovec)
+                _add(new_states, new_key, out, dtype)
         states = new_states
+    return states
 
+
+@lru_cache(maxsize=8)
+def _key_graph(M: int):
+    """All partial pairings reachable within order M, grouped for batched transfer.
+
+    Returns ``(keys, groups)``: ``keys[r]`` lists the partial pairings with r open
+    positions (row order of the stacks), and ``groups[last][(r, closed, u)]`` is a list
+    of ``(r_new, rows_src, rows_dst, n, internal)`` arrays: the transitions that close
+    the open axes ``closed`` of a state with r open positions and open u new ones:
+    ``(r_new, rows, src, dst, n, internal)`` with ``rows`` the distinct destination
+    rows and ``dst`` indices into ``rows``.
+    """
+    max_total = 2 * M
+    keys: dict[int, list] = {}
+    row: dict[tuple[int, ...], int] = {}
+    todo = [()]
+    seen = {()}
+    while todo:
+        key = todo.pop()
+        for *_, new_key in _transitions(key, max_total, False):
+            if new_key not in seen:
+                seen.add(new_key)
+                todo.append(new_key)
+    for key in sorted(seen, key=lambda k: (len(k), k)):
+        r = sum(1 for q in key if q < 0)
+        row[key] = len(keys.setdefault(r, []))
+        keys[r].append(key)
+    groups: dict[bool, dict] = {}
+    acc: dict[tuple, list] = {}
+    for key in seen:
+        r = sum(1 for q in key if q < 0)
+        for n, closed, internal, u, new_key in _transitions(key, max_total, False):
+            r_new = r - len(closed) + u
+            acc.setdefault((r, closed, u), []).append(
+                (row[key], row[new_key], n, internal, r_new))
+    # on the last edge every open position must close and none may open: the
+    # transitions that end complete (what _transitions(..., last=True) enumerates)
+    acc_last = {g: v for g, v in acc.items() if g[2] == 0 and len(g[1]) == g[0]}
+    for last, table in ((False, acc), (True, acc_last)):
+        groups[last] = {}
+        for g, v in table.items():
+            src, dst, n, internal = (np.array([t[i] for t in v], dtype=np.int64)
+                                     for i in range(4))
+            rows, inv = np.unique(dst, return_inverse=True)
+            groups[last][g] = (v[0][4], rows, src, inv.ravel(), n, internal)
+    return keys, groups
+
+
+def _transfer_batched(opening: np.ndarray, closing: np.ndarray, diag: np.ndarray,
+                      M: int) -> dict:
+    """`_transfer_keys` in floating point with the states stacked by their number of
+    open positions.
+
+    All partial pairings with r open positions share one array of shape
+    ``(keys, L, ..., L)`` (r label axes, L labels alive at the cut). A transition group
+    (same closed axes, same number u of new open positions) acts on the label axes in
+    the same way for every key, and linearly on the key axis, so the key-to-key part is
+    one sparse matrix product (weights ``C_ee^internal / n!``), applied first so the
+    label operations run on the destination rows only. The Python work per edge is the
+    number of transition groups (a few hundred), not the number of transitions.
+    """
+    import scipy.sparse as sp
+
+    m = opening.shape[0]
+    keys, groups = _key_graph(M)
+    dtype = np.result_type(opening.dtype, closing.dtype, float)
+    inv_fact = np.array([1.0 / math.factorial(n) for n in range(2 * M + 1)])
+    alive = _alive(opening, closing)
+    stacks: dict[int, np.ndarray] = {r: np.zeros((len(ks),), dtype) for r, ks in keys.items()
+                                     if r == 0}
+    stacks[0][0] = 1.0  # the empty pairing
+    for e in range(m):
+        prev, cur = alive[e], alive[e + 1]
+        Lc = len(cur)
+        kvec = np.asarray(closing[e, prev], dtype=dtype)
+        ovec = np.asarray(opening[e, cur], dtype=dtype)
+        where = {int(s): i for i, s in enumerate(prev)}
+        take = np.array([where.get(int(s), len(prev)) for s in cur], dtype=int)
+        same = len(prev) == Lc and bool(np.all(take == np.arange(Lc)))
+        cee = diag[e]
+        last = e == m - 1
+
+        def relabel(Y: np.ndarray) -> np.ndarray:
+            """Label axes 1.. over ``prev`` -> over ``cur`` (zero for new labels)."""
+            if same or Y.ndim == 1:
+                return Y
+            for ax in range(1, Y.ndim):
+                pad = [(0, 0)] * Y.ndim
+                pad[ax] = (0, 1)
+                Y = np.take(np.pad(Y, pad), take, axis=ax)
+            return Y
+
+        new: dict[int, np.ndarray] = {}
+
+        def add(r: int, rows, Y: np.ndarray) -> None:
+            if r not in new:
+                new[r] = np.zeros((len(keys[r]),) + (Lc,) * r, dtype)
+            if rows is None:
+                new[r] += Y
+            else:
+                new[r][rows] += Y  # rows are distinct
+
+        for r, S in stacks.items():
+            if not S.any():
+                continue
+            # contractions of the closed axes, shared between subsets: the subset c is
+            # the subset without its smallest axis a, then axis a contracted (larger
+            # axes are gone already, so a keeps its index)
+            contracted: dict[tuple[int, ...], np.ndarray] = {(): S}
+            relabelled: dict[tuple[int, ...], np.ndarray] = {}
+
+            def part(c: tuple[int, ...]) -> np.ndarray:
+                if c not in contracted:
+                    contracted[c] = np.tensordot(part(c[1:]), kvec, axes=([1 + c[0]], [0]))
+                return contracted[c]
+
+            if not (last and r) and (r == 0 or Lc):
+                relabelled[()] = relabel(S)
+                add(r, None, relabelled[()])
+            for (r0, closed, u), (r_new, rows, src, dst, n, internal) in groups[last].items():
+                if r0 != r or (r_new and not Lc):
+                    continue
+                c = tuple(sorted(closed))
+                if c not in relabelled:
+                    relabelled[c] = relabel(part(c))
+                R = relabelled[c]
+                w = inv_fact[n] * (cee ** internal if np.any(internal) else 1.0)
+                W = sp.csr_matrix((w.astype(dtype), (dst, src)), shape=(len(rows), S.shape[0]))
+                Y = np.asarray(W @ R.reshape(R.shape[0], -1)).reshape((len(rows),) + R.shape[1:])
+                for _ in range(u):
+                    Y = Y[..., None] * ovec
+                add(r_new, rows, Y)
+        stacks = new
+    out: dict[tuple[int, ...], Any] = {}
+    if 0 in stacks:
+        for key, v in zip(keys[0], stacks[0]):
+            if v != 0:
+                out[key] = v
+    return out
+
+
+def _reindex(T: np.ndarray, take: np.ndarray, c_exact: bool) -> np.ndarray | None:
+    """Axes over the labels of the previous cut -> axes over the current ones.
+
+    ``take[i]`` is the old position of the i-th current label, or ``len(old)`` for a
+    label first opened on this edge (zero there). None when the result is all zero.
+    """
+    r = T.ndim
+    if r == 0:
+        return T
+    if not len(take):
+        return None
+    if c_exact:
+        padded = np.empty(tuple(n + 1 for n in T.shape), dtype=object)
+        padded[...] = Fraction(0)
+        padded[tuple(slice(0, n) for n in T.shape)] = T
+    else:
+        padded = np.pad(T, [(0, 1)] * r)
+    out = padded[np.ix_(*([take] * r))]
+    return out if out.any() else None
+
+
+def _add(new_states: dict, k: tuple[int, ...], arr: Any, dtype) -> None:
+    arr = np.asarray(arr, dtype=dtype)
+    prev = new_states.get(k)
+    new_states[k] = arr if prev is None else np.asarray(prev + arr, dtype=dtype)
+
+
+def _finish(group, states, M, rep_name, B, D, exact, c_exact, twist=None) -> SeriesResult:
+    """Contract the complete states' covariance sums with the group factors."""
     # contract with group factors
     coeffs: list[Any] = [0] * (M + 1)
     complete: dict[int, dict[tuple[int, ...], Any]] = {}
@@ -356,7 +599,7 @@ def exp_product_series(group: Any, cov: Any, order: int, *, rep: Any = "fundamen
     diagrams = 0
     kfrac = Fraction(str(sympy.nsimplify(group.k))) if exact else None
     for n, sums in complete.items():
-        factors = _group_factors(B, n, list(sums))
+        factors = _group_factors(B, n, list(sums), twist)
         j = n // 2
         for key, s_val in sums.items():
             G = factors[key]
@@ -374,3 +617,111 @@ def exp_product_series(group: Any, cov: Any, order: int, *, rep: Any = "fundamen
                       for c in coeffs]
     return SeriesResult(coefficients=out_coeffs, order=M, rep=rep_name, dim=D,
                         exact=exact or c_exact, diagrams=diagrams, states=len(states))
+
+
+def _power_basis(B: np.ndarray, w: int) -> tuple[np.ndarray, np.ndarray]:
+    """pi^{(x)w}(X_a) = sum_i 1 (x) .. pi(X_a) (at i) .. (x) 1, and the cyclic shift P
+    with ``tr(X^{(x)w} P) = tr(X^w)``."""
+    d, D = B.shape[0], B.shape[1]
+    eye = np.eye(D)
+    out = np.zeros((d, D ** w, D ** w), dtype=B.dtype)
+    for i in range(w):
+        for a in range(d):
+            f = [eye] * w
+            f[i] = B[a]
+            term = f[0]
+            for g in f[1:]:
+                term = np.kron(term, g)
+            out[a] += term
+    # P maps e_{i1} (x) ... (x) e_{iw} to e_{iw} (x) e_{i1} (x) ... (x) e_{i(w-1)}
+    P = np.zeros((D ** w, D ** w))
+    for multi in itertools.product(range(D), repeat=w):
+        P[np.ravel_multi_index((multi[-1],) + multi[:-1], (D,) * w),
+          np.ravel_multi_index(multi, (D,) * w)] = 1.0
+    return out, P
+
+
+def factor_product_series(group: Any, loadings: Any, variances: Any, order: int, *,
+                          rep: Any = "fundamental", exact: bool = False,
+                          turns: int = 1) -> SeriesResult:
+    """Series of E[tr pi(exp(A_1) ... exp(A_m))] / dim for ``A_e = sum_s U_es eta_s``.
+
+    The eta_s are independent Gaussian algebra elements with variance ``lambda mu_s``
+    per component, so ``C = U diag(mu) U^T``. Same coefficients as
+    ``exp_product_series(group, C, order)``, but the transfer's open positions carry a
+    label s instead of an edge (`_transfer`): when each eta_s appears on few edges (the
+    interval noises of the ``linear`` scheme, the cell noises of ``gauss``) the tensors
+    stay small and the cost no longer grows like ``m^(open positions)``.
+
+    Parameters
+    ----------
+    group : Group
+    loadings : array_like (m, S)
+        U; entries are usually 0 and +-1.
+    variances : array_like (S,)
+        mu (signed values give formal series; sympy Rationals or symbols allowed).
+    order : int
+    rep : str or Representation
+    exact : bool
+        As for `exp_product_series`.
+    turns : int
+        The product is repeated `turns` times, ``H = (exp(A_1) ... exp(A_m))^turns``
+        (the same noises each time: a loop traversed several times). In floating point
+        this is computed as ``tr(pi(G)^{(x)w} P) = tr(pi(G)^w)`` with P the cyclic shift
+        of the w tensor factors: m edges in the representation ``pi^{(x)w}`` instead of
+        w m edges, which keeps the transfer's tensors small (for a loop wound twice the
+        Gaussian directions alive at a cut halve).
+
+    Returns
+    -------
+    SeriesResult
+
+    References
+    ----------
+    .. [1] L. Isserlis, Biometrika 12 (1918) 134-139; G. C. Wick, Phys. Rev. 80 (1950).
+    """
+    U = np.asarray(loadings)
+    w = int(turns)
+    if w < 1:
+        raise ValueError(f"`turns` must be an integer >= 1; got {turns!r}.")
+    if w > 1 and exact:  # exact group factors need the defining representation
+        U = np.concatenate([U] * w, axis=0)
+        w = 1
+    mu = np.asarray(variances, dtype=object if np.asarray(variances).dtype == object
+                    else None)
+    if U.ndim != 2 or mu.shape != (U.shape[1],):
+        raise ValueError(f"`loadings` must be (m, S) and `variances` (S,); got shapes "
+                         f"{U.shape} and {mu.shape}.")
+    if U.shape[0] == 0:
+        U, mu = np.zeros((1, 1)), np.zeros(1)
+    # C is only used for validation, the exact/float decision and its diagonal
+    if mu.dtype == object:
+        # float loadings (+-1, 0) are exact binary numbers: keep them rational
+        Um = sympy.Matrix(U.shape[0], U.shape[1],
+                          lambda i, j: sympy.Rational(Fraction(U[i, j]).numerator,
+                                                      Fraction(U[i, j]).denominator)
+                          if isinstance(U[i, j], (float, np.floating)) else U[i, j])
+        cov = Um * sympy.diag(*mu.tolist()) * Um.T
+    else:
+        cov = (U * mu) @ U.T
+    C, M, rep_name, B, D, exact, c_exact = _exp_product_series_iv(group, cov, order, rep,
+                                                                  exact)
+    if c_exact:
+        conv = np.vectorize(_to_exact, otypes=[object])
+        # float loadings (+-1, 0) are exact binary numbers: keep them rational
+        Ux = np.vectorize(lambda v: Fraction(v) if isinstance(v, float) else _to_exact(v),
+                          otypes=[object])(U.astype(object))
+        opening = Ux * conv(mu.astype(object))[None, :]
+        closing = Ux
+    else:
+        opening = (U * np.asarray(mu, dtype=C.dtype)).astype(C.dtype)
+        closing = U.astype(C.dtype)
+    twist = None
+    if w > 1:
+        if c_exact or B.shape[1] ** w > 64:
+            U = np.concatenate([U] * w, axis=0)
+            return factor_product_series(group, U, variances, order, rep=rep, exact=exact)
+        B, twist = _power_basis(B, w)
+        B = B.astype(complex)
+    states = _transfer(opening, closing, np.diagonal(C).copy(), M, c_exact)
+    return _finish(group, states, M, rep_name, B, D, exact, c_exact, twist)
