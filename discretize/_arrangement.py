@@ -1,30 +1,40 @@
-"""The arrangement of a closed polygon: crossings, planar graph, faces and windings.
+"""The arrangement of closed polygons: crossings, planar graph, faces and windings.
 
-A closed polygon ``v_0 v_1 ... v_{m-1} v_0`` traversed ``turns`` times cuts the plane
-into faces. This module computes the planar graph of the curve (the polygon's vertices
-and its self-intersection points, joined by the pieces of the polygon's edges), its
-bounded faces with their exact areas and the winding number of the curve around each
-face.
+Closed polygons ``v_0 v_1 ... v_{m-1} v_0``, each traversed ``turns`` times, cut the
+plane into faces. This module computes the planar graph of the curves (the polygons'
+vertices, their self-intersection and mutual intersection points, joined by the pieces
+of the polygons' edges), its bounded faces with their exact areas, the winding number
+of each curve around each face, and each curve as a path of half-edges of the graph.
+
+Degenerate curves are graphs too: a curve may touch itself at a point (a vertex on
+another edge, a repeated vertex), run back along an edge (a spike) or along another
+edge (collinear overlap). Every touching point becomes a graph vertex, every stretch
+run several times becomes one graph edge traversed several times, and the curve is the
+path of half-edges it runs along (``paths``), so degenerate curves are limits of
+nearby non-degenerate ones with the same graph.
 
 Conventions
 -----------
-- Graph edges are numbered in the order the curve traverses them and are oriented
-  along the curve, so one turn of the loop is ``edges[0], edges[1], ...`` read forward.
+- A graph edge is oriented the way a curve first traverses it; for one curve without
+  overlaps, edges are numbered in the order the curve traverses them, so one turn is
+  ``edges[0], edges[1], ...`` read forward.
 - Half-edge ``2 e`` is edge ``e`` read forward, ``2 e + 1`` read backward.
 - A face boundary is the cycle of half-edges that have the face on their left; for a
   bounded face it runs counterclockwise.
-- Winding numbers count counterclockwise turns as positive: the face on the left of
-  the curve has winding one more (per turn) than the face on its right.
+- Winding numbers count counterclockwise turns as positive: across an edge, the face
+  on its left has winding larger by the net number of times the curve runs the edge
+  forward (per turn).
+- Several curves whose graph is not connected are joined by bridges (segments run by
+  no curve) so that every bounded face is a disc; bridges do not change any winding.
 
 Robustness
 ----------
 All topological decisions (orientation tests, intersection parameters, angular order,
 areas) are made in exact rational arithmetic on the binary values of the input floats,
-so the combinatorics never depends on rounding. Configurations where the arrangement is
-not well defined (collinear overlapping edges, an edge doubling back, a vertex on a
-non-adjacent edge, two polygon vertices at the same point) raise ``ValueError``, and so
-do configurations closer to one of these than ``rtol`` times the size of the polygon,
-where a slightly perturbed input would change the graph.
+so the combinatorics never depends on rounding. Configurations closer than ``rtol``
+times the size of the polygon to a degenerate one without being degenerate (a crossing
+next to a vertex, two edges almost touching, an edge almost doubling back) raise
+``ValueError``: a slightly perturbed input would change the graph.
 
 References
 ----------
@@ -44,31 +54,32 @@ from functools import cmp_to_key
 
 import numpy as np
 
-__all__ = ["Arrangement", "arrangement"]
+__all__ = ["Arrangement", "arrangement", "joint_arrangement"]
 
 
 @dataclass(frozen=True)
 class Arrangement:
-    """The planar graph and faces of a closed polygon traversed ``turns`` times.
+    """The planar graph and faces of closed polygons traversed ``turns`` times.
 
     Attributes
     ----------
     polygon : ndarray, shape (m, 2)
-        The polygon's vertices (closing vertex not repeated, consecutive duplicates
-        removed). Graph vertices ``0 .. m-1`` are these, in order.
+        The (first) polygon's vertices (closing vertex not repeated, consecutive
+        duplicates removed). Its distinct vertices are the first graph vertices, in
+        order.
     turns : int
-        How many times the curve runs around the polygon.
+        How many times the (first) curve runs around its polygon.
     vertices : ndarray, shape (nv, 2)
-        Graph vertices: the polygon's vertices, then the crossings.
+        Graph vertices: the polygons' distinct vertices, then the crossings.
     crossings : ndarray, shape (nc, 2)
-        The self-intersection points (``vertices[m:]``).
+        The points where edges cross properly (not at a polygon vertex).
     crossing_degree : ndarray, shape (nc,)
         Number of curve passages through each crossing (2 for an ordinary crossing).
     edges : ndarray, shape (ne, 2) of int
-        Graph edges ``(tail, head)`` in the order the curve traverses them.
+        Graph edges ``(tail, head)``, oriented and numbered as first traversed.
     left_face, right_face : ndarray, shape (ne,) of int
         Face on each side of each edge (bounded face index, or -1 for the unbounded
-        face).
+        face); equal on both sides of a spike or a bridge.
     faces : tuple of ndarray
         For each bounded face, its boundary as graph-vertex indices, counterclockwise.
     face_cycles : tuple of ndarray
@@ -79,7 +90,16 @@ class Arrangement:
     exact_areas : tuple of fractions.Fraction
         The same areas, exact for the binary values of the input coordinates.
     winding : ndarray, shape (nf,) of int
-        Winding number of the curve (all turns) around each bounded face.
+        Winding number around each bounded face of all curves together (all turns).
+    paths : tuple of ndarray
+        For each curve, the half-edges it runs along in one turn, in order, from its
+        first vertex.
+    curve_turns : tuple of int
+        Turns of each curve.
+    curve_winding : ndarray, shape (n_curves, nf) of int
+        Winding number of each curve (all its turns) around each bounded face.
+    bridges : int
+        Number of edges run by no curve (added to connect separate curves).
     """
 
     polygon: np.ndarray
@@ -95,6 +115,10 @@ class Arrangement:
     areas: np.ndarray
     exact_areas: tuple = field(repr=False)
     winding: np.ndarray = field(default=None)
+    paths: tuple = field(default=(), repr=False)
+    curve_turns: tuple = field(default=(), repr=False)
+    curve_winding: np.ndarray = field(default=None, repr=False)
+    bridges: int = 0
 
     @property
     def n_faces(self) -> int:
@@ -103,37 +127,51 @@ class Arrangement:
 
     @property
     def n_crossings(self) -> int:
-        """Number of distinct self-intersection points."""
+        """Number of distinct proper crossing points."""
         return len(self.crossings)
 
     @property
+    def n_curves(self) -> int:
+        """Number of curves."""
+        return len(self.paths)
+
+    @property
     def signed_area(self) -> float:
-        """Sum over faces of winding times area: the signed area of the loop."""
+        """Sum over faces of winding times area: the signed area of the curves."""
         return float(np.dot(self.winding, self.areas))
+
+    @property
+    def degenerate(self) -> bool:
+        """True if a curve touches itself or another curve, or runs an edge twice."""
+        seen: set[int] = set()
+        for p in self.paths:
+            for h in p.tolist():
+                if h // 2 in seen:
+                    return True
+                seen.add(h // 2)
+        deg = np.bincount(self.edges.ravel(), minlength=len(self.vertices))
+        n_poly = len(self.vertices) - self.n_crossings
+        return bool(np.any(deg[:n_poly] > 2))
 
     def face_polygon(self, i: int) -> np.ndarray:
         """Coordinates of the boundary of bounded face ``i`` (counterclockwise)."""
         return self.vertices[self.faces[i]]
 
 
-def _arrangement_iv(vertices, turns, rtol):
-    if isinstance(turns, bool) or not isinstance(turns, (int, np.integer)) or turns < 1:
-        raise ValueError(f"`turns` must be a positive integer; got {turns!r}.")
-    if not (isinstance(rtol, (int, float, np.floating)) and 0 <= rtol < 1e-2):
-        raise ValueError(f"`rtol` must be a number in [0, 0.01); got {rtol!r}.")
+def _polygon_iv(vertices, name="vertices"):
     try:
         v = np.asarray(vertices, dtype=float)
     except (TypeError, ValueError):
         raise ValueError(
-            f"`vertices` must be an array of shape (m, 2) of finite numbers; "
+            f"`{name}` must be an array of shape (m, 2) of finite numbers; "
             f"got {vertices!r}."
         ) from None
     if v.ndim != 2 or v.shape[1] != 2:
         raise ValueError(
-            f"`vertices` must be an array of shape (m, 2); got shape {v.shape}."
+            f"`{name}` must be an array of shape (m, 2); got shape {v.shape}."
         )
     if not np.all(np.isfinite(v)):
-        raise ValueError("`vertices` must be finite; got a NaN or infinite coordinate.")
+        raise ValueError(f"`{name}` must be finite; got a NaN or infinite coordinate.")
     # drop consecutive repeats and a repeated closing vertex: zero-length edges carry
     # no geometry
     keep = [0]
@@ -143,11 +181,23 @@ def _arrangement_iv(vertices, turns, rtol):
     if len(keep) > 1 and np.array_equal(v[keep[-1]], v[keep[0]]):
         keep.pop()
     v = v[keep]
-    if len(v) < 3:
+    if len(v) < 2:
         raise ValueError(
-            f"`vertices` must hold at least 3 distinct consecutive points; got {len(v)}."
+            f"`{name}` must hold at least 3 distinct consecutive points; got {len(v)}."
         )
-    return v, int(turns), float(rtol)
+    return v
+
+
+def _turns_iv(turns, name="turns"):
+    if isinstance(turns, bool) or not isinstance(turns, (int, np.integer)) or turns < 1:
+        raise ValueError(f"`{name}` must be a positive integer; got {turns!r}.")
+    return int(turns)
+
+
+def _rtol_iv(rtol):
+    if not (isinstance(rtol, (int, float, np.floating)) and 0 <= rtol < 1e-2):
+        raise ValueError(f"`rtol` must be a number in [0, 0.01); got {rtol!r}.")
+    return float(rtol)
 
 
 def _orient(a, b, c):
@@ -175,107 +225,94 @@ def _angle_cmp(u, w) -> int:
     return -_sign(u[0] * w[1] - u[1] * w[0])
 
 
-def arrangement(vertices, turns: int = 1, *, rtol: float = 1e-9) -> Arrangement:
-    """Crossings, planar graph, bounded faces, exact areas and winding numbers of a loop.
+def _on_segment(p, a, b) -> bool:
+    """p on the closed segment ab, given that p is on the line ab (exact)."""
+    return min(a[0], b[0]) <= p[0] <= max(a[0], b[0]) and \
+        min(a[1], b[1]) <= p[1] <= max(a[1], b[1])
 
-    Parameters
-    ----------
-    vertices : array_like, shape (m, 2)
-        The closed polygon's vertices in traversal order (the closing vertex need not
-        be repeated). Counterclockwise loops have positive winding numbers.
-    turns : int, optional
-        Number of times the curve runs around the polygon (default 1). The graph and
-        faces do not depend on it; the winding numbers are multiplied by it.
-    rtol : float, optional
-        Relative tolerance (times the diameter of the polygon) below which a
-        near-degenerate configuration is refused (default 1e-9).
 
-    Returns
-    -------
-    Arrangement
-        See :class:`Arrangement`. ``sum(winding * areas)`` equals ``turns`` times the
-        shoelace area of the polygon.
+def _param(p, a, b):
+    """Position of p along ab (exact; 0 at a, 1 at b) for p on the line ab."""
+    d = (b[0] - a[0], b[1] - a[1])
+    return ((p[0] - a[0]) * d[0] + (p[1] - a[1]) * d[1]) / (d[0] * d[0] + d[1] * d[1])
 
-    Raises
-    ------
-    ValueError
-        If the input is malformed or the arrangement is not well defined (collinear
-        overlapping edges, a vertex on a non-adjacent edge, repeated vertices, or a
-        configuration within ``rtol`` of one of these).
 
-    References
-    ----------
-    .. [1] M. de Berg et al., "Computational Geometry: Algorithms and Applications",
-       3rd ed., Springer, 2008, sec. 2.1-2.3.
-    .. [2] J. O'Rourke, "Computational Geometry in C", 2nd ed., 1998, sec. 1.3, 7.4.
+class _Components:
+    """Union-find over curves (which curves touch or cross each other)."""
 
-    Examples
-    --------
-    >>> from discretize import arrangement
-    >>> fig8 = arrangement([(0, 0), (2, 2), (2, 0), (0, 2)])
-    >>> fig8.n_crossings, fig8.n_faces, sorted(fig8.winding.tolist())
-    (1, 2, [-1, 1])
+    def __init__(self, n):
+        self.parent = list(range(n))
+
+    def find(self, i):
+        while self.parent[i] != i:
+            self.parent[i] = self.parent[self.parent[i]]
+            i = self.parent[i]
+        return i
+
+    def union(self, i, j):
+        self.parent[self.find(i)] = self.find(j)
+
+
+def _intersect(segs, owner, adjacent, tol, scale_pts):
+    """Split points of every segment, proper crossings and curve components.
+
+    ``segs[s] = (a, b)`` exact endpoints; ``owner[s]`` the curve (or bridge) index;
+    ``adjacent(s, t)`` tells whether two segments are consecutive on one curve (they
+    share the vertex ``b`` of the first and ``a`` of the second).
     """
-    poly, turns, rtol = _arrangement_iv(vertices, turns, rtol)
-    m = len(poly)
-    scale = float(np.hypot(*(poly.max(axis=0) - poly.min(axis=0))))
-    tol = rtol * scale
-    P = [(Fraction(x), Fraction(y)) for x, y in poly.tolist()]
-    A, B = poly, np.roll(poly, -1, axis=0)  # edge i runs A[i] -> B[i]
-    lo = np.minimum(A, B) - tol
-    hi = np.maximum(A, B) + tol
+    ns = len(segs)
+    comps = _Components(max(owner) + 1)
+    A = np.array([[float(x) for x in s[0]] for s in segs])
+    B = np.array([[float(x) for x in s[1]] for s in segs])
+    lo, hi = np.minimum(A, B) - tol, np.maximum(A, B) + tol
     overlap = np.all(
         (lo[:, None, :] <= hi[None, :, :]) & (lo[None, :, :] <= hi[:, None, :]), axis=-1
     )
     ii, jj = np.nonzero(np.triu(overlap, k=1))
-
-    splits: list[list[tuple[Fraction, int]]] = [[] for _ in range(m)]
-    crossing_id: dict[tuple[Fraction, Fraction], int] = {}
-    crossing_pts: list[tuple[Fraction, Fraction]] = []
-    crossing_deg: list[int] = []
-    touching: list[str] = []
+    splits: list[set] = [set() for _ in range(ns)]
+    crossing_order: list = []
+    crossing_count: dict = {}
     for i, j in zip(ii.tolist(), jj.tolist()):
-        a, b = P[i], P[(i + 1) % m]
-        c, d = P[j], P[(j + 1) % m]
-        if j == i + 1 or (i == 0 and j == m - 1):
-            # adjacent edges share one vertex; they must not fold back onto each other
-            s, p, q = (b, a, d) if j == i + 1 else (a, b, c)
-            along = (p[0] - s[0]) * (q[0] - s[0]) + (p[1] - s[1]) * (q[1] - s[1])
-            if along > 0 and (
-                _orient(s, p, q) == 0
-                or _point_segment_distance(q, s, p) <= tol
-                or _point_segment_distance(p, s, q) <= tol
-            ):
-                raise ValueError(
-                    f"`vertices`: edges {i} and {j} double back over each other at "
-                    f"vertex {(float(s[0]), float(s[1]))}; the arrangement is not "
-                    "well defined."
-                )
-            continue
+        a, b = segs[i]
+        c, d = segs[j]
         o1, o2 = _orient(a, b, c), _orient(a, b, d)
         o3, o4 = _orient(c, d, a), _orient(c, d, b)
         s1, s2, s3, s4 = map(_sign, (o1, o2, o3, o4))
+        adj = adjacent(i, j)
         if s1 == 0 and s2 == 0:
-            # collinear: refuse any contact (overlap or touching end to end)
-            ax = 0 if abs(b[0] - a[0]) >= abs(b[1] - a[1]) else 1
-            i0, i1 = sorted((a[ax], b[ax]))
-            j0, j1 = sorted((c[ax], d[ax]))
-            if i0 <= j1 and j0 <= i1:
+            # collinear: each endpoint lying on the other segment splits it
+            touched = False
+            for p in (c, d):
+                if _on_segment(p, a, b):
+                    splits[i].add(p)
+                    touched = True
+            for p in (a, b):
+                if _on_segment(p, c, d):
+                    splits[j].add(p)
+                    touched = True
+            if touched:
+                comps.union(owner[i], owner[j])
+            continue
+        if adj:
+            # consecutive edges share one vertex; refuse an almost-fold back
+            s, p, q = adj
+            along = (p[0] - s[0]) * (q[0] - s[0]) + (p[1] - s[1]) * (q[1] - s[1])
+            if along > 0 and (_point_segment_distance(q, s, p) <= tol
+                              or _point_segment_distance(p, s, q) <= tol):
                 raise ValueError(
-                    f"`vertices`: edges {i} and {j} are collinear and overlap or touch; "
-                    "the arrangement is not well defined."
+                    f"`vertices`: two consecutive edges almost double back over each "
+                    f"other at vertex {(float(s[0]), float(s[1]))}; the arrangement is "
+                    "too close to degenerate."
                 )
-        elif s1 * s2 <= 0 and s3 * s4 <= 0:
-            if 0 in (s1, s2, s3, s4):
-                # reported after the loop: a collinear overlap, if any, explains it
-                touching.append(
-                    f"`vertices`: a vertex of edge {i} or {j} lies on the other edge "
-                    "(the curve touches itself); the arrangement is not well defined."
-                )
-                continue
+            continue
+        if s1 * s2 <= 0 and s3 * s4 <= 0:
             t = o3 / (o3 - o4)
-            u = o1 / (o1 - o2)
             x = (a[0] + t * (b[0] - a[0]), a[1] + t * (b[1] - a[1]))
+            splits[i].add(x)
+            splits[j].add(x)
+            comps.union(owner[i], owner[j])
+            if 0 in (s1, s2, s3, s4):
+                continue  # a touching point: a vertex of one segment on the other
             xf = (float(x[0]), float(x[1]))
             near = min(np.hypot(xf[0] - float(z[0]), xf[1] - float(z[1])) for z in (a, b, c, d))
             if near <= tol:
@@ -283,44 +320,89 @@ def arrangement(vertices, turns: int = 1, *, rtol: float = 1e-9) -> Arrangement:
                     f"`vertices`: edges {i} and {j} cross within `rtol` of a vertex at "
                     f"{xf}; the arrangement is too close to degenerate."
                 )
-            k = crossing_id.get(x)
-            if k is None:
-                k = crossing_id[x] = len(crossing_pts)
-                crossing_pts.append(x)
-                crossing_deg.append(0)
-            crossing_deg[k] += 1
-            splits[i].append((t, m + k))
-            splits[j].append((u, m + k))
+            if x not in crossing_count:
+                crossing_order.append(x)
+                crossing_count[x] = 0
+            crossing_count[x] += 1
         else:
             dist = min(
                 _point_segment_distance(c, a, b), _point_segment_distance(d, a, b),
                 _point_segment_distance(a, c, d), _point_segment_distance(b, c, d),
             )
             if dist <= tol:
-                touching.append(
+                raise ValueError(
                     f"`vertices`: edges {i} and {j} come within {dist:.3g} of each "
-                    f"other (`rtol` * diameter = {tol:.3g}); the arrangement is too "
-                    "close to degenerate."
+                    f"other (`rtol` * diameter = {tol:.3g}) without touching; the "
+                    "arrangement is too close to degenerate."
                 )
-    if touching:
-        raise ValueError(touching[0])
-    # a point where k edges meet is passed k times; ordinary crossings count 2 passages
-    crossing_deg = [int(round((1 + np.sqrt(1 + 8 * c)) / 2)) for c in crossing_deg]
-    cf = np.array([(float(x), float(y)) for x, y in crossing_pts], dtype=float).reshape(-1, 2)
-    if len(cf) > 1:
-        dd = np.hypot(*(cf[:, None, :] - cf[None, :, :]).transpose(2, 0, 1))
-        np.fill_diagonal(dd, np.inf)
-        if dd.min() <= tol:
-            raise ValueError(
-                f"`vertices`: two distinct crossings lie within {dd.min():.3g} of each "
-                "other; the arrangement is too close to degenerate."
-            )
+    return splits, crossing_order, crossing_count, comps
 
-    exact_pts = P + crossing_pts
+
+def _build(polys, turns, rtol, bridges=()):
+    """The arrangement of exact polygons ``polys`` plus bridge segments."""
+    P = [[(Fraction(x), Fraction(y)) for x, y in p.tolist()] for p in polys]
+    allpts = np.vstack(polys)
+    scale = float(np.hypot(*(allpts.max(axis=0) - allpts.min(axis=0))))
+    tol = rtol * scale
+    segs, owner, local = [], [], []
+    for c, pts in enumerate(P):
+        m = len(pts)
+        for i in range(m):
+            segs.append((pts[i], pts[(i + 1) % m]))
+            owner.append(c)
+            local.append((c, i, m))
+    for k, (a, b) in enumerate(bridges):
+        segs.append((a, b))
+        owner.append(len(P) + k)  # a bridge: its own component, run by no curve
+        local.append(None)
+
+    def adjacent(s, t):
+        # consecutive edges of one curve: (shared vertex, other end of s, of t)
+        if local[s] is None or local[t] is None or local[s][0] != local[t][0]:
+            return None
+        _, i, m = local[s]
+        _, j, _ = local[t]
+        if m < 3:
+            return None
+        if j == (i + 1) % m:
+            return segs[s][1], segs[s][0], segs[t][1]
+        if i == (j + 1) % m:
+            return segs[s][0], segs[s][1], segs[t][0]
+        return None
+
+    splits, crossing_order, crossing_count, comps = _intersect(
+        segs, owner, adjacent, tol, allpts)
+
+    # graph vertices: the polygons' distinct vertices in order, then the crossings
+    vid: dict = {}
+    for pts in P:
+        for p in pts:
+            vid.setdefault(p, len(vid))
+    n_poly = len(vid)
+    for x in crossing_order:
+        vid.setdefault(x, len(vid))
+    for s in range(len(segs)):  # bridge ends and touching points not yet numbered
+        for x in sorted(splits[s]):
+            vid.setdefault(x, len(vid))
+    exact_pts = [None] * len(vid)
+    for p, k in vid.items():
+        exact_pts[k] = p
+
+    edge_id: dict = {}
     edges: list[tuple[int, int]] = []
-    for i in range(m):
-        chain = [i] + [k for _, k in sorted(splits[i])] + [(i + 1) % m]
-        edges.extend(zip(chain[:-1], chain[1:]))
+    paths: list[list[int]] = [[] for _ in P]
+    for s, (a, b) in enumerate(segs):
+        inner = sorted((x for x in splits[s] if x != a and x != b),
+                       key=lambda x: _param(x, a, b))
+        chain = [vid[a]] + [vid[x] for x in inner] + [vid[b]]
+        for u, w in zip(chain[:-1], chain[1:]):
+            key = (min(u, w), max(u, w))
+            e = edge_id.get(key)
+            if e is None:
+                e = edge_id[key] = len(edges)
+                edges.append((u, w))
+            if owner[s] < len(P):
+                paths[owner[s]].append(2 * e if edges[e] == (u, w) else 2 * e + 1)
     ne, nv = len(edges), len(exact_pts)
 
     # half-edges around each vertex in counterclockwise order
@@ -342,6 +424,9 @@ def arrangement(vertices, turns: int = 1, *, rtol: float = 1e-9) -> Arrangement:
         e = h // 2
         return edges[e][1] if h % 2 == 0 else edges[e][0]
 
+    def tail(h):
+        return edges[h // 2][0] if h % 2 == 0 else edges[h // 2][1]
+
     # next half-edge keeping the face on the left: the one just clockwise of the twin
     face_of = np.full(2 * ne, -1, dtype=int)
     cycles = []
@@ -356,9 +441,6 @@ def arrangement(vertices, turns: int = 1, *, rtol: float = 1e-9) -> Arrangement:
             h = out[v][(position[h ^ 1] - 1) % len(out[v])]
         cycles.append(cyc)
 
-    def tail(h):
-        return edges[h // 2][0] if h % 2 == 0 else edges[h // 2][1]
-
     twice_area = []
     for cyc in cycles:
         pts = [exact_pts[tail(h)] for h in cyc]
@@ -366,48 +448,88 @@ def arrangement(vertices, turns: int = 1, *, rtol: float = 1e-9) -> Arrangement:
             sum(p[0] * q[1] - q[0] * p[1] for p, q in zip(pts, pts[1:] + pts[:1]))
         )
     outer = [f for f, s in enumerate(twice_area) if s < 0]
-    # a connected plane graph has exactly one face with clockwise boundary (Euler)
-    if len(outer) != 1 or len(cycles) != ne - nv + 2:
+    connected = len({comps.find(c) for c in range(len(P))}) == 1
+    if connected and (len(outer) != 1 or len(cycles) != ne - nv + 2):
         raise ValueError(
             "`vertices`: the polygon's graph is degenerate (no consistent face "
             "structure); the arrangement is not well defined."
         )
-    bounded = [f for f in range(len(cycles)) if f != outer[0]]
+    return dict(P=P, exact_pts=exact_pts, n_poly=n_poly, edges=edges, paths=paths,
+                cycles=cycles, twice_area=twice_area, outer=outer, tail=tail,
+                face_of=face_of, comps=comps, connected=connected,
+                crossing_order=crossing_order, crossing_count=crossing_count,
+                n_bridges=len(bridges), tol=tol)
+
+
+def _bridge_candidates(P, comps):
+    """Segments joining a curve's vertex to a vertex of another component, shortest
+    first."""
+    groups: dict[int, list] = {}
+    for c, pts in enumerate(P):
+        groups.setdefault(comps.find(c), []).extend(pts)
+    keys = list(groups)
+    base, rest = groups[keys[0]], groups[keys[1]]
+    cand = []
+    for p in rest:
+        for q in base:
+            d2 = (p[0] - q[0]) ** 2 + (p[1] - q[1]) ** 2
+            cand.append((d2, p, q))
+    cand.sort(key=lambda z: z[0])
+    return [(p, q) for _, p, q in cand]
+
+
+def _finish(g, polys, turns) -> Arrangement:
+    edges, cycles, exact_pts = g["edges"], g["cycles"], g["exact_pts"]
+    ne = len(edges)
+    outer = g["outer"][0]
+    face_of, tail = g["face_of"], g["tail"]
+    bounded = [f for f in range(len(cycles)) if f != outer]
     index = {f: k for k, f in enumerate(bounded)}
-    index[outer[0]] = -1
+    index[outer] = -1
     left = np.array([index[face_of[2 * e]] for e in range(ne)], dtype=int)
     right = np.array([index[face_of[2 * e + 1]] for e in range(ne)], dtype=int)
 
-    # winding numbers: +1 per turn crossing the curve from its right to its left
     nf = len(bounded)
-    wind = {-1: 0}
     adj: list[list[tuple[int, int]]] = [[] for _ in range(nf + 1)]
     for e in range(ne):
-        adj[right[e]].append((left[e], 1))
-        adj[left[e]].append((right[e], -1))
-    queue = deque([-1])
-    while queue:
-        f = queue.popleft()
-        for g, dw in adj[f]:
-            if g not in wind:
-                wind[g] = wind[f] + dw
-                queue.append(g)
-    winding = np.array([wind[f] for f in range(nf)], dtype=int)
-    wl = np.where(left >= 0, winding[np.maximum(left, 0)], 0)
-    wr = np.where(right >= 0, winding[np.maximum(right, 0)], 0)
-    if np.any(wl - wr != 1):
-        raise ValueError("`vertices`: inconsistent winding numbers; degenerate input.")
+        adj[right[e]].append((left[e], e))
+        adj[left[e]].append((right[e], e))
+    curve_winding = []
+    for path in g["paths"]:
+        net = np.zeros(ne, dtype=int)
+        for h in path:
+            net[h // 2] += 1 if h % 2 == 0 else -1
+        wind = {-1: 0}
+        queue = deque([-1])
+        while queue:
+            f = queue.popleft()
+            for h, e in adj[f]:
+                if h not in wind:
+                    wind[h] = wind[f] + (net[e] if h == left[e] else -net[e])
+                    queue.append(h)
+        w = np.array([wind[f] for f in range(nf)], dtype=int)
+        wl = np.where(left >= 0, w[np.maximum(left, 0)], 0)
+        wr = np.where(right >= 0, w[np.maximum(right, 0)], 0)
+        if np.any(wl - wr != net):
+            raise ValueError("`vertices`: inconsistent winding numbers; degenerate input.")
+        curve_winding.append(w)
+    curve_winding = np.array(curve_winding, dtype=int).reshape(len(polys), nf)
+    curve_winding = curve_winding * np.asarray(turns, dtype=int)[:, None]
 
-    exact_areas = tuple(twice_area[f] / 2 for f in bounded)
+    crossing_pts = [x for x in g["crossing_order"] if g["exact_pts"].index(x) >= g["n_poly"]]
+    # a point where k edges meet pairwise is counted k (k - 1) / 2 times
+    deg = [int(round((1 + np.sqrt(1 + 8 * g["crossing_count"][x])) / 2)) for x in crossing_pts]
+    exact_areas = tuple(g["twice_area"][f] / 2 for f in bounded)
     verts = np.array([(float(x), float(y)) for x, y in exact_pts], dtype=float)
     faces = tuple(np.array([tail(h) for h in cycles[f]], dtype=int) for f in bounded)
     face_cycles = tuple(np.array(cycles[f], dtype=int) for f in bounded)
+    cross = np.array([(float(x), float(y)) for x, y in crossing_pts], dtype=float).reshape(-1, 2)
     return Arrangement(
-        polygon=poly,
-        turns=turns,
+        polygon=polys[0],
+        turns=int(turns[0]),
         vertices=verts,
-        crossings=verts[m:],
-        crossing_degree=np.array(crossing_deg, dtype=int),
+        crossings=cross,
+        crossing_degree=np.array(deg, dtype=int),
         edges=np.array(edges, dtype=int).reshape(-1, 2),
         left_face=left,
         right_face=right,
@@ -415,5 +537,145 @@ def arrangement(vertices, turns: int = 1, *, rtol: float = 1e-9) -> Arrangement:
         face_cycles=face_cycles,
         areas=np.array([float(a) for a in exact_areas]),
         exact_areas=exact_areas,
-        winding=turns * winding,
+        winding=curve_winding.sum(axis=0),
+        paths=tuple(np.array(p, dtype=int) for p in g["paths"]),
+        curve_turns=tuple(int(t) for t in turns),
+        curve_winding=curve_winding,
+        bridges=g["n_bridges"],
     )
+
+
+def _check_crossings_apart(g):
+    cf = np.array([(float(x), float(y)) for x, y in g["crossing_order"]],
+                  dtype=float).reshape(-1, 2)
+    if len(cf) > 1:
+        dd = np.hypot(*(cf[:, None, :] - cf[None, :, :]).transpose(2, 0, 1))
+        np.fill_diagonal(dd, np.inf)
+        if dd.min() <= g["tol"]:
+            raise ValueError(
+                f"`vertices`: two distinct crossings lie within {dd.min():.3g} of each "
+                "other; the arrangement is too close to degenerate."
+            )
+
+
+def _arrange(polys, turns, rtol) -> Arrangement:
+    bridges: list = []
+    g = _build(polys, turns, rtol)
+    while not g["connected"]:
+        for attempt, seg in enumerate(_bridge_candidates(g["P"], g["comps"])):
+            try:
+                trial = _build(polys, turns, rtol, bridges + [seg])
+            except ValueError:
+                if attempt >= 50:
+                    raise
+                continue
+            bridges.append(seg)
+            g = trial
+            break
+    _check_crossings_apart(g)
+    return _finish(g, polys, turns)
+
+
+def arrangement(vertices, turns: int = 1, *, rtol: float = 1e-9) -> Arrangement:
+    """Crossings, planar graph, bounded faces, exact areas and winding numbers of a loop.
+
+    Parameters
+    ----------
+    vertices : array_like, shape (m, 2)
+        The closed polygon's vertices in traversal order (the closing vertex need not
+        be repeated). Counterclockwise loops have positive winding numbers. The polygon
+        may touch itself, run back along an edge or overlap itself (see the module
+        docstring).
+    turns : int, optional
+        Number of times the curve runs around the polygon (default 1). The graph and
+        faces do not depend on it; the winding numbers are multiplied by it.
+    rtol : float, optional
+        Relative tolerance (times the diameter of the polygon) below which a
+        near-degenerate configuration is refused (default 1e-9).
+
+    Returns
+    -------
+    Arrangement
+        See :class:`Arrangement`. ``sum(winding * areas)`` equals ``turns`` times the
+        shoelace area of the polygon.
+
+    Raises
+    ------
+    ValueError
+        If the input is malformed or within ``rtol`` of a degenerate configuration
+        without being one.
+
+    References
+    ----------
+    .. [1] M. de Berg et al., "Computational Geometry: Algorithms and Applications",
+       3rd ed., Springer, 2008, sec. 2.1-2.3.
+    .. [2] J. O'Rourke, "Computational Geometry in C", 2nd ed., 1998, sec. 1.3, 7.4.
+
+    Examples
+    --------
+    >>> from discretize import arrangement
+    >>> fig8 = arrangement([(0, 0), (2, 2), (2, 0), (0, 2)])
+    >>> fig8.n_crossings, fig8.n_faces, sorted(fig8.winding.tolist())
+    (1, 2, [-1, 1])
+    >>> touching = arrangement([(0, 0), (1, 0), (1, 1), (2, 1), (2, 2), (1, 2), (1, 1), (0, 1)])
+    >>> touching.n_crossings, touching.n_faces, touching.winding.tolist()
+    (0, 2, [1, 1])
+    """
+    turns = _turns_iv(turns)
+    rtol = _rtol_iv(rtol)
+    v = _polygon_iv(vertices)
+    if len(v) < 3:
+        raise ValueError(
+            f"`vertices` must hold at least 3 distinct consecutive points; got {len(v)}."
+        )
+    return _arrange([v], [turns], rtol)
+
+
+def joint_arrangement(curves, turns=None, *, rtol: float = 1e-9) -> Arrangement:
+    """The arrangement of several closed polygons drawn together.
+
+    Parameters
+    ----------
+    curves : sequence of array_like, each of shape (m_i, 2)
+        The polygons (as in :func:`arrangement`).
+    turns : sequence of int, optional
+        Turns of each curve (default all 1).
+    rtol : float, optional
+        As in :func:`arrangement`.
+
+    Returns
+    -------
+    Arrangement
+        ``paths[i]`` and ``curve_winding[i]`` describe curve ``i``; separate curves
+        are joined by ``bridges`` edges that no curve runs.
+
+    Examples
+    --------
+    >>> from discretize import joint_arrangement
+    >>> nested = joint_arrangement([[(0, 0), (3, 0), (3, 3), (0, 3)],
+    ...                             [(1, 1), (2, 1), (2, 2), (1, 2)]])
+    >>> nested.n_faces, nested.curve_winding.tolist(), nested.bridges
+    (2, [[1, 1], [0, 1]], 1)
+    """
+    try:
+        curves = list(curves)
+    except TypeError:
+        raise ValueError(f"`curves` must be a sequence of polygons; got {curves!r}.") from None
+    if not curves:
+        raise ValueError("`curves` must hold at least one polygon.")
+    polys = []
+    for i, c in enumerate(curves):
+        v = _polygon_iv(c, f"curves[{i}]")
+        if len(v) < 3:
+            raise ValueError(
+                f"`curves[{i}]` must hold at least 3 distinct consecutive points; got {len(v)}."
+            )
+        polys.append(v)
+    if turns is None:
+        turns = [1] * len(polys)
+    turns = [_turns_iv(t, f"turns[{i}]") for i, t in enumerate(turns)]
+    if len(turns) != len(polys):
+        raise ValueError(
+            f"`turns` must give one count per curve ({len(polys)}); got {len(turns)}."
+        )
+    return _arrange(polys, turns, _rtol_iv(rtol))

@@ -15,9 +15,19 @@ ExactValue, exact_wilson_loop
 
 Exact evaluation of any polygonal loop
 --------------------------------------
-evaluate_polygon, evaluate_word, ExactEvaluation, face_measures (lasso decomposition and
-tensor contraction); lasso_word, reduce_for_trace, ReducedWord, free_reduce,
-cyclic_reduce, inverse_word (words in independent face variables)
+evaluate_polygon, evaluate_word, ExactEvaluation, face_measures (lasso decomposition,
+closed forms, tensor contraction; any representation; degenerate loops);
+evaluate_polygons, evaluate_words (correlators of several loops); lasso_word,
+lasso_words, reduce_for_trace, reduce_for_traces, ReducedWord, free_reduce,
+cyclic_reduce, inverse_word (words in independent face variables); ExactRouteError
+(which limit was hit)
+
+Laws, characters, large N
+-------------------------
+WilsonLaw, law_character (conjugation-invariant laws of face variables);
+wilson_lattice_exact (the Wilson action on any lattice loop); class_weights,
+adams_decomposition, weyl_dimension, dominant_casimir, wilson_character (U(N) and SU(N)
+characters by weights); master_field_word (N -> infinity, free unitary Brownian motions)
 """
 
 from ._simple import *  # noqa: F401,F403
@@ -28,3 +38,6 @@ from ._sphere import *  # noqa: F401,F403
 from ._dispatch import *  # noqa: F401,F403
 from ._word import *  # noqa: F401,F403
 from ._evaluate import *  # noqa: F401,F403
+from ._laws import *  # noqa: F401,F403
+from ._characters import *  # noqa: F401,F403
+from ._master import *  # noqa: F401,F403

@@ -13,9 +13,12 @@ Routes, in order (the first that applies wins):
    representation (or the class function ``power:p``, giving ``tr U^(p n)``):
    :func:`unitary_wound_loop`.
 4. ``polygon-evaluation``: otherwise ``holonomy.exact.evaluate_polygon`` (the lasso
-   decomposition and tensor contraction), when it supports the case.
+   decomposition; closed forms for independent lobes and wound pieces, else the tensor
+   contraction in the representation's own matrices), any representation with
+   matrices; degenerate loops (touching points, retraced edges) included.
 
-Otherwise the answer is None. The measure of a region is ``sum_cells |n_cell| mu(cell)``
+Otherwise :class:`ExactRouteError` says which limit was hit (``size``,
+``representation``, ``geometry``). The measure of a region is ``sum_cells |n_cell| mu(cell)``
 for lattice loops with the given :class:`discretize.AreaForm`; for polygons the
 density integrated over each face of the arrangement.
 """
@@ -29,10 +32,11 @@ import numpy as np
 
 from discretize import AreaForm, LatticeLoop, Loop, arrangement
 
+from ._laws import ExactRouteError
 from ._simple import simple_loop
 from ._unitary import unitary_wound_loop
 
-__all__ = ["ExactValue", "exact_wilson_loop"]
+__all__ = ["ExactValue", "exact_wilson_loop", "lattice_polygon"]
 
 
 @dataclass(frozen=True)
@@ -71,46 +75,34 @@ class _Shape:
     area: AreaForm  # the density, passed on to the general route
     arrangement: object = None  # a polygon's arrangement when its face measures are a
     # curve's exact face areas (``Loop.face_areas``): the general route then uses them
-    touching: tuple | None = None  # a lattice loop meeting itself: (vertices, visit
-    # index of each vertex, spacing), for the separated evaluation
 
 
-def _lattice_shape(loop: LatticeLoop, area: AreaForm) -> _Shape:
-    w = loop.winding_numbers()
-    mu = area.cell_measures(loop.grid)
+def lattice_polygon(loop: LatticeLoop):
+    """``(corners, periods)``: one period of a lattice loop as polygon corners (spikes
+    and retraced runs kept: a reversal is a corner) and how many times it repeats."""
     nodes = loop.nodes[:-1]
     m = len(nodes)
     period = m
-    # the smallest period p dividing m with nodes[i] == nodes[i + p]
     for p in range(1, m):
         if m % p == 0 and np.array_equal(nodes, np.roll(nodes, -p, axis=0)):
             period = p
             break
     one = nodes[:period]
-    simple_period = len(np.unique(one, axis=0)) == period
-    turns = m // period if simple_period else 0
     coords = loop.grid.node_coordinates(one)
-    # keep the corners only (drop nodes in the middle of straight runs)
     d_in = one - np.roll(one, 1, axis=0)
     d_out = np.roll(one, -1, axis=0) - one
-    keep = np.any(d_in != d_out, axis=1)
-    shape = _Shape(w, mu, simple_period and turns == 1, turns, coords[keep], m // period, area)
-    if not simple_period:
-        # a lattice loop that meets itself shares nodes (and maybe edges) between its
-        # passages: no polygon arrangement is defined. Keep every revisited node and
-        # push its j-th visit by j * eps along a direction off the axes; the general
-        # route extrapolates eps -> 0 (see _general_route).
-        _, first, inverse, counts = np.unique(one, axis=0, return_index=True,
-                                              return_inverse=True, return_counts=True)
-        inverse = inverse.ravel()
-        visit = np.zeros(period, dtype=np.int64)
-        seen: dict[int, int] = {}
-        for k, node in enumerate(inverse):
-            visit[k] = seen.get(node, 0)
-            seen[node] = visit[k] + 1
-        keep |= counts[inverse] > 1
-        shape.touching = (coords[keep], visit[keep], loop.grid.spacing)
-    return shape
+    return coords[np.any(d_in != d_out, axis=1)], m // period
+
+
+def _lattice_shape(loop: LatticeLoop, area: AreaForm) -> _Shape:
+    w = loop.winding_numbers()
+    mu = area.cell_measures(loop.grid)
+    corners, periods = lattice_polygon(loop)
+    nodes = loop.nodes[:-1]
+    period = len(nodes) // periods
+    simple_period = len(np.unique(nodes[:period], axis=0)) == period
+    turns = periods if simple_period else 0
+    return _Shape(w, mu, simple_period and turns == 1, turns, corners, periods, area)
 
 
 def _polygon_shape(loop: Loop, area: AreaForm) -> _Shape:
@@ -128,7 +120,8 @@ def _polygon_shape(loop: Loop, area: AreaForm) -> _Shape:
         except ImportError:
             face_measures = None
         mu = None if face_measures is None else np.asarray(face_measures(arr, area), dtype=float)
-    simple_period = arr.n_crossings == 0 and arr.n_faces == 1
+    simple_period = (arr.n_crossings == 0 and arr.n_faces == 1
+                     and abs(int(arr.winding[0])) == loop.turns)
     turns = loop.turns if simple_period else 0
     return _Shape(np.asarray(arr.winding), mu, simple_period and turns == 1, turns,
                   loop.vertices, loop.turns, area, curve_faces)
@@ -172,7 +165,7 @@ def _power_of(rep) -> int | None:
     return None
 
 
-def exact_wilson_loop(group, rep, loop, *, coupling: float, area=None) -> ExactValue | None:
+def exact_wilson_loop(group, rep, loop, *, coupling: float, area=None) -> ExactValue:
     r"""The exact continuum Wilson loop ``E[chi_pi(H)] / d_pi``, if a route applies.
 
     Parameters
@@ -191,8 +184,13 @@ def exact_wilson_loop(group, rep, loop, *, coupling: float, area=None) -> ExactV
 
     Returns
     -------
-    ExactValue or None
-        None if no closed form applies and no general evaluation is available.
+    ExactValue
+
+    Raises
+    ------
+    ExactRouteError
+        No route applies; its ``limit`` (``"size"``, ``"representation"`` or
+        ``"geometry"``) and message say why.
 
     References
     ----------
@@ -237,56 +235,23 @@ def exact_wilson_loop(group, rep, loop, *, coupling: float, area=None) -> ExactV
     return _general_route(group, rep, shape, lam)
 
 
-def _general_route(group, rep, shape: _Shape, lam: float) -> ExactValue | None:
-    try:  # the general route; may be absent
-        from ._evaluate import evaluate_polygon, evaluate_word
-        from ._word import lasso_word
-    except ImportError:
-        return None
+def _general_route(group, rep, shape: _Shape, lam: float) -> ExactValue:
+    from ._evaluate import evaluate_polygon, evaluate_word
+    from ._word import lasso_word
+
+    if shape.vertices is None:
+        raise ExactRouteError("geometry", "the loop has no polygon to evaluate")
     try:
         if shape.arrangement is not None:  # a curve: its exact face areas
             out = evaluate_word(group, lasso_word(shape.arrangement), list(shape.measures),
                                 coupling=lam, rep=rep.name)
-        elif shape.touching is not None:
-            return _separated_route(group, rep, shape, lam, evaluate_polygon)
-        else:
+        else:  # touching points and retraced edges are part of the arrangement
             out = evaluate_polygon(group, shape.vertices, shape.periods, coupling=lam,
                                    rep=rep.name, area_density=shape.area)
-    except (ValueError, NotImplementedError):
-        # not supported by the general route (representation, size, degenerate loop)
-        return None
-    value = getattr(out, "value", out)
-    return ExactValue(complex(value), "polygon-evaluation",
-                      details={"turns": shape.periods, "evaluation": out})
-
-
-#: separation of the passages of a lattice loop through a shared node, in units of the
-#: spacing; the value is extrapolated to 0 from eps, 2 eps and 3 eps
-_SEPARATION = 1e-5
-
-
-def _separated_route(group, rep, shape: _Shape, lam: float, evaluate_polygon):
-    """A lattice loop that meets itself (a figure eight through one node, passages
-    along a shared edge): evaluate the polygon whose j-th visit of a node is moved by
-    ``j * eps * (1, phi)`` (phi the golden ratio, so no edge stays on an axis and no
-    two passages overlap), at eps, 2 eps and 3 eps, and extrapolate to eps = 0 with
-    the quadratic through the three values: ``v(0) = 3 v(eps) - 3 v(2 eps) + v(3 eps)``.
-
-    For eps small enough the arrangement's combinatorics does not change, its face
-    areas are polynomials of degree 2 in eps and the value is smooth in the areas, so
-    the extrapolation leaves an O(eps^3) error, about 1e-15 relative with eps = 1e-5
-    spacings (Richardson extrapolation; L. F. Richardson, Phil. Trans. R. Soc. A 210
-    (1911) 307-357).
-    """
-    verts, visit, h = shape.touching
-    direction = np.array([1.0, (1 + 5 ** 0.5) / 2])
-    values = []
-    for scale in (1, 2, 3):
-        moved = verts + (scale * _SEPARATION * h * visit)[:, None] * direction
-        out = evaluate_polygon(group, moved, shape.periods, coupling=lam, rep=rep.name,
-                               area_density=shape.area)
-        values.append(complex(getattr(out, "value", out)))
-    value = 3 * values[0] - 3 * values[1] + values[2]
-    return ExactValue(value, "polygon-evaluation",
-                      details={"turns": shape.periods, "separated": _SEPARATION,
-                               "extrapolation": abs(value - values[0])})
+    except ExactRouteError:
+        raise
+    except ValueError as exc:  # the arrangement refused the geometry: say so
+        raise ExactRouteError("geometry", str(exc)) from None
+    return ExactValue(complex(out.value), "polygon-evaluation",
+                      details={"turns": shape.periods, "route": out.method,
+                               "evaluation": out})

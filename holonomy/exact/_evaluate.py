@@ -1,28 +1,41 @@
-"""Exact Wilson loops of any polygonal loop: lasso decomposition + tensor contraction.
+"""Exact Wilson loops of any polygonal loop: lasso decomposition, closed forms and
+tensor contraction.
 
 ``evaluate_polygon`` computes ``E[tr pi(H_loop)] / dim pi`` for the continuum Yang-Mills
-holonomy of a closed polygon (any number of self-intersections and turns) in the
-fundamental representation of a group from :mod:`holonomy.groups`:
+holonomy of a closed polygon (any number of self-intersections and turns; touching
+points and retraced edges included) in any representation pi of a group from
+:mod:`holonomy.groups` that has matrices (and the class functions ``tr U^p``):
 
 1. the polygon's arrangement (:func:`discretize.arrangement`): faces, exact areas;
 2. the loop as a word in independent lasso variables ``X_F``, each distributed as the
-   heat kernel at time ``lambda mu(F)`` (:func:`holonomy.exact.lasso_word`);
+   heat kernel at time ``lambda mu(F)`` (:func:`holonomy.exact.lasso_word`), or with any
+   other conjugation-invariant law (:class:`holonomy.exact.WilsonLaw`);
 3. reduction of the word (free and cyclic cancellation, merging of variables that always
    occur as one block, dropping of variables occurring once with the factor
-   ``exp(-c t / 2)``);
-4. contraction of the moment tensors ``E[V^{(x)p} (x) conj(V)^{(x)q}] = exp(t L_{p,q})``
-   along the word (:mod:`holonomy.exact._tensor`).
+   ``E[chi_pi(X)] / dim pi``);
+4. closed forms where the reduced word has one: pieces sharing no variable (lobes)
+   factor by Schur's lemma; a power ``X^n`` of one variable is the Adams operation
+   psi^n followed by Racah-Speiser reduction into irreducible characters (U(N), SU(N):
+   :mod:`holonomy.exact._characters`); at N = infinity the free route
+   (:mod:`holonomy.exact._master`);
+5. otherwise the contraction of the moment tensors
+   ``E[V^{(x)p} (x) conj(V)^{(x)q}] = exp(t L_{p,q})`` along the word, with ``L`` built
+   from the representation's own matrices ``pi(X_a)`` (:mod:`holonomy.exact._tensor`).
+
+Several loops (``evaluate_polygons``, ``evaluate_words``) are several words in the same
+face variables: ``E[prod_i tr pi(w_i)]`` is one contraction.
 
 The value is an entire function of the face times, so face areas may be negative or
 complex: the result is then the analytic continuation (no measure exists). With
 ``exact=True`` the value is a sympy expression (``sum c exp(sum mu_F t_F)`` with rational
 ``c`` and ``mu``) in the coupling and areas given, so its Taylor coefficients in the
-coupling are exact.
+coupling are exact (tensor route only).
 
-Cost: a variable occurring ``p + q`` times needs an ``N^{p+q}`` square matrix and its
-eigen-decomposition; the contraction costs about ``N^{(length of the reduced word)}`` in
-the worst case. SU(2) loops with a handful of crossings take milliseconds; beyond
-``N^{p+q}`` of a few thousand, use Monte Carlo.
+Cost: a variable occurring ``p + q`` times needs a ``d^{p+q}`` square matrix (d the
+dimension of pi) and its eigen-decomposition; the contraction costs about
+``d^{(length of the reduced word)}`` in the worst case. When no route applies,
+:class:`holonomy.exact.ExactRouteError` names the limit (``size``, ``representation``,
+``geometry``).
 
 References
 ----------
@@ -44,9 +57,11 @@ from fractions import Fraction
 import numpy as np
 
 from ._tensor import contract_exact, contract_numeric, contraction_labels
-from ._word import ReducedWord, lasso_word, reduce_for_trace
+from ._laws import ExactRouteError
+from ._word import ReducedWord, lasso_words, reduce_for_trace, reduce_for_traces
 
-__all__ = ["ExactEvaluation", "evaluate_polygon", "evaluate_word", "face_measures"]
+__all__ = ["ExactEvaluation", "evaluate_polygon", "evaluate_polygons", "evaluate_word",
+           "evaluate_words", "face_measures"]
 
 _EINSUM_LABELS = 52  # numpy einsum accepts at most 52 distinct index labels
 
@@ -175,23 +190,55 @@ def face_measures(arr, area_density=None) -> np.ndarray:
 # validation
 
 
+@dataclass(frozen=True)
+class _RepSetup:
+    """What the contraction needs to know about the representation."""
+
+    group: object
+    name: str
+    matrices: np.ndarray  # pi(X_a), shape (d, D, D), or the basis for ``power:p``
+    casimir: float  # c of the representation the words are contracted in
+    irreducible: bool  # E[pi(X)] is scalar for every conjugation-invariant law
+    power: int  # tr U^p: the words are repeated p times
+    weights: list | None  # U(N) weights of the contracted representation, if known
+    highest: tuple | None = None  # its highest weight, if irreducible with known weights
+
+
 def _group_iv(group, rep):
     if not (hasattr(group, "basis") and hasattr(group, "N")):
         raise TypeError(
             f"`group` must be a Group from holonomy.groups.make_group; got {group!r}."
         )
-    name = rep if isinstance(rep, str) else getattr(rep, "name", None)
-    if not isinstance(name, str) or name.strip().lower() not in ("fundamental", "defining"):
-        raise ValueError(
-            f"`rep` must be 'fundamental': {rep!r} is a representation the route does "
-            "not support (the exact evaluation contracts tensor powers of the "
-            "fundamental representation; use Monte Carlo for other representations)."
-        )
-    basis = np.asarray(group.basis)
-    C = np.einsum("aij,ajk->ik", basis, basis)
-    c = -C[0, 0].real
-    scalar = np.allclose(C, -c * np.eye(basis.shape[-1]), atol=1e-12)
-    return basis, c, scalar
+    if isinstance(rep, str):
+        rep_obj = group.rep(rep)
+    elif hasattr(rep, "name") and hasattr(rep, "casimir"):
+        rep_obj = rep
+    else:
+        raise ValueError(f"`rep` must be a representation spec string; got {rep!r}.")
+    name = rep_obj.name
+    power = 1
+    if name.startswith("power:"):
+        # tr U^p is the fundamental trace of the word repeated p times
+        power = int(name.split(":", 1)[1])
+        rep_obj = group.rep("fundamental")
+    try:
+        mats = np.asarray(rep_obj.algebra_matrix(np.asarray(group.basis)))
+    except ValueError as exc:
+        raise ExactRouteError("representation", f"{name!r} has no matrices ({exc})") from None
+    C = np.einsum("aij,ajk->ik", mats, mats)
+    c = float(-np.trace(C).real / C.shape[0])
+    from ._characters import class_weights
+
+    weights = class_weights(group, rep_obj)
+    highest = None
+    if weights is not None:
+        from ._characters import adams_decomposition
+
+        dec = adams_decomposition(weights)
+        if len(dec) == 1 and next(iter(dec.values())) == 1:
+            highest = next(iter(dec))
+    return _RepSetup(group, name, mats, c, bool(rep_obj.irreducible), power, weights,
+                     highest)
 
 
 def _times_iv(face_areas, coupling, exact, n_needed):
@@ -245,21 +292,22 @@ def _times_iv(face_areas, coupling, exact, n_needed):
     return lam, areas
 
 
-def _check_size(reduced: ReducedWord, N: int, max_dim: int):
-    for f, (p, q, _) in contraction_labels(reduced.word).items():
+def _check_size(words, N: int, max_dim: int):
+    for f, (p, q, _) in contraction_labels(words).items():
         D = N ** (p + q)
         if D > max_dim:
-            raise ValueError(
+            raise ExactRouteError(
+                "size",
                 f"the reduced word is too large to contract: a face variable occurs "
                 f"{p + q} times, so its moment tensor is a {D} x {D} matrix "
-                f"(N^(p+q) = {N}^{p + q}) above `max_dim` = {max_dim}; use Monte Carlo "
-                "(holonomy.estimate_wilson_loops) for this loop."
-            )
-    if len(reduced.word) > _EINSUM_LABELS:
-        raise ValueError(
-            f"the reduced word is too large to contract: {len(reduced.word)} letters "
-            f"(at most {_EINSUM_LABELS}); use Monte Carlo (holonomy.estimate_wilson_loops)."
-        )
+                f"(dim^(p+q) = {N}^{p + q}) above `max_dim` = {max_dim}; use Monte Carlo "
+                "(holonomy.estimate_wilson_loops) for this loop.")
+    if sum(len(w) for w in words) > _EINSUM_LABELS:
+        raise ExactRouteError(
+            "size",
+            f"the reduced word is too large to contract: {sum(len(w) for w in words)} "
+            f"letters (at most {_EINSUM_LABELS}); use Monte Carlo "
+            "(holonomy.estimate_wilson_loops).")
 
 
 def _word_iv(word):
@@ -275,22 +323,154 @@ def _word_iv(word):
 # ---------------------------------------------------------------------------
 
 
-def _evaluate(basis, c, scalar, word, times, exact, max_dim):
-    N = basis.shape[-1]
-    reduced = reduce_for_trace(word, times, drop_single=scalar)
+def _split_lobes(word) -> list:
+    """Split a cyclic word into pieces with no variable in common (lobes).
+
+    For independent conjugation-invariant variables and an irreducible pi,
+    ``E[tr pi(A B)] / d = (E[tr pi(A)] / d) (E[tr pi(B)] / d)`` when A and B share no
+    variable (Schur's lemma: ``E[pi(A)]`` is scalar).
+    """
+    n = len(word)
+    if n > 256:  # cubic search: long words go to the tensor route whole
+        return [tuple(word)]
+    for length in range(1, n):
+        for i in range(n):
+            seg = [word[(i + k) % n] for k in range(length)]
+            rest = [word[(i + length + k) % n] for k in range(n - length)]
+            if not ({abs(x) for x in seg} & {abs(x) for x in rest}):
+                return [tuple(seg), tuple(rest)]
+    return [tuple(word)]
+
+
+def _adams(setup: _RepSetup, n: int, law):
+    """``E[chi(X^n)] / dim`` by the Adams operation and Racah-Speiser reduction."""
+    from ._characters import adams_decomposition, dominant_casimir, weyl_dimension
+    from ._laws import law_character
+
+    group = setup.group
+    special = group.family == "SU"
+    total = 0j
+    for lam, a in adams_decomposition(setup.weights, abs(n)).items():
+        c = dominant_casimir(lam, group.k, special)
+        total += a * weyl_dimension(lam) * law_character(law, c, lam)
+    return total / len(setup.weights)
+
+
+class _Evaluator:
+    """Reduce, split and contract words for one representation and set of laws."""
+
+    def __init__(self, setup: _RepSetup, max_dim: int, large_n: bool = False):
+        self.setup = setup
+        self.max_dim = max_dim
+        self.large_n = large_n
+        self.routes: set[str] = set()
+
+    def words(self, words, times):
+        """``E[prod_i tr pi(w_i) / d]`` (a complex number)."""
+        from ._laws import law_character
+
+        setup = self.setup
+        words = [tuple(w) * setup.power for w in words]
+        reduced = reduce_for_traces(words, times, drop_single=setup.irreducible)
+        value = 1 + 0j
+        for t in reduced.dropped:
+            value *= (law_character(t, setup.casimir, setup.highest) if not self.large_n
+                      else np.exp(-t / 2))
+        for group in self._components(reduced.words):
+            ws = [reduced.words[i] for i in group]
+            if len(ws) == 1:
+                value *= self.single(ws[0], reduced.times)
+            elif self.large_n:  # traces factorize as N -> infinity
+                self.routes.add("free")
+                for w in ws:
+                    value *= self.single(w, reduced.times)
+            else:
+                value *= self.tensor(ws, reduced.times)
+        return value
+
+    @staticmethod
+    def _components(words):
+        """Indices of words grouped by shared variables (connected components)."""
+        groups: list[tuple[set, list]] = []
+        for i, w in enumerate(words):
+            vs = {abs(x) for x in w}
+            hit = [g for g in groups if g[0] & vs]
+            merged = (vs.union(*[g[0] for g in hit]), sorted(sum([g[1] for g in hit], [i])))
+            groups = [g for g in groups if not (g[0] & vs)] + [merged]
+        return [g[1] for g in groups]
+
+    def single(self, word, times):
+        setup = self.setup
+        if not word:
+            return 1.0
+        if setup.irreducible or self.large_n:
+            r = reduce_for_trace(word, times, drop_single=True)
+            value = 1 + 0j
+            if r.dropped:
+                from ._laws import law_character
+
+                for t in r.dropped:
+                    value *= law_character(t, setup.casimir, setup.highest)
+            word, times = r.word, r.times
+            if not word:
+                return value
+            pieces = _split_lobes(word)
+            if len(pieces) > 1:
+                self.routes.add("lobes")
+                for piece in pieces:
+                    value *= self.single(piece, times)
+                return value
+            return value * self.closed_or_tensor(word, times)
+        return self.closed_or_tensor(word, times)
+
+    def closed_or_tensor(self, word, times):
+        from ._unitary import free_unitary_moment
+
+        setup = self.setup
+        if len({abs(x) for x in word}) == 1:  # X^n: a wound loop
+            f = abs(word[0])
+            n = len(word)
+            if self.large_n:
+                self.routes.add("free")
+                return complex(free_unitary_moment(n, times[f - 1]))
+            if setup.weights is not None:
+                self.routes.add("adams")
+                return _adams(setup, n, times[f - 1])
+        if self.large_n:
+            from ._master import master_field_word
+
+            self.routes.add("free")
+            return master_field_word(word, times)
+        return self.tensor([word], times)
+
+    def tensor(self, words, times):
+        mats = self.setup.matrices
+        D = mats.shape[-1]
+        _check_size(words, D, self.max_dim)
+        self.routes.add("tensor")
+        return contract_numeric(mats, words, times) / D ** len(words)
+
+
+def _evaluate(setup: _RepSetup, words, times, exact, max_dim, large_n=False):
+    """Reduce and evaluate; returns (ReducedWord of the input, value, routes)."""
     if max_dim is None:
         max_dim = 256 if exact else 2048
-    _check_size(reduced, N, max_dim)
+    reduced = reduce_for_traces([tuple(w) * setup.power for w in words], times,
+                                drop_single=setup.irreducible or large_n)
     if exact:
         import sympy
 
-        cr = sympy.nsimplify(c, rational=True, tolerance=1e-12)
-        val = contract_exact(basis, reduced.word, reduced.times) / N
+        if len(reduced.words) != 1:
+            raise ExactRouteError("size", "exact=True evaluates one loop at a time")
+        _check_size(reduced.words, setup.matrices.shape[-1], max_dim)
+        D = setup.matrices.shape[-1]
+        cr = sympy.nsimplify(setup.casimir, rational=True, tolerance=1e-12)
+        val = contract_exact(setup.matrices, reduced.word, reduced.times) / D
         val = val * sympy.exp(-cr * sum(reduced.dropped, sympy.Integer(0)) / 2)
-        return reduced, sympy.expand(sympy.powsimp(sympy.expand(val)))
-    val = contract_numeric(basis, reduced.word, reduced.times) / N
-    val *= np.exp(-c * sum(reduced.dropped, 0j) / 2)
-    return reduced, val
+        return reduced, sympy.expand(sympy.powsimp(sympy.expand(val))), {"tensor"}
+    ev = _Evaluator(setup, max_dim, large_n)
+    value = ev.words(words, times)
+    return reduced, value, ev.routes
 
 
 def evaluate_word(group, word, face_areas, *, coupling=1.0, rep="fundamental",
@@ -311,7 +491,8 @@ def evaluate_word(group, word, face_areas, *, coupling=1.0, rep="fundamental",
     coupling : number or sympy expression, optional
         lambda (default 1).
     rep : str, optional
-        Only ``"fundamental"`` is supported.
+        Any representation with matrices (``"fundamental"``, ``"adjoint"``,
+        ``"spin:j"``, ...) or the class function ``"power:p"``.
     exact : bool, optional
         Return a sympy expression (default False: a complex number).
     max_dim : int, optional
@@ -326,13 +507,92 @@ def evaluate_word(group, word, face_areas, *, coupling=1.0, rep="fundamental",
     .. [1] T. Levy, Mem. Amer. Math. Soc. 166 (2003); Adv. Math. 218 (2008) 537-575.
     .. [2] E. M. Rains, J. Theoret. Probab. 10 (1997), 659-679.
     """
-    basis, c, scalar = _group_iv(group, rep)
+    setup = _group_iv(group, rep)
     w = _word_iv(word)
     n_needed = max((abs(x) for x in w), default=0)
     lam, areas = _times_iv(face_areas, coupling, exact, n_needed)
     times = tuple(lam * a for a in areas)
-    reduced, val = _evaluate(basis, c, scalar, w, times, exact, max_dim)
-    return ExactEvaluation(value=val, word=w, reduced=reduced, face_times=times)
+    reduced, val, routes = _evaluate(setup, [w], times, exact, max_dim)
+    return ExactEvaluation(value=val, word=w, reduced=reduced, face_times=times,
+                           method=_method(routes))
+
+
+def _method(routes) -> str:
+    return "lasso+" + "+".join(sorted(routes)) if routes else "lasso"
+
+
+def evaluate_words(group, words, laws, *, rep="fundamental", max_dim: int | None = None,
+                   large_n: bool = False) -> ExactEvaluation:
+    """Exact ``E[prod_i tr pi(w_i) / dim pi]`` for words in the same independent
+    conjugation-invariant face variables (a correlator of several loops).
+
+    Parameters
+    ----------
+    group : Group or None
+        From :func:`holonomy.groups.make_group`; None with ``large_n=True``.
+    words : sequence of sequence of int
+        One word per loop (letters as in :func:`evaluate_word`).
+    laws : sequence
+        Law of each variable (``laws[f - 1]``): a heat-kernel time ``lambda mu(F)``
+        (number, complex allowed) or a :class:`holonomy.exact.WilsonLaw`.
+    rep : str, optional
+        Any representation with matrices, or ``power:p``.
+    max_dim : int, optional
+        Largest moment matrix ``dim^{p+q}`` (default 2048).
+    large_n : bool, optional
+        The U(N) master field (N -> infinity, metric ``large-n``): traces factorize
+        and each word is evaluated with free unitary Brownian motions
+        (:func:`holonomy.exact.master_field_word`).
+
+    Returns
+    -------
+    ExactEvaluation
+        ``word`` is the first word; ``reduced.words`` all reduced words.
+
+    References
+    ----------
+    .. [1] T. Levy, Mem. Amer. Math. Soc. 166 (2003), ch. 2 (joint law of lassos).
+    .. [2] T. Levy, "The master field on the plane", arXiv:1112.2452 (large N).
+
+    Examples
+    --------
+    Two loops around the same face (U(1), k = 1): ``E[X X] = exp(-4 t / 2)``.
+
+    >>> from holonomy.groups import make_group
+    >>> r = evaluate_words(make_group("U", 1), [[1], [1]], [0.5])
+    >>> round(r.value.real, 12)  # exp(-1)
+    0.367879441171
+    """
+    ws = [_word_iv(w) for w in words]
+    if not ws:
+        raise ValueError("`words` must hold at least one word.")
+    n_needed = max((abs(x) for w in ws for x in w), default=0)
+    laws = list(laws)
+    if len(laws) < n_needed:
+        raise ValueError(
+            f"`laws` must give one law per face variable ({n_needed}); got {len(laws)}.")
+    if large_n:
+        setup = _large_n_setup(rep)
+    else:
+        setup = _group_iv(group, rep)
+    reduced, val, routes = _evaluate(setup, ws, tuple(laws), False, max_dim, large_n)
+    return ExactEvaluation(value=val, word=ws[0], reduced=reduced, face_times=tuple(laws),
+                           method=_method(routes))
+
+
+def _large_n_setup(rep) -> _RepSetup:
+    name = rep if isinstance(rep, str) else getattr(rep, "name", "")
+    name = name.strip().lower()
+    if name in ("fundamental", "defining"):
+        power = 1
+    elif name.startswith("power:"):
+        power = int(name.split(":", 1)[1])
+    else:
+        raise ExactRouteError(
+            "representation",
+            f"the master field (N = infinity) is the normalized trace of the fundamental "
+            f"representation or of U^p ('power:p'); got {name!r}")
+    return _RepSetup(None, name, np.zeros((0, 1, 1)), 1.0, True, power, None)
 
 
 def evaluate_polygon(group, vertices, turns: int = 1, *, coupling=1.0,
@@ -342,8 +602,9 @@ def evaluate_polygon(group, vertices, turns: int = 1, *, coupling=1.0,
 
     Parameters
     ----------
-    group : Group
-        From :func:`holonomy.groups.make_group`.
+    group : Group or None
+        From :func:`holonomy.groups.make_group`; None for the U(N) master field
+        (N -> infinity, metric ``large-n``; fundamental or ``power:p``).
     vertices : array_like, shape (m, 2)
         The polygon (counterclockwise positive; self-intersections allowed).
     turns : int, optional
@@ -351,7 +612,7 @@ def evaluate_polygon(group, vertices, turns: int = 1, *, coupling=1.0,
     coupling : number or sympy expression, optional
         lambda; face ``F`` has heat-kernel time ``lambda mu(F)``. Complex allowed.
     rep : str, optional
-        Only ``"fundamental"``.
+        As in :func:`evaluate_word`.
     area_density : None, float, callable or AreaForm, optional
         The measure mu (see :func:`face_measures`); signed densities give the analytic
         continuation.
@@ -389,7 +650,7 @@ def evaluate_polygon(group, vertices, turns: int = 1, *, coupling=1.0,
     """
     from discretize import arrangement
 
-    basis, c, scalar = _group_iv(group, rep)
+    setup = None if group is None else _group_iv(group, rep)
     arr = arrangement(vertices, turns)
     if exact and area_density is None:
         areas = list(arr.exact_areas)  # exact rationals of the binary coordinates
@@ -400,8 +661,67 @@ def evaluate_polygon(group, vertices, turns: int = 1, *, coupling=1.0,
         areas = [rho * sympy.Rational(a.numerator, a.denominator) for a in arr.exact_areas]
     else:
         areas = list(face_measures(arr, area_density))
-    w = lasso_word(arr)
+    w = lasso_words(arr)[0]
     lam, areas = _times_iv(areas, coupling, exact, arr.n_faces)
     times = tuple(lam * a for a in areas)
-    reduced, val = _evaluate(basis, c, scalar, w, times, exact, max_dim)
-    return ExactEvaluation(value=val, word=w, reduced=reduced, face_times=times, faces=arr)
+    if setup is None:  # the master field
+        if exact:
+            raise ExactRouteError("size", "the master field is evaluated in floats only")
+        setup = _large_n_setup(rep)
+    reduced, val, routes = _evaluate(setup, [w], times, exact, max_dim,
+                                     large_n=group is None)
+    return ExactEvaluation(value=val, word=w, reduced=reduced, face_times=times, faces=arr,
+                           method=_method(routes))
+
+
+def evaluate_polygons(group, curves, turns=None, *, coupling=1.0, rep="fundamental",
+                      area_density=None, max_dim: int | None = None) -> ExactEvaluation:
+    """Exact correlator ``E[prod_i tr pi(H_i) / dim pi]`` of several closed polygons.
+
+    The curves are drawn together (:func:`discretize.joint_arrangement`): their
+    holonomies are words in the same independent lasso variables, one per face of the
+    joint arrangement, and the expectation is one contraction.
+
+    Parameters
+    ----------
+    group : Group or None
+        None: the U(N) master field (N -> infinity, metric ``large-n``), where the
+        correlator is the product of the loops' master fields.
+    curves : sequence of array_like
+        The polygons.
+    turns : sequence of int, optional
+    coupling, rep, area_density, max_dim
+        As in :func:`evaluate_polygon`.
+
+    Returns
+    -------
+    ExactEvaluation
+        ``faces`` holds the joint arrangement.
+
+    References
+    ----------
+    .. [1] T. Levy, Mem. Amer. Math. Soc. 166 (2003), ch. 2; Asterisque 329 (2010).
+
+    Examples
+    --------
+    Two disjoint unit squares are independent: the correlator is the product.
+
+    >>> from holonomy.groups import make_group
+    >>> G = make_group("SU", 2, "physics")
+    >>> a = [(0, 0), (1, 0), (1, 1), (0, 1)]
+    >>> b = [(2, 0), (3, 0), (3, 1), (2, 1)]
+    >>> r = evaluate_polygons(G, [a, b], coupling=1.0)
+    >>> round(r.value.real, 12) == round(float(np.exp(-0.75)), 12)  # (e^{-3/8})^2
+    True
+    """
+    from discretize import joint_arrangement
+
+    arr = joint_arrangement(curves, turns)
+    areas = list(face_measures(arr, area_density))
+    words = lasso_words(arr)
+    lam, areas = _times_iv(areas, coupling, False, arr.n_faces)
+    times = tuple(lam * a for a in areas)
+    out = evaluate_words(group, words, times, rep=rep, max_dim=max_dim,
+                         large_n=group is None)
+    return ExactEvaluation(value=out.value, word=words[0], reduced=out.reduced,
+                           face_times=times, faces=arr, method=out.method)

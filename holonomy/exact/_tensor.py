@@ -95,23 +95,35 @@ def _embed_pair(K, i, j, n, N):
     return full.transpose(list(perm) + [n + x for x in perm])
 
 
-def contraction_labels(word):
-    """Group the letters of a word by variable and give einsum labels.
+def _as_words(word_or_words):
+    """A word (ints) or a sequence of words -> tuple of words."""
+    w = tuple(word_or_words)
+    if w and not isinstance(w[0], (int, np.integer)):
+        return tuple(tuple(x) for x in w)
+    return (w,)
+
+
+def contraction_labels(word_or_words):
+    """Group the letters of a word (or of several words, one trace each) by variable
+    and give einsum labels.
 
     Returns ``{f: (p, q, labels)}`` where ``labels`` lists the ``2 (p + q)`` index
     labels of ``E[V_f^{(x)p} (x) conj(V_f)^{(x)q}]`` (rows then columns).
     """
-    n = len(word)
     groups: dict[int, tuple[list, list, list, list]] = {}
-    for k, x in enumerate(word):
-        f = abs(x)
-        pr, pc, qr, qc = groups.setdefault(f, ([], [], [], []))
-        if x > 0:  # V[i_k, i_{k+1}]
-            pr.append(k)
-            pc.append((k + 1) % n)
-        else:  # (V^{-1})[i_k, i_{k+1}] = conj(V)[i_{k+1}, i_k]
-            qr.append((k + 1) % n)
-            qc.append(k)
+    base = 0
+    for word in _as_words(word_or_words):
+        n = len(word)
+        for k, x in enumerate(word):
+            f = abs(x)
+            pr, pc, qr, qc = groups.setdefault(f, ([], [], [], []))
+            if x > 0:  # V[i_k, i_{k+1}]
+                pr.append(base + k)
+                pc.append(base + (k + 1) % n)
+            else:  # (V^{-1})[i_k, i_{k+1}] = conj(V)[i_{k+1}, i_k]
+                qr.append(base + (k + 1) % n)
+                qc.append(base + k)
+        base += n
     return {
         f: (len(pr), len(qr), pr + qr + pc + qc) for f, (pr, pc, qr, qc) in groups.items()
     }
@@ -134,21 +146,42 @@ def _basis_key(basis: np.ndarray):
     return key
 
 
-def contract_numeric(basis: np.ndarray, word, times) -> complex:
-    """``E[tr word]`` (unnormalized) for independent heat-kernel variables.
+def _law_spectrum(law, mu):
+    """``w_sigma`` on each eigenvalue ``mu = -c_sigma / 2`` of ``L_{p,q}``."""
+    from ._laws import law_character
 
-    ``times[f - 1]`` is the (real or complex) time of variable ``f``.
+    if not hasattr(law, "character"):
+        return np.exp(complex(law) * mu)
+    out = np.empty(len(mu), dtype=complex)
+    cache: dict = {}
+    for i, m in enumerate(mu):
+        key = round(float(m), 8)
+        if key not in cache:
+            cache[key] = law_character(law, -2.0 * float(m))
+        out[i] = cache[key]
+    return out
+
+
+def contract_numeric(basis: np.ndarray, word, times) -> complex:
+    """``E[tr word]`` (unnormalized) for independent conjugation-invariant variables;
+    for several words, ``E[prod_i tr word_i]``.
+
+    ``times[f - 1]`` is the (real or complex) heat-kernel time of variable ``f``, or its
+    law (:class:`holonomy.exact.WilsonLaw`).
     """
     N = basis.shape[-1]
-    if len(word) == 0:
-        return complex(N)
+    words = _as_words(word)
+    empty = sum(1 for w in words if len(w) == 0)
+    words = tuple(w for w in words if len(w))
+    if not words:
+        return complex(N) ** empty
     key = _basis_key(basis)
     operands = []
-    for f, (p, q, labels) in contraction_labels(word).items():
+    for f, (p, q, labels) in contraction_labels(words).items():
         mu, Q = _eigh_cached(key, p, q)
-        M = (Q * np.exp(complex(times[f - 1]) * mu)) @ Q.conj().T
+        M = (Q * _law_spectrum(times[f - 1], mu)) @ Q.conj().T
         operands += [M.reshape((N,) * (2 * (p + q))), labels]
-    return complex(np.einsum(*operands, [], optimize="greedy"))
+    return complex(np.einsum(*operands, [], optimize="greedy")) * complex(N) ** empty
 
 
 def _rational_matrix(A: np.ndarray, what: str):

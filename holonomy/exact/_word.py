@@ -49,10 +49,12 @@ from dataclasses import dataclass
 
 __all__ = [
     "lasso_word",
+    "lasso_words",
     "free_reduce",
     "cyclic_reduce",
     "inverse_word",
     "reduce_for_trace",
+    "reduce_for_traces",
     "ReducedWord",
 ]
 
@@ -85,17 +87,28 @@ def cyclic_reduce(word) -> tuple[int, ...]:
 def lasso_word(arr) -> tuple[int, ...]:
     """The loop of an arrangement as a word in independent lasso variables.
 
+    The first curve's word of :func:`lasso_words`.
+    """
+    return lasso_words(arr)[0]
+
+
+def lasso_words(arr) -> tuple[tuple[int, ...], ...]:
+    """The curves of an arrangement as words in the same independent lasso variables.
+
     Parameters
     ----------
     arr : discretize.Arrangement
-        The arrangement of the loop; the base point is graph vertex 0 (the polygon's
-        first vertex) and all ``arr.turns`` turns are included.
+        The arrangement of the loops (:func:`discretize.arrangement` or
+        :func:`discretize.joint_arrangement`); the root of the spanning tree is graph
+        vertex 0, each curve is read from its first vertex along ``arr.paths`` (tree
+        edges carry the identity, so the base point only conjugates the word) and all
+        its turns are included.
 
     Returns
     -------
-    tuple of int
-        Freely reduced word; letter ``f`` (1-based) stands for the lasso around bounded
-        face ``f - 1`` of ``arr``, traversed counterclockwise.
+    tuple of tuple of int
+        One freely reduced word per curve; letter ``f`` (1-based) stands for the lasso
+        around bounded face ``f - 1`` of ``arr``, traversed counterclockwise.
 
     References
     ----------
@@ -160,10 +173,13 @@ def lasso_word(arr) -> tuple[int, ...]:
             return ()
         return edge_word(e) if h % 2 == 0 else inverse_word(edge_word(e))
 
-    one_turn: list[int] = []
-    for e in range(ne):
-        one_turn.extend(half_word(2 * e))
-    return free_reduce(tuple(one_turn) * arr.turns)
+    words = []
+    for path, turns in zip(arr.paths, arr.curve_turns):
+        one_turn: list[int] = []
+        for h in path.tolist():
+            one_turn.extend(half_word(h))
+        words.append(free_reduce(tuple(one_turn) * turns))
+    return tuple(words)
 
 
 @dataclass(frozen=True)
@@ -180,51 +196,57 @@ class ReducedWord:
     dropped : tuple
         Times of the variables that occurred once; each contributes the scalar factor
         ``E[pi(X)] = exp(-c t / 2)``.
+    words : tuple of tuple
+        All reduced words (several for a correlator; ``word`` is the first).
     """
 
     word: tuple
     times: tuple
     dropped: tuple
+    words: tuple = ()
 
 
-def _merge_once(word, times):
-    """Merge one pair of variables that always occur as the block ``x y^e``."""
-    n = len(word)
-    if n < 2:
-        return None
-    occ: dict[int, list[int]] = {}
-    for k, x in enumerate(word):
-        occ.setdefault(abs(x), []).append(k)
+def _merge_once(words, times):
+    """Merge one pair of variables that always occur as the block ``x y^e`` (in every
+    occurrence, across all the cyclic words)."""
+    occ: dict[int, list[tuple[int, int]]] = {}
+    for wi, word in enumerate(words):
+        for k, x in enumerate(word):
+            occ.setdefault(abs(x), []).append((wi, k))
+
+    def partner(wi, k):
+        # the letter after +x, or the inverse of the letter before -x
+        word = words[wi]
+        n = len(word)
+        return word[(k + 1) % n] if word[k] > 0 else -word[(k - 1) % n]
+
     for x, ks in occ.items():
-        k0 = ks[0]
-        # partner letter: after +x, before -x (read so that +x comes first)
-        nxt = word[(k0 + 1) % n] if word[k0] > 0 else -word[(k0 - 1) % n]
-        y, e = abs(nxt), (1 if nxt > 0 else -1)
+        wi0, k0 = ks[0]
+        if len(words[wi0]) < 2:
+            continue
+        nxt = partner(wi0, k0)
+        y = abs(nxt)
         if y == x or len(occ.get(y, ())) != len(ks):
             continue
-        ok = all(
-            (word[k] > 0 and word[(k + 1) % n] == e * y)
-            or (word[k] < 0 and word[(k - 1) % n] == -e * y)
-            for k in ks
-        )
-        if not ok:
+        if not all(len(words[wi]) >= 2 and partner(wi, k) == nxt for wi, k in ks):
             continue
-        # replace each block by the new variable x (time t_x + t_y), remove y
         skip = set()
-        for k in ks:
-            skip.add((k + 1) % n if word[k] > 0 else (k - 1) % n)
-        out = [word[k] for k in range(n) if k not in skip]
+        for wi, k in ks:
+            n = len(words[wi])
+            skip.add((wi, (k + 1) % n if words[wi][k] > 0 else (k - 1) % n))
+        out = [[x_ for k, x_ in enumerate(word) if (wi, k) not in skip]
+               for wi, word in enumerate(words)]
         new_times = list(times)
         new_times[x - 1] = times[x - 1] + times[y - 1]
         return out, new_times, y
     return None
 
 
-def _relabel(word, times):
-    used = sorted({abs(x) for x in word})
+def _relabel(words, times):
+    used = sorted({abs(x) for word in words for x in word})
     label = {v: i + 1 for i, v in enumerate(used)}
-    w = tuple(label[abs(x)] * (1 if x > 0 else -1) for x in word)
-    return w, tuple(times[v - 1] for v in used)
+    ws = tuple(tuple(label[abs(x)] * (1 if x > 0 else -1) for x in word) for word in words)
+    return ws, tuple(times[v - 1] for v in used)
 
 
 def reduce_for_trace(word, times, *, drop_single: bool = True) -> ReducedWord:
@@ -250,26 +272,37 @@ def reduce_for_trace(word, times, *, drop_single: bool = True) -> ReducedWord:
     .. [1] T. Levy, Mem. Amer. Math. Soc. 166 (2003), ch. 2 (independence and
        conjugation invariance of lasso holonomies; convolution of heat kernels).
     """
-    w = list(cyclic_reduce(word))
+    r = reduce_for_traces([word], times, drop_single=drop_single)
+    return r
+
+
+def reduce_for_traces(words, times, *, drop_single: bool = True) -> ReducedWord:
+    """Reduce several words for ``E[prod_i tr pi(word_i)]`` (same rules as
+    :func:`reduce_for_trace`, applied jointly: a variable is dropped when it occurs
+    once in all the words together, merged when its every occurrence is the same
+    block). ``ReducedWord.words`` holds the reduced words, in order."""
+    ws = [list(cyclic_reduce(w)) for w in words]
     t = list(times)
     dropped: list = []
     changed = True
     while changed:
         changed = False
-        w = list(cyclic_reduce(w))
+        ws = [list(cyclic_reduce(w)) for w in ws]
         if drop_single:
             counts: dict[int, int] = {}
-            for x in w:
-                counts[abs(x)] = counts.get(abs(x), 0) + 1
-            singles = [v for v, c in counts.items() if c == 1]
+            for w in ws:
+                for x in w:
+                    counts[abs(x)] = counts.get(abs(x), 0) + 1
+            singles = {v for v, c in counts.items() if c == 1}
             if singles:
-                dropped.extend(t[v - 1] for v in singles)
-                w = [x for x in w if abs(x) not in singles]
+                dropped.extend(t[v - 1] for v in sorted(singles))
+                ws = [[x for x in w if abs(x) not in singles] for w in ws]
                 changed = True
                 continue
-        merged = _merge_once(w, t)
+        merged = _merge_once(ws, t)
         if merged is not None:
-            w, t, _ = merged
+            ws, t, _ = merged
             changed = True
-    rw, rt = _relabel(w, t)
-    return ReducedWord(word=rw, times=rt, dropped=tuple(dropped))
+    rws, rt = _relabel(ws, t)
+    return ReducedWord(word=rws[0] if rws else (), times=rt, dropped=tuple(dropped),
+                       words=rws)

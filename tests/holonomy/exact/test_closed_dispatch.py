@@ -94,11 +94,22 @@ class TestRoutes:
         assert r.method == "polygon-evaluation"
         assert r.value == pytest.approx(np.exp(-0.75 * 0.5 * 2 / 2), rel=1e-10)
 
-    def test_no_route(self):
-        # SU(2) spin 1 on a loop wound twice: no closed form here, general route only
-        # takes the fundamental representation.
+    def test_spin_one_wound_twice(self):
+        # chi_1(g^2) = chi_2(g) - chi_1(g) + chi_0(g) (Adams operation; Fulton and
+        # Harris 1991, ex. 23.39), c_j = j (j + 1) for k = 2: area 1, lambda = 1
         G = make_group("SU", 2, "physics")
-        assert exact_wilson_loop(G, "spin:1", lattice("R2 U2 L2 D2", turns=2), coupling=1.0) is None
+        r = exact_wilson_loop(G, "spin:1", lattice("R2 U2 L2 D2", turns=2), coupling=1.0)
+        ref = (5 * np.exp(-3.0) - 3 * np.exp(-1.0) + 1) / 3
+        assert r.value == pytest.approx(ref, rel=1e-12)
+
+    def test_no_route_names_the_limit(self):
+        # SO(5) fundamental on a loop wound 6 times: 5^6 > 2048 and no closed form
+        from holonomy.exact import ExactRouteError
+
+        G = make_group("SO", 5, "trace")
+        with pytest.raises(ExactRouteError, match="size limit: .*max_dim") as info:
+            exact_wilson_loop(G, "fundamental", lattice("R2 U2 L2 D2", turns=6), coupling=1.0)
+        assert info.value.limit == "size"
 
 
 class TestBadInput:
