@@ -57,10 +57,14 @@ from typing import Callable
 
 import numpy as np
 
+from noise import ArgumentError
+
+from ._arrangement import arrangement
 from ._grid import Grid, _as_int
 from ._winding import polygon_winding_numbers
 
-__all__ = ["Loop", "LatticeLoop", "parse_moves", "CURVES", "CurveFaces", "FaceAreaErrors"]
+__all__ = ["Loop", "LatticeLoop", "parse_moves", "closed_walk", "winding_numbers", "CURVES",
+           "CurveFaces", "FaceAreaErrors"]
 
 _MOVES = {"R": (1, 0), "L": (-1, 0), "U": (0, 1), "D": (0, -1)}
 _TOKEN = re.compile(r"([RLUDrlud])(0*[1-9][0-9]*)")
@@ -136,28 +140,57 @@ def _polygon_iv(vertices, turns):
     return v, turns
 
 
-def parse_moves(moves: str) -> np.ndarray:
+def parse_moves(moves: str, *, max_count: int | None = None) -> np.ndarray:
     """Parse a moves string into an ``(k, 2)`` int array of displacements.
 
-    Raises ValueError naming the token and the character where parsing failed.
+    The moves grammar (its one definition): whitespace-separated tokens, each a
+    direction ``R``, ``L``, ``U`` or ``D`` (either case) followed by a positive integer
+    count, like ``"R4 U2 L4 D2"``; a bare direction is refused. ``max_count`` bounds
+    one token's count (default 2^53, so the walk stays exact in int64).
+
+    Raises ``TypeError`` for a non-string and :class:`noise.ArgumentError` (argument
+    ``moves``) naming the token and the character where parsing failed.
     """
     if not isinstance(moves, str):
         raise TypeError(f"`moves` must be a string such as 'R4 U2 L4 D2', got {moves!r}.")
+    limit = 2**53 if max_count is None else max_count
     out = []
     for k, m in enumerate(re.finditer(r"\S+", moves)):
         tok = m.group()
         if not _TOKEN.fullmatch(tok):
-            raise ValueError(
+            raise ArgumentError(
+                "moves", f"bad step {tok!r}; expected R, U, L or D followed by a positive "
+                "count, like R4",
                 f"`moves` does not parse at token {k + 1} ({tok!r}, character "
                 f"{m.start() + 1}): each token is a direction R, L, U or D followed by a "
-                "positive integer count, e.g. 'R4 U2 L4 D2'."
-            )
-        dx, dy = _MOVES[tok[0].upper()]
+                "positive integer count, e.g. 'R4 U2 L4 D2'.")
         n = int(tok[1:])
+        if n > limit:
+            raise ArgumentError(
+                "moves", f"bad step {tok!r}; expected a count of at most {limit} steps "
+                "per token",
+                f"`moves` token {k + 1} ({tok!r}) has more than {limit} steps.")
+        dx, dy = _MOVES[tok[0].upper()]
         out.append((dx * n, dy * n))
     if not out:
-        raise ValueError("`moves` must contain at least one move, got an empty string.")
+        raise ArgumentError("moves", "got an empty string; expected steps like \"R4 U2 L4 D2\"",
+                            "`moves` must contain at least one move, got an empty string.")
     return np.array(out, dtype=np.int64)
+
+
+def closed_walk(moves: str, *, max_count: int | None = None) -> np.ndarray:
+    """The corners ``(k + 1, 2)`` (in steps, from the origin) of a moves string that
+    must return to its start; :class:`noise.ArgumentError` (argument ``moves``) if not."""
+    d = parse_moves(moves, max_count=max_count)
+    corners = np.vstack([np.zeros((1, 2), np.int64), np.cumsum(d, axis=0)])
+    if np.any(corners[-1] != 0):
+        x, y = corners[-1].tolist()
+        raise ArgumentError(
+            "moves", f"does not close: it ends {x} steps right and {y} up of its start; "
+            "expected a closed path",
+            f"`moves` does not close: the walk ends {[x, y]} grid steps (x, y) from its "
+            "start.")
+    return corners
 
 
 # --------------------------------------------------------------------------- curves
@@ -459,18 +492,11 @@ class Loop:
         ``moves`` uses our syntax: whitespace-separated tokens like ``R4`` (direction
         R/L/U/D, positive count). The walk must return to its start.
         """
-        d = parse_moves(moves)
+        corners = closed_walk(moves)
         p0 = _point_iv(start, "start")
         h = _positive_iv(spacing, "spacing")
         turns = _turns_iv(turns)
-        pos = np.cumsum(d, axis=0)
-        if np.any(pos[-1] != 0):
-            raise ValueError(
-                f"`moves` does not close: the walk ends {pos[-1].tolist()} grid steps "
-                "(x, y) from its start."
-            )
-        pts = np.vstack([[0, 0], pos[:-1]])
-        return cls(p0 + h * pts, turns)
+        return cls(p0 + h * corners[:-1], turns)
 
     # -- properties ---------------------------------------------------------------------
     @property
@@ -771,8 +797,6 @@ def _distance_to_polygon(pts: np.ndarray, poly: np.ndarray) -> np.ndarray:
 
 
 def _face_area_errors(lattice: "LatticeLoop", source: "Loop") -> FaceAreaErrors | None:
-    from ._arrangement import arrangement
-
     try:
         arr = arrangement(source.vertices, source.turns)
     except ValueError:
@@ -841,18 +865,13 @@ class LatticeLoop:
     @classmethod
     def from_moves(cls, grid: Grid, moves: str, start=(0, 0), turns: int = 1) -> "LatticeLoop":
         """The lattice loop walked by ``moves`` from node ``start`` of ``grid``."""
-        d = parse_moves(moves)
+        walk = closed_walk(moves)
         turns = _turns_iv(turns)
         try:
             s = np.array(start, dtype=np.int64).reshape(2)
         except (TypeError, ValueError):
             raise TypeError(f"`start` must be a node index pair (i, j), got {start!r}.") from None
-        corners = np.vstack([s, s + np.cumsum(d, axis=0)])
-        if np.any(corners[-1] != s):
-            raise ValueError(
-                f"`moves` does not close: the walk ends {(corners[-1] - s).tolist()} grid "
-                "steps (x, y) from its start."
-            )
+        corners = s + walk
         nodes = _expand_corners(corners)
         nodes = np.vstack([np.tile(nodes[:-1], (turns, 1)), nodes[:1]])
         return cls(grid, nodes)
@@ -960,3 +979,22 @@ class LatticeLoop:
 
     def __repr__(self):
         return f"LatticeLoop(grid={self.grid!r}, nodes=<{self.length} steps>, area={self.area!r})"
+
+
+def winding_numbers(loop, grid: Grid) -> np.ndarray:
+    """Winding number of ``loop`` around each cell center of ``grid``, shape (nx, ny).
+
+    ``loop`` is a :class:`~discretize.Loop` (its ``turns`` multiply the result), a
+    :class:`~discretize.LatticeLoop` (exact integer count from its horizontal steps), or
+    an ``(m, 2)`` array of polygon vertices.
+    """
+    if isinstance(loop, LatticeLoop):
+        if loop.grid == grid:
+            return loop.winding_numbers()
+        return polygon_winding_numbers(loop.coordinates[:-1], grid)
+    if isinstance(loop, Loop):
+        return loop.turns * polygon_winding_numbers(loop.vertices, grid)
+    v = np.asarray(loop, dtype=float)
+    if v.ndim != 2 or v.shape[1] != 2:
+        raise ValueError(f"`loop` must be a Loop, a LatticeLoop or an (m, 2) array, got shape {v.shape}.")
+    return polygon_winding_numbers(v, grid)

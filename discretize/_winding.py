@@ -21,7 +21,7 @@ import numpy as np
 
 from ._grid import Grid
 
-__all__ = ["winding_numbers", "polygon_winding_numbers"]
+__all__ = ["polygon_winding_numbers"]
 
 
 def polygon_winding_numbers(vertices, grid: Grid) -> np.ndarray:
@@ -63,24 +63,3 @@ def polygon_winding_numbers(vertices, grid: Grid) -> np.ndarray:
         np.add.at(diff, (np.zeros_like(row), row), sign)
         np.add.at(diff, (k, row), -sign)
     return np.cumsum(diff[:-1], axis=0)
-
-
-def winding_numbers(loop, grid: Grid) -> np.ndarray:
-    """Winding number of ``loop`` around each cell center of ``grid``, shape (nx, ny).
-
-    ``loop`` is a :class:`~discretize.Loop` (its ``turns`` multiply the result), a
-    :class:`~discretize.LatticeLoop` (exact integer count from its horizontal steps), or
-    an ``(m, 2)`` array of polygon vertices.
-    """
-    from ._loops import LatticeLoop, Loop  # circular: _loops uses this module
-
-    if isinstance(loop, LatticeLoop):
-        if loop.grid == grid:
-            return loop.winding_numbers()
-        return polygon_winding_numbers(loop.coordinates[:-1], grid)
-    if isinstance(loop, Loop):
-        return loop.turns * polygon_winding_numbers(loop.vertices, grid)
-    v = np.asarray(loop, dtype=float)
-    if v.ndim != 2 or v.shape[1] != 2:
-        raise ValueError(f"`loop` must be a Loop, a LatticeLoop or an (m, 2) array, got shape {v.shape}.")
-    return polygon_winding_numbers(v, grid)

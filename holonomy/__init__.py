@@ -19,9 +19,16 @@ from ._solver import (  # noqa: E402  (ordered products)
 )
 from ._lie_words import *  # noqa: E402,F401,F403  (formal Lie-algebra words)
 from ._series import *  # noqa: E402,F401,F403  (perturbative series)
-from ._schemes import SCHEMES, Scheme, get_scheme  # noqa: E402
+from ._schemes import SCHEMES, Scheme, get_scheme, register_scheme, study_schemes  # noqa: E402
 from ._estimate import BlockSums, EstimateResult, LoopEstimate, combine_blocks  # noqa: E402
-from ._sampling import Field, WilsonProblem, estimate_wilson_loops, run_block  # noqa: E402
+from ._sampling import (  # noqa: E402
+    Field,
+    LatticeProblem,
+    RunSettings,
+    WilsonProblem,
+    estimate_wilson_loops,
+    run_block,
+)
 from ._study import EXPECTED_RATES, StudyProblem, run_study_block  # noqa: E402
 from ._lattice_series import lattice_covariance, lattice_series  # noqa: E402
 from ._continuum_series import continuum_series  # noqa: E402  (continuum series)

@@ -37,6 +37,7 @@ from typing import Any
 import numpy as np
 import sympy
 
+from .exact import evaluate_polygon
 from ._series import SeriesResult
 
 __all__ = ["continuum_series"]
@@ -148,8 +149,6 @@ def continuum_series(group: Any, vertices: Any, turns: int = 1, order: int = 4, 
     >>> continuum_series(su2, [(0, 0), (1, 0), (1, 1), (0, 1)], order=2).coefficients
     [1, -3/8, 9/128]
     """
-    from .exact import evaluate_polygon
-
     turns, M, rep_name, exact = _continuum_series_iv(group, turns, order, rep, exact)
     ev = evaluate_polygon(group, vertices, turns, coupling=_LAM, rep=rep_name,
                           area_density=area_density, exact=True, max_dim=max_dim)

@@ -27,13 +27,13 @@ import numbers
 
 import numpy as np
 
-from ._sampling import WilsonProblem
+from ._sampling import LatticeProblem
 from ._series import SeriesResult, exp_product_series, factor_product_series
 
 __all__ = ["lattice_covariance", "lattice_loadings", "lattice_series"]
 
 
-def lattice_loadings(problem: WilsonProblem, loop_index: int = 0
+def lattice_loadings(problem: LatticeProblem, loop_index: int = 0
                      ) -> tuple[np.ndarray, np.ndarray]:
     """The step exponents as sums of independent interval noises: ``(U, mu)``.
 
@@ -66,7 +66,7 @@ def lattice_loadings(problem: WilsonProblem, loop_index: int = 0
     return patterns, merged
 
 
-def lattice_covariance(problem: WilsonProblem, loop_index: int = 0) -> np.ndarray:
+def lattice_covariance(problem: LatticeProblem, loop_index: int = 0) -> np.ndarray:
     """The matrix C (per unit coupling) of the loop's step exponents A_e.
 
     Steps on the reference line (identity links) are left out. Returns an (m, m)
@@ -77,16 +77,16 @@ def lattice_covariance(problem: WilsonProblem, loop_index: int = 0) -> np.ndarra
     return (U * mu) @ U.T
 
 
-def lattice_series(problem: WilsonProblem, loop_index: int = 0, order: int = 4, *,
+def lattice_series(problem: LatticeProblem, loop_index: int = 0, order: int = 4, *,
                    exact: bool = False) -> SeriesResult:
     """Coefficients c_0..c_order of the ``linear`` scheme's Wilson loop in lambda.
 
     Parameters
     ----------
-    problem : WilsonProblem
+    problem : LatticeProblem
         Group, loops, representation, spacing, gauge and area form (a signed density is
-        allowed: build the problem with ``formal=True``). The problem's scheme is not
-        used: the series is that of the ``linear`` scheme.
+        allowed; a :class:`WilsonProblem` needs ``formal=True`` for it). The problem's
+        scheme is not used: the series is that of the ``linear`` scheme.
     loop_index : int
     order : int
     exact : bool

@@ -1,7 +1,8 @@
 """Monte Carlo Wilson loops: fields, problems, blocks.
 
-A :class:`WilsonProblem` fixes everything a run needs (group, field, loops,
-representation, samples, block size, seed). :func:`run_block` computes the partial sums
+A :class:`LatticeProblem` fixes the lattice problem (group, representation, field,
+loops, and the grid, plan and areas that follow); a :class:`WilsonProblem` adds the run
+settings (:class:`RunSettings`: samples, block size, seed, path). :func:`run_block` computes the partial sums
 of one block; block ``b`` draws from ``SeedSequence(seed, spawn_key=(b,))``, so results
 are bitwise identical however the blocks are scheduled. :func:`estimate_wilson_loops`
 runs all blocks, on an optional :class:`concurrent.futures.Executor`.
@@ -24,22 +25,22 @@ from __future__ import annotations
 import math
 import numbers
 from concurrent.futures import Executor
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 from typing import Sequence
 
 import numpy as np
 
-from discretize import AreaForm, Grid, axial_plan
+from discretize import AreaForm, Grid, LatticeLoop, axial_plan
 from discretize._axial import GAUGES, frame_cells
-from noise import block_rng, cell_noise, interval_sums
+from noise import ArgumentError, block_rng, cell_noise, interval_sums
 
 from ._estimate import BlockSums, EstimateResult, combine_blocks
 from ._kernels import kernel_for
 from ._schemes import get_scheme
 from .groups import make_group
 
-__all__ = ["Field", "WilsonProblem", "run_block", "estimate_wilson_loops", "PATHS",
+__all__ = ["Field", "LatticeProblem", "RunSettings", "WilsonProblem", "run_block", "estimate_wilson_loops", "PATHS",
            "chunk_size"]
 
 PATHS = ("auto", "perimeter", "dense")
@@ -50,7 +51,8 @@ def _positive(value, name: str) -> float:
         raise TypeError(f"`{name}` must be a positive number, got {value!r}.")
     value = float(value)
     if not (math.isfinite(value) and value > 0):
-        raise ValueError(f"`{name}` must be a positive finite number, got {value!r}.")
+        raise ArgumentError(name, f"got {value!r}; expected a number > 0",
+                            f"`{name}` must be a positive finite number, got {value!r}.")
     return value
 
 
@@ -58,7 +60,8 @@ def _count(value, name: str) -> int:
     if isinstance(value, bool) or not isinstance(value, numbers.Integral):
         raise TypeError(f"`{name}` must be an integer >= 1, got {value!r}.")
     if value < 1:
-        raise ValueError(f"`{name}` must be an integer >= 1, got {value!r}.")
+        raise ArgumentError(name, f"got {value!r}; expected an integer > 0",
+                            f"`{name}` must be an integer >= 1, got {value!r}.")
     return int(value)
 
 
@@ -76,7 +79,8 @@ class Field:
     reference : float, optional
         The reference line (y for axial-y, x for axial-x); default: the lowest
         (leftmost) point of all loops.
-    scheme : {"heat", "linear", "gauss", "wilson"} or Scheme subclass
+    scheme : str or Scheme subclass
+        A name registered in :data:`holonomy.SCHEMES`.
     area : AreaForm
         The area measure mu (Lebesgue by default).
     """
@@ -92,18 +96,23 @@ class Field:
         object.__setattr__(self, "coupling", _positive(self.coupling, "coupling"))
         object.__setattr__(self, "spacing", _positive(self.spacing, "spacing"))
         if self.gauge not in GAUGES:
-            raise ValueError(f"`gauge` must be one of {GAUGES}, got {self.gauge!r}.")
+            raise ArgumentError("gauge", f"got {self.gauge!r}; expected one of {GAUGES}",
+                                f"`gauge` must be one of {GAUGES}, got {self.gauge!r}.")
         get_scheme(self.scheme)  # validates the name
         if not isinstance(self.area, AreaForm):
             raise TypeError(f"`area` must be a discretize.AreaForm, got {self.area!r}.")
 
 
 @dataclass(frozen=True)
-class WilsonProblem:
-    """Everything one Monte Carlo run of Wilson loops needs; picklable and frozen.
+class LatticeProblem:
+    """The lattice problem: group, representation, field, loops, and what follows from
+    them (grid, lattice loops, axial plan, areas). No run settings: this is what the
+    exact references and the series take. Picklable and frozen.
 
     ``loops`` are :class:`discretize.Loop` polygons (snapped to the lattice of the
-    field's spacing) or :class:`discretize.LatticeLoop` objects sharing one grid.
+    field's spacing) or :class:`discretize.LatticeLoop` objects sharing one grid. The
+    area form may take negative values (no measure: only :class:`WilsonProblem`, which
+    samples, refuses it).
     """
 
     family: str
@@ -113,16 +122,12 @@ class WilsonProblem:
     loops: tuple
     names: tuple = ()
     rep: str = "fundamental"
-    samples: int = 10000
-    block: int = 4096
-    seed: int = 0
-    path: str = "auto"
-    formal: bool = False
 
     def __post_init__(self):
         object.__setattr__(self, "loops", tuple(self.loops))
         if not self.loops:
-            raise ValueError("`loops` is empty: give at least one loop.")
+            raise ArgumentError("loops", "got none; expected at least one loop",
+                                "`loops` is empty: give at least one loop.")
         names = tuple(self.names) or tuple(f"loop{i}" for i in range(len(self.loops)))
         if len(names) != len(self.loops):
             raise ValueError(
@@ -131,29 +136,15 @@ class WilsonProblem:
         if len(set(names)) != len(names):
             raise ValueError(f"`names` must be distinct, got {names!r}.")
         object.__setattr__(self, "names", names)
-        object.__setattr__(self, "samples", _count(self.samples, "samples"))
-        object.__setattr__(self, "block", _count(self.block, "block"))
-        if isinstance(self.seed, bool) or not isinstance(self.seed, numbers.Integral) or self.seed < 0:
-            raise ValueError(f"`seed` must be a non-negative integer, got {self.seed!r}.")
-        if self.path not in PATHS:
-            raise ValueError(f"`path` must be one of {PATHS}, got {self.path!r}.")
         if not isinstance(self.field, Field):
             raise TypeError(f"`field` must be a holonomy.Field, got {self.field!r}.")
-        if self.field.area.signed and not self.formal:
-            raise ValueError(
-                "`field.area` has a negative density: the covariance is indefinite and no "
-                "measure exists to sample; evaluate it formally instead (whitegauge series, "
-                "holonomy.lattice_series, noise.FormalGaussian)."
-            )
-        scheme = get_scheme(self.field.scheme)
-        scheme.check(self.group)
-        if self.path == "perimeter" and not scheme.perimeter:
-            raise ValueError(
-                f"`path`='perimeter' is not available for scheme {scheme.name!r}; "
-                "use 'dense' or 'auto'."
-            )
+        self._check_run()
+        self.scheme.check(self.group)
         self.group.rep(self.rep)  # validates the representation
         _ = self.plan  # validates the loops against the grid
+
+    def _check_run(self) -> None:
+        """Hook for the run settings of a subclass (checked before the lattice)."""
 
     # -- derived objects (cached per process) -----------------------------------------
     @cached_property
@@ -174,13 +165,14 @@ class WilsonProblem:
 
     @cached_property
     def grid(self) -> Grid:
-        from discretize import LatticeLoop
-
         lattice = [lp for lp in self.loops if isinstance(lp, LatticeLoop)]
         if lattice:
             grid = lattice[0].grid
             if len(lattice) != len(self.loops) or any(lp.grid != grid for lp in lattice):
-                raise ValueError("`loops` must be all polygons or all lattice loops on one grid.")
+                raise ArgumentError(
+                    "loops", "got polygons and lattice loops mixed, or several grids; "
+                    "expected all polygons or all lattice loops on one grid",
+                    "`loops` must be all polygons or all lattice loops on one grid.")
             return grid
         boxes = np.array([lp.bbox for lp in self.loops], float)
         xmin, ymin = boxes[:, 0].min(), boxes[:, 1].min()
@@ -195,8 +187,6 @@ class WilsonProblem:
 
     @cached_property
     def lattice_loops(self) -> tuple:
-        from discretize import LatticeLoop
-
         return tuple(lp if isinstance(lp, LatticeLoop) else lp.snap(self.grid)
                      for lp in self.loops)
 
@@ -216,10 +206,47 @@ class WilsonProblem:
         return tuple(float(getattr(lp, "area_error", 0.0)) for lp in self.lattice_loops)
 
     @property
-    def resolved_path(self) -> str:
-        if self.path == "auto":
-            return "perimeter" if self.scheme.perimeter else "dense"
-        return self.path
+    def lattice(self) -> "LatticeProblem":
+        """The lattice problem alone (this object when it has no run settings)."""
+        return self
+
+    def with_field(self, **changes) -> "LatticeProblem":
+        """The same lattice problem with some field parameters replaced."""
+        return LatticeProblem(family=self.family, n=self.n, metric=self.metric,
+                              field=replace(self.field, **changes), loops=self.loops,
+                              names=self.names, rep=self.rep)
+
+    def __getstate__(self):
+        # ship only the definition; each process rebuilds its cached objects
+        return {k: getattr(self, k) for k in self.__dataclass_fields__}
+
+    def __setstate__(self, state):
+        for k, v in state.items():
+            object.__setattr__(self, k, v)
+
+
+@dataclass(frozen=True)
+class RunSettings:
+    """How a problem is sampled: samples, samples per block, seed, path.
+
+    Block b draws from ``SeedSequence(seed, spawn_key=(b,))``; the block size is part
+    of the experiment (it fixes the random streams).
+    """
+
+    samples: int = 10000
+    block: int = 4096
+    seed: int = 0
+    path: str = "auto"
+
+    def __post_init__(self):
+        object.__setattr__(self, "samples", _count(self.samples, "samples"))
+        object.__setattr__(self, "block", _count(self.block, "block"))
+        if isinstance(self.seed, bool) or not isinstance(self.seed, numbers.Integral) or self.seed < 0:
+            raise ArgumentError("seed", f"got {self.seed!r}; expected an integer >= 0",
+                                f"`seed` must be a non-negative integer, got {self.seed!r}.")
+        if self.path not in PATHS:
+            raise ArgumentError("path", f"got {self.path!r}; expected one of {PATHS}",
+                                f"`path` must be one of {PATHS}, got {self.path!r}.")
 
     @property
     def n_blocks(self) -> int:
@@ -230,19 +257,71 @@ class WilsonProblem:
         sizes[-1] = self.samples - self.block * (self.n_blocks - 1)
         return sizes
 
+
+@dataclass(frozen=True)
+class WilsonProblem(LatticeProblem):
+    """Everything one Monte Carlo run of Wilson loops needs: a :class:`LatticeProblem`
+    (its fields come first) plus the :class:`RunSettings` (``samples``, ``block``,
+    ``seed``, ``path``); picklable and frozen. ``formal=True`` admits a signed area
+    form for the formal routes (it cannot be sampled).
+    """
+
+    samples: int = 10000
+    block: int = 4096
+    seed: int = 0
+    path: str = "auto"
+    formal: bool = False
+
+    def _check_run(self) -> None:
+        settings = RunSettings(self.samples, self.block, self.seed, self.path)
+        object.__setattr__(self, "samples", settings.samples)
+        object.__setattr__(self, "block", settings.block)
+        if self.field.area.signed and not self.formal:
+            raise ArgumentError(
+                "area", "got a density that takes negative values; expected a density >= 0 "
+                "(no measure exists to sample)",
+                "`field.area` has a negative density: the covariance is indefinite and no "
+                "measure exists to sample; evaluate it formally instead (whitegauge series, "
+                "holonomy.lattice_series, noise.FormalGaussian)."
+            )
+        scheme = get_scheme(self.field.scheme)
+        if self.path == "perimeter" and not scheme.perimeter:
+            raise ArgumentError(
+                "path", f"got 'perimeter' for scheme {scheme.name!r}; expected 'dense' or "
+                "'auto'",
+                f"`path`='perimeter' is not available for scheme {scheme.name!r}; "
+                "use 'dense' or 'auto'."
+            )
+
+    @cached_property
+    def lattice(self) -> LatticeProblem:
+        """The lattice problem without the run settings."""
+        return LatticeProblem(family=self.family, n=self.n, metric=self.metric,
+                              field=self.field, loops=self.loops, names=self.names,
+                              rep=self.rep)
+
+    @property
+    def settings(self) -> RunSettings:
+        return RunSettings(self.samples, self.block, self.seed, self.path)
+
+    @property
+    def resolved_path(self) -> str:
+        if self.path == "auto":
+            return "perimeter" if self.scheme.perimeter else "dense"
+        return self.path
+
+    @property
+    def n_blocks(self) -> int:
+        return self.settings.n_blocks
+
+    def block_sizes(self) -> list[int]:
+        return self.settings.block_sizes()
+
     def finish(self, blocks: Sequence[BlockSums]) -> EstimateResult:
         """Combine finished blocks (in block order) into the run's estimates."""
         return combine_blocks(blocks, names=self.names, areas=self.areas, seed=self.seed,
                               block=self.block, scheme=self.scheme.name,
                               path=self.resolved_path)
-
-    def __getstate__(self):
-        # ship only the definition; each process rebuilds its cached objects
-        return {k: getattr(self, k) for k in self.__dataclass_fields__}
-
-    def __setstate__(self, state):
-        for k, v in state.items():
-            object.__setattr__(self, k, v)
 
 
 # -- the sampler ------------------------------------------------------------------------

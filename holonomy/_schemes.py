@@ -27,8 +27,11 @@ convention):
     k / s) and the SU(2) heat-bath law for a_0 = tr Q / 2, density proportional to
     sqrt(1 - a_0^2) exp(beta a_0), beta = 2 k / s.
 
-A scheme is a small class registered by name in :data:`SCHEMES`. The base class
-states the contract.
+A scheme is one class registered by name in :data:`SCHEMES` (:func:`register_scheme`):
+how it forms links, which groups it supports, the exact lattice value of what it
+samples, its expected convergence rate and its series route. The registry is the only
+list of schemes: the spec, the references, the study and the command line read it.
+The base class states the contract.
 
 References
 ----------
@@ -45,10 +48,17 @@ References
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+
 import numpy as np
 
-__all__ = ["Scheme", "SCHEMES", "get_scheme", "LinearScheme", "GaussScheme",
-           "HeatScheme", "WilsonScheme"]
+from noise import ArgumentError
+
+from .exact import (NOT_AVAILABLE, LatticeValue, gaussian_scheme_value, heat_lattice_value,
+                    wilson_action_value)
+
+__all__ = ["Scheme", "SCHEMES", "register_scheme", "get_scheme", "study_schemes",
+           "EXPECTED_RATES", "LinearScheme", "GaussScheme", "HeatScheme", "WilsonScheme"]
 
 
 class Scheme:
@@ -70,14 +80,34 @@ class Scheme:
     4. ``check(group)`` raises ValueError if the scheme does not support ``group``.
     5. ``reads_noise(group)`` is False when the interval variables do not depend on the
        noise (then the perimeter path does not draw it, and ``noise`` is None).
+    6. ``lattice_value(problem, i)`` is the exact value, in law, of what the scheme
+       samples for loop ``i`` of a lattice problem (:class:`holonomy.LatticeProblem`),
+       as a :class:`holonomy.exact.LatticeValue`; ``value`` None with a note where none
+       is known (the default). Never another scheme's value.
+    7. ``rate`` is the exponent p of the bias O(h^p) for a fixed loop (None when there is
+       none or it is unknown; ``rate_note`` says which, for the study's table).
+    8. ``series_route`` names the scheme whose lattice Wick series
+       (:func:`holonomy.lattice_series`) the ``series`` command expands for this scheme,
+       or None when no series applies. Today only the ``linear`` links have a Wick
+       expansion, so every built-in scheme answers ``"linear"``: the series of the
+       continuum axial connection on the spec's grid.
+    9. ``in_study`` is True when ``whitegauge study`` runs the scheme by default.
     """
 
     name: str = ""
     kind: str = "group"
     perimeter: bool = False
+    rate: float | None = None
+    rate_note: str = "unknown"
+    series_route: str | None = "linear"
+    in_study: bool = False
 
     def check(self, group) -> None:
         return None
+
+    def lattice_value(self, problem, i: int) -> LatticeValue:
+        return LatticeValue(None, None, f"{NOT_AVAILABLE} (no exact value is known for "
+                            f"the scheme {self.name!r})")
 
     def reads_noise(self, group) -> bool:
         return True
@@ -105,18 +135,40 @@ def _is_u1(group) -> bool:
     return group.family == "U" and group.n == 1
 
 
+def _abelian_or(problem, i: int, closed_form: str) -> LatticeValue:
+    """U(1) (abelian: exact in law, the heat kernel's value) or the scheme's closed form."""
+    if _is_u1(problem.group):
+        return heat_lattice_value(problem, i)
+    return gaussian_scheme_value(problem, i, closed_form)
+
+
 class LinearScheme(Scheme):
-    """Links exp(-S(y)) of the continuum axial connection (exact Wick expansion)."""
+    """Links exp(-S(y)) of the continuum axial connection (exact Wick expansion).
+
+    Rate 1: each of the a / h columns contributes one exponential of its whole column
+    sum of variance lambda h b, whose error against the heat kernel is O((h b)^2)
+    (see :mod:`holonomy.experiment._study`).
+    """
 
     name = "linear"
     kind = "algebra"
     perimeter = True
+    rate = 1.0
+    in_study = True
+
+    def lattice_value(self, problem, i: int) -> LatticeValue:
+        return _abelian_or(problem, i, "linear")
 
 
 class GaussScheme(Scheme):
     """Plaquettes Q = exp(X): one Gaussian exponential per cell."""
 
     name = "gauss"
+    rate = 2.0   # O(s^2) per plaquette times O(h^-2) plaquettes
+    in_study = True
+
+    def lattice_value(self, problem, i: int) -> LatticeValue:
+        return _abelian_or(problem, i, "gauss")
 
     def _plaquettes_impl(self, kernel, noise, variances, rng, size):
         return kernel.exp(noise)
@@ -127,6 +179,11 @@ class HeatScheme(Scheme):
 
     name = "heat"
     perimeter = True
+    rate_note = "none (exact)"   # exact for lattice loops at every spacing: no bias
+    in_study = True
+
+    def lattice_value(self, problem, i: int) -> LatticeValue:
+        return heat_lattice_value(problem, i)
 
     def reads_noise(self, group) -> bool:
         return _is_u1(group)
@@ -192,13 +249,19 @@ class WilsonScheme(Scheme):
     """Plaquettes from the single-plaquette Wilson law (U(1) and SU(2) only)."""
 
     name = "wilson"
+    rate = 2.0   # w(s) = exp(-c s / 2) (1 + O(s^2)): the gauss argument
 
     def check(self, group) -> None:
         if not (_is_u1(group) or (group.family == "SU" and group.n == 2)):
-            raise ValueError(
+            raise ArgumentError(
+                "scheme", f"got 'wilson' for {group.family}({group.n}); the scheme "
+                "supports U(1) and SU(2) only",
                 f"scheme 'wilson' supports U(1) and SU(2) only, got "
                 f"{group.family}({group.n}); use 'heat', 'gauss' or 'linear'."
             )
+
+    def lattice_value(self, problem, i: int) -> LatticeValue:
+        return wilson_action_value(problem, i)
 
     def _plaquettes_impl(self, kernel, noise, variances, rng, size):
         m = variances.size
@@ -219,9 +282,20 @@ class WilsonScheme(Scheme):
         return kernel.exp(axis * (theta * np.sqrt(2.0 * k))[..., None])
 
 
-SCHEMES: dict[str, type[Scheme]] = {
-    cls.name: cls for cls in (LinearScheme, GaussScheme, HeatScheme, WilsonScheme)
-}
+#: the registry: name -> scheme class, in registration order (the only list of schemes)
+SCHEMES: dict[str, type[Scheme]] = {}
+
+
+def register_scheme(cls: type[Scheme]) -> type[Scheme]:
+    """Register a :class:`Scheme` subclass under its ``name`` (usable as a decorator)."""
+    if not (isinstance(cls, type) and issubclass(cls, Scheme)) or not cls.name:
+        raise TypeError(f"`cls` must be a Scheme subclass with a name, got {cls!r}.")
+    SCHEMES[cls.name] = cls
+    return cls
+
+
+for _cls in (HeatScheme, LinearScheme, GaussScheme, WilsonScheme):
+    register_scheme(_cls)
 
 
 def get_scheme(scheme) -> Scheme:
@@ -232,6 +306,32 @@ def get_scheme(scheme) -> Scheme:
         return scheme()
     if isinstance(scheme, str) and scheme.lower() in SCHEMES:
         return SCHEMES[scheme.lower()]()
-    raise ValueError(
+    raise ArgumentError(
+        "scheme", f"got {scheme!r}; expected one of {', '.join(SCHEMES)}",
         f"`scheme` must be one of {sorted(SCHEMES)} or a Scheme subclass, got {scheme!r}."
     )
+
+
+def study_schemes() -> tuple[str, ...]:
+    """The schemes ``whitegauge study`` runs by default (``in_study``), in registry order."""
+    return tuple(name for name, cls in SCHEMES.items() if cls.in_study)
+
+
+class _Rates(Mapping):
+    """name -> expected rate, read live from the registry (``EXPECTED_RATES``)."""
+
+    def __getitem__(self, name: str) -> float | None:
+        return SCHEMES[name].rate
+
+    def __iter__(self):
+        return iter(SCHEMES)
+
+    def __len__(self) -> int:
+        return len(SCHEMES)
+
+    def __repr__(self) -> str:
+        return repr(dict(self))
+
+
+#: exponent p of the bias O(h^p) of each registered scheme, read from the classes
+EXPECTED_RATES: Mapping[str, float | None] = _Rates()

@@ -11,8 +11,9 @@ noise itself), so it shares the field only in law.
 Grids are nested: the grid at spacing h / 2^j subdivides the coarsest grid exactly, and
 each loop is snapped to every grid.
 
-Expected rates (used by the study's report; derived in the docstring of each scheme,
-:mod:`holonomy._schemes`): for a loop of fixed area in a fixed region,
+Expected rates (each scheme's ``rate``, :mod:`holonomy._schemes`, read through
+:data:`EXPECTED_RATES`; derived in :mod:`holonomy.experiment._study`): for a loop of
+fixed area in a fixed region,
 
 - ``heat``: no bias at any spacing for lattice loops.
 - ``gauss``: each plaquette's law differs from the heat kernel by O(s^2) in its
@@ -32,16 +33,13 @@ from typing import Mapping, Sequence
 
 
 from discretize import Grid, LatticeLoop
-from noise import block_rng, cell_noise, refine_noise
+from noise import ArgumentError, block_rng, cell_noise, refine_noise
 
 from ._estimate import BlockSums
-from ._sampling import WilsonProblem, _block_sums
-from ._schemes import get_scheme
+from ._sampling import LatticeProblem, WilsonProblem, _block_sums
+from ._schemes import EXPECTED_RATES, get_scheme, study_schemes
 
 __all__ = ["StudyProblem", "run_study_block", "EXPECTED_RATES"]
-
-#: exponent p of the bias O(h^p) of each scheme for a fixed loop (see module docstring)
-EXPECTED_RATES = {"heat": None, "gauss": 2.0, "linear": 1.0, "wilson": 2.0}
 
 
 def _study_iv(problem, spacings, schemes):
@@ -51,22 +49,27 @@ def _study_iv(problem, spacings, schemes):
         spacings = tuple(float(h) for h in spacings)
     except (TypeError, ValueError):
         raise TypeError(f"`spacings` must be a list of positive numbers, got {spacings!r}.") from None
+    rule = f"got {spacings!r}; expected "
     if len(spacings) < 2:
-        raise ValueError(f"`spacings` must hold at least two values, got {spacings!r}.")
+        raise ArgumentError("spacings", rule + "at least two values",
+                            f"`spacings` must hold at least two values, got {spacings!r}.")
     if any(not (math.isfinite(h) and h > 0) for h in spacings):
-        raise ValueError(f"`spacings` must be positive finite numbers, got {spacings!r}.")
+        raise ArgumentError("spacings", rule + "positive finite numbers",
+                            f"`spacings` must be positive finite numbers, got {spacings!r}.")
     spacings = tuple(sorted(set(spacings), reverse=True))
     for h in spacings[1:]:
         ratio = spacings[0] / h
         level = round(math.log2(ratio))
         if level < 1 or abs(ratio - 2.0**level) > 1e-9 * ratio:
-            raise ValueError(
+            raise ArgumentError(
+                "spacings", rule + "the coarsest spacing divided by powers of 2",
                 f"`spacings` must be the coarsest spacing divided by powers of 2 (so the "
                 f"noise refines exactly), got {h!r} against {spacings[0]!r}."
             )
     schemes = tuple(get_scheme(s).name for s in schemes)
     if not schemes:
-        raise ValueError("`schemes` is empty: give at least one scheme.")
+        raise ArgumentError("schemes", "got none; expected at least one scheme",
+                            "`schemes` is empty: give at least one scheme.")
     return problem, spacings, schemes
 
 
@@ -81,15 +84,18 @@ class StudyProblem:
         block and seed. Its spacing and scheme are replaced by the ladder.
     spacings : sequence of float
         The coarsest spacing divided by powers of 2, e.g. (0.5, 0.25, 0.125).
-    schemes : sequence of str
+    schemes : sequence of str, optional
+        Registered scheme names; default :func:`holonomy._schemes.study_schemes`.
     """
 
     problem: WilsonProblem
     spacings: tuple
-    schemes: tuple = ("heat", "linear", "gauss")
+    schemes: tuple | None = None
 
     def __post_init__(self):
-        problem, spacings, schemes = _study_iv(self.problem, self.spacings, self.schemes)
+        problem, spacings, schemes = _study_iv(
+            self.problem, self.spacings,
+            study_schemes() if self.schemes is None else self.schemes)
         object.__setattr__(self, "spacings", spacings)
         object.__setattr__(self, "schemes", schemes)
         _ = self.problems  # validates every (spacing, scheme)
@@ -98,9 +104,9 @@ class StudyProblem:
     def grids(self) -> dict:
         """Nested grids: each finer one subdivides the coarsest exactly."""
         base = self.problem
-        coarse = WilsonProblem(
+        coarse = LatticeProblem(
             family=base.family, n=base.n, metric=base.metric, loops=base.loops,
-            field=replace(base.field, spacing=self.spacings[0]), samples=1, block=1,
+            field=replace(base.field, spacing=self.spacings[0]),
         ).grid
         out = {}
         for h in self.spacings:

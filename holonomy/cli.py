@@ -14,7 +14,11 @@ import os
 import sys
 import traceback
 
-from holonomy import __version__
+from holonomy import SCHEMES, __version__, study_schemes
+from holonomy.experiment import (DEMO_GROUPS, MAX_SERIES_ORDER, BlockFailed, Progress,
+                                 SpecError, exact_results, format_exact_table,
+                                 format_series_table, format_table, load_spec, run_demo,
+                                 run_spec, run_study, series_results)
 
 __all__ = ["build_parser", "main"]
 
@@ -42,8 +46,6 @@ def _workers(text: str) -> int:
 
 
 def _order(text: str) -> int:
-    from holonomy.experiment._references import MAX_SERIES_ORDER
-
     try:
         v = int(text)
     except ValueError:
@@ -67,8 +69,6 @@ def _spacings(text: str) -> tuple[float, ...]:
 
 
 def _schemes(text: str) -> tuple[str, ...]:
-    from holonomy.experiment import SCHEMES
-
     vals = tuple(t.strip() for t in text.split(",") if t.strip())
     if not vals or any(v not in SCHEMES for v in vals) or len(set(vals)) != len(vals):
         raise argparse.ArgumentTypeError(
@@ -167,9 +167,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--spacings", type=_spacings, required=True, metavar="H1,H2,...",
                    help="at least two spacings, the coarsest divided by powers of 2, "
                    "e.g. 0.5,0.25,0.125 (required)")
-    p.add_argument("--schemes", type=_schemes, default=("heat", "linear", "gauss"),
-                   metavar="S1,S2,...", help="comma-separated schemes from heat, linear, "
-                   "gauss, wilson (default heat,linear,gauss; wilson needs U(1) or SU(2))")
+    p.add_argument("--schemes", type=_schemes, default=study_schemes(), metavar="S1,S2,...",
+                   help=f"comma-separated registered schemes from {', '.join(SCHEMES)} "
+                   f"(default {','.join(study_schemes())}; a scheme refuses the groups it "
+                   "does not support, e.g. wilson needs U(1) or SU(2))")
     p.add_argument("--out", metavar="DIR", help="output folder, created if missing "
                    "(default: whitegauge-<name>-study in the current folder)")
     _workers_arg(p, "1")
@@ -198,8 +199,6 @@ def build_parser() -> argparse.ArgumentParser:
 def _progress(args):
     """The command's one progress bar (a no-op unless stderr is a terminal and neither
     --quiet nor --json is given)."""
-    from holonomy.experiment import Progress
-
     return Progress(enabled=_talk(args) and sys.stderr.isatty())
 
 
@@ -225,9 +224,6 @@ def _workers_text(workers) -> str:
 
 
 def _cmd_run(args) -> int:
-    from holonomy.experiment import load_spec, run_spec
-    from holonomy.experiment._report import format_table
-
     spec = load_spec(args.spec, purpose="run")
     out = args.out or f"whitegauge-{spec.name}"
     _say(args, f"{spec.name}: {spec.family}({spec.n}), {spec.scheme} scheme, spacing "
@@ -252,9 +248,6 @@ def _cmd_run(args) -> int:
 
 
 def _cmd_exact(args) -> int:
-    from holonomy.experiment import exact_results, load_spec
-    from holonomy.experiment._report import format_exact_table
-
     spec = load_spec(args.spec, purpose="exact")
     obj = exact_results(spec)
     if args.json:
@@ -265,9 +258,6 @@ def _cmd_exact(args) -> int:
 
 
 def _cmd_series(args) -> int:
-    from holonomy.experiment import load_spec, series_results
-    from holonomy.experiment._report import format_series_table
-
     spec = load_spec(args.spec, purpose="series")
     obj = series_results(spec, args.order)
     if args.json:
@@ -278,8 +268,6 @@ def _cmd_series(args) -> int:
 
 
 def _cmd_study(args) -> int:
-    from holonomy.experiment import load_spec, run_study
-
     spec = load_spec(args.spec, purpose="study")
     out = args.out or f"whitegauge-{spec.name}-study"
     _say(args, f"{spec.name}: {spec.family}({spec.n}), schemes {', '.join(args.schemes)} "
@@ -301,8 +289,6 @@ def _cmd_study(args) -> int:
 
 
 def _cmd_demo(args) -> int:
-    from holonomy.experiment import DEMO_GROUPS, run_demo
-
     runs = sum(len(g[3]) for g in DEMO_GROUPS)
     _say(args, f"{runs} runs ({', '.join(f'{f}({n})' for f, n, _, _ in DEMO_GROUPS)}; "
          f"3 loops; schemes heat, gauss, linear and wilson where it applies), "
@@ -338,8 +324,6 @@ def main(argv: list[str] | None = None) -> int:
     if args.command is None:
         parser.print_help()
         return 0
-    from holonomy.experiment import BlockFailed, SpecError
-
     try:
         return _COMMANDS[args.command](args)
     except SpecError as exc:

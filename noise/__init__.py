@@ -5,6 +5,7 @@ integrals of white noise on grids, Gaussian vectors with a given covariance, and
 This layer knows nothing about groups or loops.
 """
 
+from ._errors import *  # noqa: F401,F403
 from ._seeding import *  # noqa: F401,F403
 from ._white import *  # noqa: F401,F403
 from ._gaussian import *  # noqa: F401,F403

@@ -13,6 +13,11 @@ Dispatcher
 ----------
 ExactValue, exact_wilson_loop
 
+Exact values of lattice problems (what each scheme samples)
+-----------------------------------------------------------
+LatticeValue, heat_lattice_value, wilson_action_value, gaussian_scheme_value, loop_value,
+lattice_polygon
+
 Exact evaluation of any polygonal loop
 --------------------------------------
 evaluate_polygon, evaluate_word, ExactEvaluation, face_measures (lasso decomposition,
@@ -41,3 +46,4 @@ from ._evaluate import *  # noqa: F401,F403
 from ._laws import *  # noqa: F401,F403
 from ._characters import *  # noqa: F401,F403
 from ._master import *  # noqa: F401,F403
+from ._lattice import *  # noqa: F401,F403

@@ -1,31 +1,24 @@
 """Shared input checks for the closed-form references (families, metrics, times).
 
-The families and metric names follow the group engine (``holonomy.groups``):
-``U``, ``SU``, ``SO``, ``Sp``; the metric ``<X, Y> = -k Re tr(XY)`` is given by a
-number or by ``"trace"`` (k = 1), ``"physics"`` (k = 2), ``"large-n"`` (k = matrix size).
+Families, matrix sizes and metrics are those of the group engine: this module only
+adapts :func:`holonomy.groups.parse_family` and :func:`holonomy.groups.parse_metric`
+(their one definition) to the closed forms' signatures.
 """
 
 from __future__ import annotations
 
-import math
 import numbers
 
 import numpy as np
 
+from ..groups import FAMILIES, parse_family, parse_metric
+
 __all__: list[str] = []
 
-_FAMILIES = {"U": "U", "SU": "SU", "SO": "SO", "SP": "Sp"}
-_METRICS = ("trace", "physics", "large-n")
 
-
-def _family_iv(family, allowed=("U", "SU", "SO", "Sp")) -> str:
+def _family_iv(family, allowed=FAMILIES) -> str:
     """Normalize a family name (case-insensitive) and check it is in ``allowed``."""
-    if not isinstance(family, str):
-        raise TypeError(f"`family` must be a string such as 'SU', got {family!r}.")
-    fam = _FAMILIES.get(family.strip().upper())
-    if fam is None or fam not in allowed:
-        raise ValueError(f"`family` must be one of {sorted(allowed)}, got {family!r}.")
-    return fam
+    return parse_family(family, tuple(allowed))
 
 
 def _int_iv(value, name: str, minimum: int) -> int:
@@ -36,32 +29,9 @@ def _int_iv(value, name: str, minimum: int) -> int:
     return int(value)
 
 
-def _matrix_size(family: str, n: int) -> int:
-    """Matrix size of the defining representation (Sp(n) acts on C^(2n))."""
-    return 2 * n if family == "Sp" else n
-
-
-def _metric_iv(metric, matrix_size: int, name: str = "k") -> float:
-    """Return the metric constant k from a number or a metric name."""
-    if isinstance(metric, str):
-        if metric == "trace":
-            return 1.0
-        if metric == "physics":
-            return 2.0
-        if metric == "large-n":
-            return float(matrix_size)
-        raise ValueError(
-            f"`{name}` must be a positive number or one of {list(_METRICS)}, got {metric!r}."
-        )
-    if isinstance(metric, bool) or not isinstance(metric, numbers.Real):
-        raise TypeError(
-            f"`{name}` must be a positive number or one of {list(_METRICS)}, got {metric!r}."
-        )
-    if not (math.isfinite(metric) and metric > 0):
-        raise ValueError(
-            f"`{name}` must be a positive number or one of {list(_METRICS)}, got {metric!r}."
-        )
-    return float(metric)
+def _metric_iv(metric, size: int) -> float:
+    """The metric constant k from a number or a metric name (:func:`parse_metric`)."""
+    return parse_metric(metric, size, "k")[1]
 
 
 def _real_iv(value, name: str, *, positive: bool = False, nonnegative: bool = False):

@@ -32,9 +32,11 @@ import numpy as np
 
 from discretize import AreaForm, LatticeLoop, Loop, arrangement
 
+from ._evaluate import evaluate_polygon, evaluate_word, face_measures
 from ._laws import ExactRouteError
 from ._simple import simple_loop
 from ._unitary import unitary_wound_loop
+from ._word import lasso_word
 
 __all__ = ["ExactValue", "exact_wilson_loop", "lattice_polygon"]
 
@@ -115,11 +117,8 @@ def _polygon_shape(loop: Loop, area: AreaForm) -> _Shape:
         mu = areas * scale
         curve_faces = arr if exact_faces else None
     else:
-        try:  # exact integration of a piecewise-constant density over polygonal faces
-            from ._evaluate import face_measures
-        except ImportError:
-            face_measures = None
-        mu = None if face_measures is None else np.asarray(face_measures(arr, area), dtype=float)
+        # exact integration of a piecewise-constant density over polygonal faces
+        mu = np.asarray(face_measures(arr, area), dtype=float)
     simple_period = (arr.n_crossings == 0 and arr.n_faces == 1
                      and abs(int(arr.winding[0])) == loop.turns)
     turns = loop.turns if simple_period else 0
@@ -236,9 +235,6 @@ def exact_wilson_loop(group, rep, loop, *, coupling: float, area=None) -> ExactV
 
 
 def _general_route(group, rep, shape: _Shape, lam: float) -> ExactValue:
-    from ._evaluate import evaluate_polygon, evaluate_word
-    from ._word import lasso_word
-
     if shape.vertices is None:
         raise ExactRouteError("geometry", "the loop has no polygon to evaluate")
     try:

@@ -56,6 +56,8 @@ from fractions import Fraction
 
 import numpy as np
 
+from discretize import arrangement
+
 from ._tensor import contract_exact, contract_numeric, contraction_labels
 from ._laws import ExactRouteError
 from ._word import ReducedWord, lasso_words, reduce_for_trace, reduce_for_traces
@@ -648,8 +650,6 @@ def evaluate_polygon(group, vertices, turns: int = 1, *, coupling=1.0,
     >>> r.faces.n_crossings, r.reduced.word
     (2, (1, -2, 1, 2))
     """
-    from discretize import arrangement
-
     setup = None if group is None else _group_iv(group, rep)
     arr = arrangement(vertices, turns)
     if exact and area_density is None:

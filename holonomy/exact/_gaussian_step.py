@@ -41,7 +41,8 @@ from __future__ import annotations
 import numpy as np
 from scipy import special
 
-from ._common import _family_iv, _int_iv, _matrix_size, _metric_iv
+from ..groups import matrix_size
+from ._common import _family_iv, _int_iv, _metric_iv
 
 __all__ = ["gaussian_step"]
 
@@ -99,7 +100,7 @@ def _gaussian_step_iv(family, n, t, k):
             f"{_MAX_RANK} (SO(n) for n <= {2 * _MAX_RANK + 1}, Sp(n) for n <= {_MAX_RANK}); "
             "use Monte Carlo."
         )
-    N = _matrix_size(fam, n)
+    N = matrix_size(fam, n)
     kk = _metric_iv(k, N)
     if isinstance(t, (str, bytes)):
         raise TypeError(f"`t` must be a number or array, got {t!r}.")

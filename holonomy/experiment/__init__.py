@@ -13,9 +13,11 @@ Example
 
 from ._spec import *  # noqa: F401,F403
 from ._store import *  # noqa: F401,F403
-from ._runner import *  # noqa: F401,F403
+from ._problems import *  # noqa: F401,F403
 from ._references import *  # noqa: F401,F403
 from ._report import *  # noqa: F401,F403
+from ._runner import *  # noqa: F401,F403
+from ._commands import *  # noqa: F401,F403
 from ._study import *  # noqa: F401,F403
 from ._demo import *  # noqa: F401,F403
 from ._faults import *  # noqa: F401,F403

@@ -30,10 +30,24 @@ from dataclasses import dataclass, field
 from datetime import datetime, timezone
 from pathlib import Path
 
+import numpy as np
+
+from discretize import Loop
+from holonomy import SCHEMES, get_scheme
+from holonomy.exact import exact_wilson_loop, gaussian_step
+from holonomy.groups import make_group
+
+from ._commands import series_results
 from ._progress import Progress
+from ._references import NOT_AVAILABLE
+from ._report import MISSING, _render, _write_text_atomic, clean, fmt_value, write_json_atomic
+from ._runner import _check_writable, run_spec
+from ._spec import SpecError, parse_spec
+from ._store import versions
 
 __all__ = ["DEMO_GROUPS", "demo_spec_text", "run_demo", "DemoOutcome"]
 
+#: the scenario: groups and the registered schemes the demo runs for each, in its order
 DEMO_GROUPS = (("SU", 2, "physics", ("heat", "gauss", "linear", "wilson")),
                ("U", 3, "large-n", ("heat", "gauss", "linear")))
 
@@ -63,14 +77,8 @@ def demo_spec_text(family: str, n: int, metric: str, scheme: str, *, samples: in
             f'[run]\nsamples = {samples}\nblock = {block}\nseed = {seed}\n')
 
 
-_ALL_SCHEMES = ("heat", "gauss", "linear", "wilson")
-
-
 def _why_not(family: str, n: int, scheme: str) -> str:
     """Why the demo does not run ``scheme`` for ``family(n)`` (the scheme's own check)."""
-    from holonomy import get_scheme
-    from holonomy.groups import make_group
-
     try:
         get_scheme(scheme).check(make_group(family, n))
     except (ValueError, NotImplementedError) as exc:
@@ -88,17 +96,12 @@ class DemoOutcome:
 
 def _series_part(out: Path):
     """Series of the SU(2) rectangle vs its exact value; (dict, plot path or None)."""
-    import numpy as np
-
-    from ._references import NOT_AVAILABLE, series_results
-    from ._spec import parse_spec
-
     text = demo_spec_text("SU", 2, "physics", "linear")
     spec = parse_spec(text, name="demo-series")
     order = 4
     try:
         row = series_results(spec, order, loops=[0])["results"][0]
-    except Exception as exc:  # noqa: BLE001  (an optional part of the demo: a note)
+    except (SpecError, ArithmeticError) as exc:  # an optional part of the demo: a note
         row = {"coefficients": None, "rationals": None,
                "note": f"{NOT_AVAILABLE} ({type(exc).__name__}: {exc})"}
     info = {"loop": "rectangle", "group": "SU(2)", "order": order,
@@ -112,10 +115,6 @@ def _series_part(out: Path):
     # Gaussian step of variance lambda * h * 0.5 (see _references._gaussian_value);
     # the continuum value exp(-c lambda A / 2) differs from it at order lambda^2.
     try:
-        from discretize import Loop
-        from holonomy.exact import exact_wilson_loop, gaussian_step
-        from holonomy.groups import make_group
-
         g = make_group("SU", 2, "physics")
         loop = Loop.polygon([(0, 0), (1, 0), (1, 0.5), (0, 0.5)])
         lams = np.linspace(0.0, 3.0, 31)
@@ -123,7 +122,7 @@ def _series_part(out: Path):
                    ** round(1.0 / spec.spacing) for l in lams]
         exact = [complex(exact_wilson_loop(g, "fundamental", loop, coupling=float(l)).value).real
                  if l > 0 else 1.0 for l in lams]
-    except Exception as exc:  # noqa: BLE001  (optional route: no plot, a note)
+    except (ValueError, NotImplementedError, ArithmeticError) as exc:  # no plot, a note
         info["note"] = f"exact curve not available ({exc})"
         return info, None
     import matplotlib
@@ -160,7 +159,6 @@ def _survey_plot(rows: list[dict], label: str, path: Path) -> str:
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
-    import numpy as np
 
     rows = [r for r in rows if r["group"] == label]
     loops = list(dict.fromkeys(r["loop"] for r in rows))
@@ -220,12 +218,6 @@ def run_demo(out: str | Path = "whitegauge-demo", *, workers: int | None = None,
              executor=None, progress: bool | Progress = False,
              samples: int = 6000) -> DemoOutcome:
     """Run the demo survey and write ``report.md``, PNG plots and ``results.json``."""
-    from ._references import NOT_AVAILABLE
-    from ._report import MISSING, _render, clean, fmt_value, write_json_atomic, _write_text_atomic
-    from ._runner import _check_writable, run_spec
-    from ._spec import parse_spec
-    from ._store import versions
-
     out = Path(out)
     _check_writable(out)
     (out / "specs").mkdir(exist_ok=True)
@@ -238,7 +230,7 @@ def run_demo(out: str | Path = "whitegauge-demo", *, workers: int | None = None,
         executor = own = cf.ProcessPoolExecutor(max_workers=workers)
     rows, runs = [], []
     omitted = [(f"{family}({n})", s, _why_not(family, n, s)) for family, n, _, schemes
-               in DEMO_GROUPS for s in _ALL_SCHEMES if s not in schemes]
+               in DEMO_GROUPS for s in SCHEMES if s not in schemes]
     plan = []
     for family, n, metric, schemes in DEMO_GROUPS:
         for scheme in schemes:

@@ -35,6 +35,7 @@ from pathlib import Path
 from typing import Any, Sequence
 
 from ._faults import fault_point
+from ._references import loop_references
 
 __all__ = ["build_results", "write_results", "write_json_atomic", "format_table",
            "format_exact_table", "format_series_table", "fmt_value", "clean", "MISSING"]
@@ -49,7 +50,7 @@ def clean(obj: Any) -> Any:
     if hasattr(obj, "item") and not isinstance(obj, (str, bytes)):
         try:
             obj = obj.item()
-        except (ValueError, AttributeError):
+        except ValueError:       # an array of several values: keep it
             pass
     if isinstance(obj, float):
         return obj if math.isfinite(obj) else None
@@ -81,8 +82,6 @@ def _snapping_warning(ref, stderr: float) -> str | None:
 def build_results(spec, problem, estimate, provenance: dict, *,
                   references: Sequence | None = None) -> dict:
     """The results object of a run of ``spec`` (see the module docstring)."""
-    from ._references import loop_references
-
     if references is None:
         references = [loop_references(spec, problem, i) for i in range(len(spec.loops))]
     rows = []

@@ -26,12 +26,19 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable
 
+
+from holonomy import run_block
+from holonomy._estimate import BlockSums
+
 from ._faults import fault_point, maybe_fail_block
+from ._problems import build_lattice, build_problem
 from ._progress import Progress
+from ._report import build_results, write_results
 from ._spec import Spec, SpecError
 from ._store import STORE_NAME, RunStore, versions
 
-__all__ = ["Job", "ExecutionStats", "BlockFailed", "execute", "build_problem", "wilson_job",
+__all__ = ["Job", "ExecutionStats", "BlockFailed", "execute", "build_problem", "build_lattice",
+           "wilson_job",
            "make_executor", "RunOutcome", "run_spec"]
 
 
@@ -40,8 +47,6 @@ def _encode_sums(sums) -> str:
 
 
 def _decode_sums(text: str):
-    from holonomy._estimate import BlockSums
-
     return BlockSums.from_dict(json.loads(text))
 
 
@@ -212,62 +217,7 @@ def execute(job: Job, *, store: RunStore | None = None, executor: cf.Executor | 
     return result, stats
 
 
-# --------------------------------------------------------------------------- specs
-
-def build_problem(spec: Spec, *, scheme: str | None = None, spacing: float | None = None,
-                  formal: bool = False):
-    """The ``holonomy.WilsonProblem`` of ``spec`` (optionally another scheme or spacing).
-
-    Errors raised by the engine while building the loops, the group or the problem are
-    reported as :class:`SpecError` on the key they come from.
-    """
-    from holonomy import Field, WilsonProblem
-
-    h = spec.spacing if spacing is None else spacing
-    loops = []
-    for i, ls in enumerate(spec.loops):
-        try:
-            loops.append(ls.build(h))
-        except (ValueError, TypeError) as exc:
-            raise SpecError(f"loops[{i}]", str(exc)) from None
-    try:
-        area = spec.area_form()
-    except (ValueError, TypeError) as exc:
-        raise SpecError("field.density", str(exc)) from None
-    try:
-        fld = Field(coupling=spec.coupling, spacing=h, gauge=spec.gauge,
-                    reference=spec.reference, scheme=scheme or spec.scheme, area=area)
-    except (ValueError, TypeError) as exc:
-        raise SpecError("field", str(exc)) from None
-    extra = {"formal": True} if formal else {}
-    try:
-        return WilsonProblem(
-            family=spec.family, n=spec.n, metric=spec.metric, field=fld,
-            loops=tuple(loops), names=spec.names, rep=spec.rep,
-            samples=spec.samples, block=spec.block, seed=spec.seed, path="auto", **extra)
-    except NotImplementedError as exc:
-        raise SpecError("field.scheme", str(exc)) from None
-    except (ValueError, TypeError) as exc:
-        raise SpecError(_guess_key(str(exc)), str(exc)) from None
-
-
-def _guess_key(message: str) -> str:
-    """The spec key an engine message is about (it names its argument in backticks)."""
-    table = {"`rep`": "observable.rep", "`scheme`": "field.scheme", "`gauge`":
-             "field.gauge", "`family`": "group.family", "`metric`": "group.metric",
-             "`n`": "group.n", "`samples`": "run.samples", "`block`": "run.block",
-             "`seed`": "run.seed", "`area`": "field.density", "`reference`":
-             "field.reference", "`loops`": "loops", "`coupling`": "field.coupling",
-             "`spacing`": "field.spacing"}
-    for needle, key in table.items():
-        if needle in message:
-            return key
-    return "spec"
-
-
 def wilson_job(problem) -> Job:
-    from holonomy import run_block
-
     return Job(problem=problem, block_fn=run_block)
 
 
@@ -298,8 +248,6 @@ def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor
     store lives in ``out``; without ``out`` nothing is stored (no resume). ``progress``
     is True for a progress bar on stderr, or the :class:`Progress` of the command.
     """
-    from ._report import build_results, write_results
-
     start = datetime.now(timezone.utc)
     t0 = time.perf_counter()
     problem = build_problem(spec)

@@ -27,7 +27,7 @@ The keys (a contract that scripts rely on)::
 
 Unknown keys are refused (a misspelt key would otherwise be silently ignored). Sizes
 that could hang the machine or exhaust its memory are refused before any numerics
-(:data:`LIMITS`: matrix size <= 32, spin dimension <= 64, |power| <= 64, samples <=
+(:data:`LIMITS`: matrix size <= 32, spin dimension <= 64, power <= 64, samples <=
 1e12, block <= 1e6, grid cells <= 1e7, steps per moves token <= 1e6, coupling in
 [1e-100, 1e100], a numeric metric in [1e-6, 1e6]).
 """
@@ -39,24 +39,29 @@ import math
 import re
 import tomllib
 from dataclasses import dataclass
-from fractions import Fraction
 from pathlib import Path
 from typing import Any
+
+from discretize import CURVES, AreaForm, Loop, closed_walk
+from discretize._axial import GAUGES
+from noise import ArgumentError
+
+from .._schemes import SCHEMES
+from ..groups import FAMILIES, METRICS, MIN_N, matrix_size, parse_metric, parse_n, parse_rep, \
+    rep_name
 
 __all__ = ["SpecError", "LoopSpec", "Spec", "load_spec", "parse_spec", "PURPOSES",
            "FAMILIES", "METRICS", "GAUGES", "SCHEMES", "LIMITS"]
 
-FAMILIES = ("U", "SU", "SO", "Sp")
-METRICS = ("trace", "physics", "large-n")
-GAUGES = ("axial-y", "axial-x")
-SCHEMES = ("heat", "linear", "gauss", "wilson")
+# FAMILIES, METRICS (holonomy.groups), GAUGES (discretize) and SCHEMES (the scheme
+# registry, holonomy._schemes) are the engine's own definitions, re-exported here
 PURPOSES = ("run", "study", "exact", "series")
 DEFAULT_BLOCK = 4096
 # Size limits, checked before any numerics so that a typo cannot hang the machine or
 # exhaust its memory (each is far above what a run on one machine can use):
 MAX_MATRIX = 32          # matrix size of the group (U(32), SU(32), SO(32), Sp(16))
 MAX_REP_DIM = 64         # dimension of a spin:j representation (2j + 1)
-MAX_POWER = 64           # |k| of power:k
+MAX_POWER = 64           # k of power:k
 MAX_SAMPLES = 10**12     # samples of one run
 MAX_BLOCK = 10**6        # samples per block (memory is proportional to it)
 MAX_CELLS = 10**7        # cells of the grid that covers the loops at the spacing
@@ -72,8 +77,6 @@ _ELLIPSE_KEYS = ("center", "radii", "sides")
 MAX_SIDES = 100_000      # vertices of a sampled circle, ellipse or curve
 _OBS_KEYS = ("rep",)
 _RUN_KEYS = ("samples", "block", "seed")
-_MOVE = re.compile(r"^([RULD])(\d*)$")
-_STEP = {"R": (1, 0), "L": (-1, 0), "U": (0, 1), "D": (0, -1)}
 
 
 LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM, "power": MAX_POWER,
@@ -109,8 +112,6 @@ class LoopSpec:
 
     def build(self, spacing: float):
         """The ``discretize.Loop`` this entry describes (moves are in units of spacing)."""
-        from discretize import Loop
-
         if self.kind == "vertices":
             return Loop.polygon(self.vertices, turns=self.turns)
         if self.kind == "circle":
@@ -163,8 +164,6 @@ class Spec:
 
     def area_form(self):
         """The ``discretize.AreaForm`` of the density."""
-        from discretize import AreaForm
-
         if isinstance(self.density, float):
             return AreaForm(base=self.density)
         return AreaForm(base=1.0, rects=self.density)
@@ -309,20 +308,26 @@ def _point(value: Any, path: str) -> tuple[float, float]:
 def _group_iv(data: dict) -> tuple[str, int, str | float]:
     g = _table(data, "group", "group", _GROUP_KEYS)
     family = _choice(g, "family", "group.family", FAMILIES)
-    low = {"U": 1, "SU": 2, "SO": 2, "Sp": 1}[family]
+    low = MIN_N[family]
+    n = _integer(g, "n", "group.n", rule=f"an integer >= {low} for {family}")
+    try:
+        n = parse_n(family, n)
+    except ArgumentError as exc:
+        raise SpecError("group.n", exc.rule) from None
     high = MAX_MATRIX // 2 if family == "Sp" else MAX_MATRIX
-    n = _integer(g, "n", "group.n", rule=f"an integer >= {low} for {family}",
-                 check=lambda v: v >= low)
-    if n > high:
+    if matrix_size(family, n) > MAX_MATRIX:
         raise SpecError("group.n", f"got {n}; expected at most {high} for {family} "
                         f"(matrix size limit {MAX_MATRIX})")
-    rule = 'one of "trace", "physics", "large-n" or a number in [1e-6, 1e6]'
+    rule = ", ".join(f'"{m}"' for m in METRICS)
+    rule = f"one of {rule} or a number in [1e-6, 1e6]"
     if "metric" not in g:
         raise SpecError("group.metric", f"missing; expected {rule}")
     metric = g["metric"]
     if isinstance(metric, str):
-        if metric not in METRICS:
-            raise SpecError("group.metric", f"got {metric!r}; expected {rule}")
+        try:
+            metric = parse_metric(metric, matrix_size(family, n))[0]
+        except ArgumentError:
+            raise SpecError("group.metric", f"got {metric!r}; expected {rule}") from None
     else:
         metric = _number(g, "metric", "group.metric", rule=rule,
                          check=lambda v: 1e-6 <= v <= 1e6)
@@ -421,21 +426,10 @@ def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
     if not isinstance(moves, str) or not moves.split():
         raise SpecError(mpath, f"got {_describe(moves)}; expected a string of steps "
                         'like "R4 U2 L4 D2"')
-    x = y = 0
-    for tok in moves.split():
-        m = _MOVE.match(tok)
-        if m is None or (m.group(2) and int(m.group(2)) == 0):
-            raise SpecError(mpath, f"bad step {tok!r}; expected R, U, L or D followed "
-                            "by a positive count, like R4")
-        dx, dy = _STEP[m.group(1)]
-        if len(m.group(2)) > 7 or int(m.group(2) or 1) > MAX_STEPS:
-            raise SpecError(mpath, f"bad step {tok!r}; expected a count of at most "
-                            f"{MAX_STEPS} steps per token")
-        k = int(m.group(2) or 1)
-        x, y = x + dx * k, y + dy * k
-    if (x, y) != (0, 0):
-        raise SpecError(mpath, f"does not close: it ends {x} steps right and {y} up of "
-                        "its start; expected a closed path")
+    try:
+        closed_walk(moves, max_count=MAX_STEPS)
+    except ArgumentError as exc:
+        raise SpecError(mpath, exc.rule) from None
     if "start" not in item:
         raise SpecError(f"{path}.start", "missing; expected a point [x, y] where the "
                         "moves begin")
@@ -451,8 +445,6 @@ def _sides(c: dict, path: str) -> int:
 
 def _curve_iv(c: Any, kind: str, path: str, name: str, turns: int) -> LoopSpec:
     """``loops[i].ellipse`` and ``loops[i].curve`` (the families of discretize.CURVES)."""
-    from discretize import CURVES
-
     if kind == "ellipse":
         if not isinstance(c, dict):
             raise SpecError(path, f"got {_describe(c)}; expected a table "
@@ -498,17 +490,10 @@ def _loop_bbox(loop: LoopSpec, spacing: float) -> tuple[float, float, float, flo
         return cx - r, cy - r, cx + r, cy + r
     if loop.kind in ("ellipse", "curve"):
         return loop.build(spacing).bbox
-    x = y = 0
-    xs, ys = [0], [0]
-    for tok in loop.moves.split():
-        dx, dy = _STEP[tok[0]]
-        k = int(tok[1:] or 1)
-        x, y = x + dx * k, y + dy * k
-        xs.append(x)
-        ys.append(y)
+    walk = closed_walk(loop.moves)
+    (lx, ly), (hx, hy) = walk.min(axis=0).tolist(), walk.max(axis=0).tolist()
     sx, sy = loop.start
-    return (sx + min(xs) * spacing, sy + min(ys) * spacing,
-            sx + max(xs) * spacing, sy + max(ys) * spacing)
+    return (sx + lx * spacing, sy + ly * spacing, sx + hx * spacing, sy + hy * spacing)
 
 
 def _extent_iv(loops: tuple[LoopSpec, ...], spacing: float, reference: float | None,
@@ -536,41 +521,25 @@ def _extent_iv(loops: tuple[LoopSpec, ...], spacing: float, reference: float | N
 
 
 def _rep_iv(obs: dict, family: str, n: int) -> str:
-    rule = 'one of "fundamental", "adjoint", "spin:j" (SU(2), j = 1/2, 1, 3/2, ...) or "power:k" (k a nonzero integer)'
+    """The representation, by the group engine's grammar (:func:`holonomy.groups.parse_rep`),
+    within the spec's size limits; returned in its canonical spelling."""
     if "rep" not in obs:
         return "fundamental"
     rep = obs["rep"]
     if not isinstance(rep, str):
-        raise SpecError("observable.rep", f"got {_describe(rep)}; expected {rule}")
-    if rep in ("fundamental", "adjoint"):
-        return rep
-    kind, _, arg = rep.partition(":")
-    if kind == "spin":
-        try:
-            j = Fraction(arg)
-        except (ValueError, ZeroDivisionError):
-            raise SpecError("observable.rep", f"got {rep!r}; expected spin:j with j a "
-                            "positive half-integer like 1/2, 1, 3/2") from None
-        if j <= 0 or (2 * j).denominator != 1:
-            raise SpecError("observable.rep", f"got {rep!r}; expected spin:j with j a "
-                            "positive half-integer like 1/2, 1, 3/2")
-        if 2 * j + 1 > MAX_REP_DIM:
-            raise SpecError("observable.rep", f"got {rep!r}; expected spin:j with "
-                            f"2j + 1 <= {MAX_REP_DIM}")
-        if not (family == "SU" and n == 2):
-            raise SpecError("observable.rep", f"got {rep!r} for {family}({n}); spin "
-                            "representations need SU(2)")
-        return rep
-    if kind == "power":
-        try:
-            k = int(arg)
-        except ValueError:
-            k = 0
-        if k == 0 or not re.fullmatch(r"[+-]?\d+", arg) or abs(k) > MAX_POWER:
-            raise SpecError("observable.rep", f"got {rep!r}; expected power:k with k a "
-                            f"nonzero integer, |k| <= {MAX_POWER}")
-        return rep
-    raise SpecError("observable.rep", f"got {rep!r}; expected {rule}")
+        raise SpecError("observable.rep", f"got {_describe(rep)}; expected a string like "
+                        '"fundamental", "adjoint", "spin:1/2" or "power:2"')
+    try:
+        kind, arg = parse_rep(rep, family, matrix_size(family, n))
+    except ArgumentError as exc:
+        raise SpecError("observable.rep", exc.rule) from None
+    if kind == "spin" and 2 * arg + 1 > MAX_REP_DIM:
+        raise SpecError("observable.rep", f"got {rep!r}; expected spin:j with "
+                        f"2j + 1 <= {MAX_REP_DIM}")
+    if kind == "power" and arg > MAX_POWER:
+        raise SpecError("observable.rep", f"got {rep!r}; expected power:k with "
+                        f"k <= {MAX_POWER}")
+    return rep_name(kind, arg)
 
 
 def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
@@ -589,7 +558,7 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
     spacing = _number(f, "spacing", "field.spacing", rule="a number > 0",
                       check=lambda v: v > 0)
     gauge = _choice(f, "gauge", "field.gauge", GAUGES, default="axial-y")
-    scheme = _choice(f, "scheme", "field.scheme", SCHEMES, default="heat")
+    scheme = _choice(f, "scheme", "field.scheme", tuple(SCHEMES), default="heat")
     reference = _number(f, "reference", "field.reference", rule="a finite number",
                         required=False)
     density = _density_iv(f, purpose)

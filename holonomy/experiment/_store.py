@@ -26,6 +26,11 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any
 
+import numpy
+import scipy
+
+from holonomy import __version__
+
 from ._faults import fault_point
 from ._spec import SpecError
 
@@ -51,11 +56,6 @@ class StoreMismatch(SpecError):
 
 def versions() -> dict[str, str]:
     """Versions of whitegauge, numpy, scipy and Python (for provenance)."""
-    import numpy
-    import scipy
-
-    from holonomy import __version__
-
     return {"whitegauge": __version__, "numpy": numpy.__version__,
             "scipy": scipy.__version__, "python": platform.python_version()}
 

@@ -50,15 +50,31 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Sequence
 
-import numpy as np
+import csv
+import io
+import json
 
+import numpy as np
+from scipy import optimize, stats
+
+from holonomy import StudyProblem, run_study_block, study_schemes
+from holonomy._estimate import BlockSums
+from holonomy._schemes import EXPECTED_RATES, get_scheme
+from noise import ArgumentError
+
+from ._problems import build_problem
 from ._progress import Progress
+from ._references import loop_references
+from ._report import _render, _write_text_atomic, clean, fmt_value, write_json_atomic
+from ._runner import Job, _check_writable, execute, make_executor
 from ._spec import Spec, SpecError
+from ._store import RunStore, versions
 
 __all__ = ["THEORY_RATES", "RateFit", "fit_rate", "StudyOutcome", "run_study",
            "plot_convergence"]
 
-THEORY_RATES = {"gauss": 2.0, "linear": 1.0, "wilson": 2.0, "heat": None}
+#: the expected rate of each registered scheme (its ``rate``; the derivations above)
+THEORY_RATES = EXPECTED_RATES
 
 
 @dataclass
@@ -107,8 +123,6 @@ def fit_rate(spacings: Sequence[float], block_means: np.ndarray, counts: Sequenc
     reference : the exact value, one per spacing or one for all.
     level : two-sided level of the reported interval (normal quantile).
     """
-    from scipy import optimize, stats
-
     h = np.asarray(spacings, float)
     m = np.asarray(block_means, float)
     c = np.asarray(counts, float)
@@ -162,21 +176,11 @@ class StudyOutcome:
 
 
 def _study_job(study):
-    from holonomy import run_study_block
-
-    from ._runner import Job
-
     def encode(blocks: dict) -> str:
-        import json
-
         return json.dumps([[float(h), s, bs.to_dict()] for (h, s), bs in
                            sorted(blocks.items())])
 
     def decode(text: str) -> dict:
-        import json
-
-        from holonomy._estimate import BlockSums
-
         return {(float(h), s): BlockSums.from_dict(d) for h, s, d in json.loads(text)}
 
     def count(blocks: dict) -> int:
@@ -194,36 +198,26 @@ def _study_job(study):
 def _references(spec: Spec, study, h: float, i: int) -> dict:
     """Exact references at spacing ``h``: per scheme, on the study's own lattice loops
     (the continuum value of the snapped loop for ``heat``, closed forms otherwise)."""
-    from ._references import loop_references
-
     return {s: loop_references(spec, study.problems[(h, s)], i, scheme=s)
             for s in study.schemes}
 
 
-def run_study(spec: Spec, *, spacings: Sequence[float],
-              schemes: Sequence[str] = ("heat", "linear", "gauss"),
+def run_study(spec: Spec, *, spacings: Sequence[float], schemes: Sequence[str] | None = None,
               out: str | Path | None = None, executor=None, workers: int | None = None,
               resume: bool = False, progress: bool | Progress = False) -> StudyOutcome:
     """Run the study and (with ``out``) write ``study.json``, ``study.csv``,
-    ``convergence.png`` and the store ``study.sqlite``."""
-    from holonomy import StudyProblem
-
-    from ._references import loop_references
-    from ._report import _render, clean, fmt_value, write_json_atomic, _write_text_atomic
-    from ._runner import _check_writable, build_problem, execute, make_executor
-    from ._store import RunStore, versions
-
+    ``convergence.png`` and the store ``study.sqlite``; ``schemes`` defaults to the
+    registry's study schemes (:func:`holonomy.study_schemes`)."""
     spacings = tuple(sorted((float(h) for h in spacings), reverse=True))
-    schemes = tuple(schemes)
+    schemes = study_schemes() if schemes is None else tuple(schemes)
     start = datetime.now(timezone.utc)
     t0 = time.perf_counter()
     base = build_problem(spec)
     try:
         study = StudyProblem(base, spacings=spacings, schemes=schemes)
-    except (ValueError, TypeError) as exc:
-        msg = str(exc)
-        key = "--spacings" if "spacing" in msg else "--schemes" if "scheme" in msg else "spec"
-        raise SpecError(key, msg) from None
+    except ArgumentError as exc:
+        key = {"spacings": "--spacings", "scheme": "--schemes", "schemes": "--schemes"}
+        raise SpecError(key.get(exc.argument, "spec"), str(exc)) from None
     job = _study_job(study)
     own = None
     if executor is None and workers and workers > 1:
@@ -291,7 +285,7 @@ def run_study(spec: Spec, *, spacings: Sequence[float],
                          "null" if fit.rate is None else fmt_value(fit.rate, fit.stderr, "e"),
                          "" if fit.interval is None else
                          f"[{fit.interval[0]:.2f}, {fit.interval[1]:.2f}]",
-                         "none (exact)" if fit.theory is None else f"{fit.theory:g}",
+                         get_scheme(s).rate_note if fit.theory is None else f"{fit.theory:g}",
                          fit.note])
     table = (_render(table_rows, ["loop", "scheme", "spacing", "estimate ± error",
                                   "exact", "bias ± error", "z"]) + "\n\n" +
@@ -315,9 +309,6 @@ def run_study(spec: Spec, *, spacings: Sequence[float],
     files = {}
     if out is not None:
         files["study.json"] = str(write_json_atomic(results, out / "study.json"))
-        import csv
-        import io
-
         buf = io.StringIO()
         cols = ["loop", "scheme", "spacing", "estimate", "stderr", "exact", "bias", "z"]
         w = csv.DictWriter(buf, fieldnames=cols, extrasaction="ignore", lineterminator="\n")

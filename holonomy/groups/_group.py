@@ -26,67 +26,93 @@ import math
 import numbers
 from dataclasses import dataclass
 from functools import cached_property, lru_cache
-from typing import TYPE_CHECKING
 
 import numpy as np
 
+from noise import ArgumentError
+
+from ._heat import BrownianResult, brownian, exact_heat_route, heat_kernel
+from ._reps import Representation, make_representation
 from ._expmap import expm_eigh, expm_so3, expm_su2, expm_taylor, expm_u1, expm_u3
 
 _TAYLOR_MAX_N = 8  # up to this size scaled Taylor beats a batched eigh (measured side by side against eigh, 2026-12-02)
 
-if TYPE_CHECKING:  # pragma: no cover
-    from ._heat import BrownianResult
-    from ._reps import Representation
 
-__all__ = ["Group", "make_group", "FAMILIES", "METRICS"]
+__all__ = ["Group", "make_group", "FAMILIES", "METRICS", "MIN_N", "matrix_size",
+           "parse_family", "parse_n", "parse_metric"]
 
+#: the group families, their smallest ``n`` and the metric names: the one definition
+#: that ``make_group``, the closed forms (:mod:`holonomy.exact`) and the spec read
 FAMILIES = ("U", "SU", "SO", "Sp")
+MIN_N = {"U": 1, "SU": 2, "SO": 2, "Sp": 1}
 METRICS = ("trace", "physics", "large-n")
 
 
-def _matrix_size(family: str, n: int) -> int:
+def matrix_size(family: str, n: int) -> int:
+    """Matrix size of the defining representation (``Sp(n)`` acts on C^(2n))."""
     return 2 * n if family == "Sp" else n
+
+
+def parse_family(family, allowed: tuple[str, ...] = FAMILIES) -> str:
+    """The canonical family name (case-insensitive), one of ``allowed``.
+
+    Raises ``TypeError`` for a non-string, :class:`noise.ArgumentError` (argument
+    ``family``) for an unknown name.
+    """
+    if not isinstance(family, str):
+        raise TypeError(f"`family` must be a string, one of {FAMILIES}; got {family!r}.")
+    fam = {f.lower(): f for f in FAMILIES}.get(family.strip().lower())
+    if fam is None or fam not in allowed:
+        rule = f"got {family!r}; expected one of " + ", ".join(f'"{f}"' for f in allowed)
+        raise ArgumentError("family", rule, f"`family` must be one of {allowed} "
+                            f"(case-insensitive); got {family!r}.")
+    return fam
+
+
+def parse_n(family: str, n) -> int:
+    """``n`` as an int, checked against the family's smallest size :data:`MIN_N`."""
+    if isinstance(n, bool) or not isinstance(n, numbers.Integral):
+        raise TypeError(f"`n` must be an integer >= 1; got {n!r}.")
+    n = int(n)
+    low = MIN_N[family]
+    if n < low:
+        rule = f"got {n}; expected an integer >= {low} for {family}"
+        if n < 1:
+            msg = f"`n` must be an integer >= 1; got n={n} for {family}(n)."
+        else:
+            msg = (f"`n` must be >= {low} for {family}(n) ({family}({n}) is the trivial "
+                   f"group); got n={n}.")
+        raise ArgumentError("n", rule, msg)
+    return n
+
+
+def parse_metric(metric, N: int, name: str = "metric") -> tuple[str | float, float]:
+    """``(metric, k)``: a metric name of :data:`METRICS` (exactly as spelt there) or a
+    positive finite number, and its constant k in ``<X, Y> = -k Re tr(XY)`` for matrix
+    size ``N``. ``name`` is the argument's name in the caller (``k`` in the closed forms).
+    """
+    rule = f"got {metric!r}; expected one of " + ", ".join(f'"{m}"' for m in METRICS) + \
+        " or a positive number"
+    if isinstance(metric, str):
+        k = {"trace": 1.0, "physics": 2.0, "large-n": float(N)}.get(metric)
+        if k is None:
+            raise ArgumentError(name, rule, f"`{name}` must be one of {METRICS} or a "
+                                f"positive number; got {metric!r}.")
+        return metric, k
+    if isinstance(metric, numbers.Real) and not isinstance(metric, bool):
+        k = float(metric)
+        if not (math.isfinite(k) and k > 0):
+            raise ArgumentError(name, rule, f"`{name}` must be one of {METRICS} or a "
+                                f"positive finite number; got {metric!r}.")
+        return k, k
+    raise TypeError(f"`{name}` must be one of {METRICS} or a positive number; got {metric!r}.")
 
 
 def _make_group_iv(family, n, metric):
     """Input validation and standardization for `make_group`."""
-    if not isinstance(family, str):
-        raise TypeError(f"`family` must be a string, one of {FAMILIES}; got {family!r}.")
-    fam = {f.lower(): f for f in FAMILIES}.get(family.strip().lower())
-    if fam is None:
-        raise ValueError(f"`family` must be one of {FAMILIES} (case-insensitive); got {family!r}.")
-    if isinstance(n, bool) or not isinstance(n, numbers.Integral):
-        raise TypeError(f"`n` must be an integer >= 1; got {n!r}.")
-    n = int(n)
-    if n < 1:
-        raise ValueError(f"`n` must be an integer >= 1; got n={n} for {fam}(n).")
-    if fam == "SU" and n < 2:
-        raise ValueError(f"`n` must be >= 2 for SU(n) (SU(1) is the trivial group); got n={n}.")
-    if fam == "SO" and n < 2:
-        raise ValueError(f"`n` must be >= 2 for SO(n) (SO(1) is the trivial group); got n={n}.")
-    N = _matrix_size(fam, n)
-    if isinstance(metric, str):
-        name = metric.strip().lower()
-        if name == "trace":
-            k = 1.0
-        elif name == "physics":
-            k = 2.0
-        elif name in ("large-n", "large_n", "largen"):
-            name, k = "large-n", float(N)
-        else:
-            raise ValueError(
-                f"`metric` must be one of {METRICS} or a positive number; got {metric!r}."
-            )
-        metric = name
-    elif isinstance(metric, numbers.Real) and not isinstance(metric, bool):
-        k = float(metric)
-        if not (math.isfinite(k) and k > 0):
-            raise ValueError(
-                f"`metric` must be one of {METRICS} or a positive finite number; got {metric!r}."
-            )
-        metric = k
-    else:
-        raise TypeError(f"`metric` must be one of {METRICS} or a positive number; got {metric!r}.")
+    fam = parse_family(family)
+    n = parse_n(fam, n)
+    metric, k = parse_metric(metric, matrix_size(fam, n))
     return fam, n, metric, k
 
 
@@ -134,7 +160,7 @@ def _cached_group(fam, n, metric, k):
 
 def _unit_basis(family: str, n: int) -> np.ndarray:
     """Orthogonal (not yet normalised) basis of the Lie algebra, shape (d, N, N)."""
-    N = _matrix_size(family, n)
+    N = matrix_size(family, n)
     mats = []
     if family in ("U", "SU"):
         if family == "U":
@@ -204,7 +230,7 @@ class Group:
     @cached_property
     def N(self) -> int:
         """Matrix size (``2n`` for ``Sp(n)``)."""
-        return _matrix_size(self.family, self.n)
+        return matrix_size(self.family, self.n)
 
     @cached_property
     def real(self) -> bool:
@@ -452,8 +478,6 @@ class Group:
     def rep(self, spec: str) -> "Representation":
         """Representation by name: ``"fundamental"``, ``"adjoint"``, ``"trivial"``,
         ``"spin:j"`` (SU(2) and Sp(1); j = 0, 1/2, 1, 3/2, ...), ``"power:k"`` (k >= 1)."""
-        from ._reps import make_representation
-
         cache = self.__dict__.setdefault("_rep_cache", {})
         if spec not in cache:
             r = make_representation(self, spec)
@@ -468,21 +492,15 @@ class Group:
     # -------------------------------------------------- Brownian / heat kernel
     def brownian(self, t, size: int, *, rng=None, steps: int | None = None) -> "BrownianResult":
         """Brownian motion at time ``t`` by sub-stepping; see `holonomy.groups.brownian`."""
-        from ._heat import brownian
-
         return brownian(self, t, size, rng=rng, steps=steps)
 
     def heat_kernel(self, t, size: int, *, rng=None) -> np.ndarray:
         """Samples of the heat kernel p_t; see `holonomy.groups.heat_kernel`."""
-        from ._heat import heat_kernel
-
         return heat_kernel(self, t, size, rng=rng)
 
     @property
     def exact_heat_kernel(self) -> bool:
         """True when `heat_kernel` samples exactly in law; see `exact_heat_route`."""
-        from ._heat import exact_heat_route
-
         return exact_heat_route(self) is not None
 
     def __getstate__(self):

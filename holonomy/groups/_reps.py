@@ -28,13 +28,16 @@ References
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import Any, Callable
 
 import numpy as np
 
-__all__ = ["Representation", "make_representation", "parse_spin"]
+from noise import ArgumentError
+
+__all__ = ["Representation", "make_representation", "parse_spin", "parse_rep", "rep_name"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -96,6 +99,10 @@ def _scalar_casimir(C: np.ndarray) -> float | None:
     return None
 
 
+_REP_RULE = ('one of "fundamental", "adjoint", "trivial", "spin:j" (SU(2) and Sp(1), '
+             'j = 0, 1/2, 1, 3/2, ...) or "power:k" (k an integer >= 1)')
+
+
 def parse_spin(text: str) -> Fraction:
     """Parse a spin ``"3/2"``, ``"1"``, ``"1.5"`` into a Fraction; rejects non-half-integers."""
     try:
@@ -103,14 +110,23 @@ def parse_spin(text: str) -> Fraction:
     except (ValueError, ZeroDivisionError):
         j = None
     if j is None or j < 0 or (2 * j).denominator != 1:
-        raise ValueError(
+        raise ArgumentError(
+            "rep", f"got 'spin:{text}'; expected spin:j with j a half-integer >= 0 like "
+            "0, 1/2, 1, 3/2",
             f"`spec` spin must be a non-negative half-integer such as 0, 1/2, 1, 3/2 "
-            f"(written 'spin:3/2', 'spin:1' or 'spin:1.5'); got {text!r}."
-        )
+            f"(written 'spin:3/2', 'spin:1' or 'spin:1.5'); got {text!r}.")
     return j
 
 
-def _make_representation_iv(group, spec):
+def parse_rep(spec: str, family: str, N: int) -> tuple[str, Fraction | int | None]:
+    """The representation grammar (its one definition): ``(kind, argument)``.
+
+    ``kind`` is ``"fundamental"`` (aliases ``"defining"``, ``"fund"``), ``"adjoint"``
+    (alias ``"adj"``), ``"trivial"``, ``"spin"`` (argument j, for the groups with
+    ``N == 2`` and family SU or Sp) or ``"power"`` (argument k >= 1). ``family`` and
+    ``N`` (the matrix size) are the group's. Raises ``TypeError`` for a non-string and
+    :class:`noise.ArgumentError` (argument ``rep``) for a refused one.
+    """
     if not isinstance(spec, str):
         raise TypeError(
             f"`spec` must be a string: 'fundamental', 'adjoint', 'trivial', 'spin:j' or "
@@ -124,30 +140,38 @@ def _make_representation_iv(group, spec):
     if s == "trivial":
         return ("trivial", None)
     if s.startswith("spin:"):
-        if not (group.N == 2 and group.family in ("SU", "Sp")):
-            raise ValueError(
+        if not (N == 2 and family in ("SU", "Sp")):
+            raise ArgumentError(
+                "rep", f"got {spec!r} for {family}; spin representations need SU(2) or Sp(1)",
                 f"`spec` {spec!r}: spin representations exist for SU(2) and Sp(1) only; "
-                f"the group is {group}. Accepted here: 'fundamental', 'adjoint', 'trivial', "
-                f"'power:k'."
-            )
+                f"the group is {family} with matrix size {N}. Accepted here: 'fundamental', "
+                "'adjoint', 'trivial', 'power:k'.")
         return ("spin", parse_spin(s[5:]))
     if s.startswith("power:"):
-        try:
-            k = int(s[6:])
-        except ValueError:
-            k = 0
+        arg = s[6:].strip()
+        k = 0
+        if re.fullmatch(r"[+-]?\d+", arg):
+            # beyond 18 digits the count only matters as "huge" (no int() of megabytes)
+            k = int(arg) if len(arg) <= 19 else (10**18 if arg[0] != "-" else -1)
         if k < 1:
-            raise ValueError(f"`spec` 'power:k' needs an integer k >= 1; got {spec!r}.")
+            raise ArgumentError(
+                "rep", f"got {spec!r}; expected power:k with k an integer >= 1",
+                f"`spec` 'power:k' needs an integer k >= 1; got {spec!r}.")
         return ("power", k)
-    raise ValueError(
+    raise ArgumentError(
+        "rep", f"got {spec!r}; expected {_REP_RULE}",
         f"`spec` must be 'fundamental', 'adjoint', 'trivial', 'spin:j' (SU(2), Sp(1)) or "
-        f"'power:k'; got {spec!r}."
-    )
+        f"'power:k'; got {spec!r}.")
+
+
+def rep_name(kind: str, arg) -> str:
+    """The canonical name of a parsed representation (``"spin:3/2"``, ``"power:2"``)."""
+    return kind if arg is None else f"{kind}:{arg}"
 
 
 def make_representation(group, spec: str) -> Representation:
     """Build the representation ``spec`` of ``group`` (see the module docstring)."""
-    kind, arg = _make_representation_iv(group, spec)
+    kind, arg = parse_rep(spec, group.family, group.N)
     if kind == "fundamental":
         # SO(2) acting on C^2 splits into two characters.
         r = Representation(

@@ -109,7 +109,7 @@ SPEC_CASES = [
     ("rep-unknown", M(('rep = "fundamental"', 'rep = "spinor"')), "observable.rep",
      '"adjoint"'),
     ("rep-power-zero", M(('rep = "fundamental"', 'rep = "power:0"')), "observable.rep",
-     "nonzero integer"),
+     "an integer >= 1"),
     ("top-key-unknown", M(('name = "hard"', 'name = "hard"\nruns = 3')), "runs",
      "unknown key"),
     ("field-key-misspelt", M(("coupling = 1.0", "coupling = 1.0\ncoupling_ = 2.0")),
@@ -157,7 +157,7 @@ SPEC_CASES = [
     ("spin-huge", M(('rep = "fundamental"', 'rep = "spin:100001/2"')), "observable.rep",
      "2j + 1 <= 64"),
     ("power-huge", M(('rep = "fundamental"', 'rep = "power:100000000000000000000"')),
-     "observable.rep", "|k| <= 64"),
+     "observable.rep", "k <= 64"),
     ("moves-huge-count", M(('"R2 U1 L1 U1 L1 D2"', '"R200000000000000000000 U1 '
                             'L200000000000000000000 D1"')), "loops[1].moves",
      "at most 1000000 steps"),

@@ -97,7 +97,7 @@ class TestClosedForms:
             (("Sp", 4, 1.0, 1), ValueError, "`n` = 4 is too large for Sp"),
             (("SU", 1, 1.0, 1), ValueError, "`n` must be >= 2 for SU"),
             (("U", 2, np.inf, 1), ValueError, "`t` must be finite"),
-            (("U", 2, 1.0, "wide"), ValueError, "`k` must be a positive number or one of"),
+            (("U", 2, 1.0, "wide"), ValueError, "`k` must be one of .* or a positive number"),
             (("G2", 2, 1.0, 1), ValueError, "`family` must be one of"),
         ],
     )

@@ -112,7 +112,7 @@ class TestU1Loop:
             (([1, 2], [1.0], 1.0), {}, ValueError, "`areas` must have the shape"),
             (([1], [np.nan], 1.0), {}, ValueError, "`areas` must be finite"),
             (([1], [1.0], -1.0), {}, ValueError, "`coupling` must be > 0"),
-            (([1], [1.0], 1.0, 0), {}, ValueError, "`k` must be a positive number"),
+            (([1], [1.0], 1.0, 0), {}, ValueError, "`k` must be one of .* or a positive finite number"),
             (([1], [1.0], 1.0), {"charge": 0.5}, TypeError, "`charge` must be an integer"),
         ],
     )

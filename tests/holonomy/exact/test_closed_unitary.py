@@ -217,7 +217,7 @@ class TestWoundLoop:
             ((2, 0, 1.0), {}, ValueError, "`n` must be an integer >= 1"),
             ((2, 2.0, 1.0), {}, TypeError, "`n` must be an integer"),
             ((2, 2, np.nan), {}, ValueError, "`t` must be finite"),
-            ((2, 2, 1.0), {"k": -1}, ValueError, "`k` must be a positive number"),
+            ((2, 2, 1.0), {"k": -1}, ValueError, "`k` must be one of .* or a positive finite number"),
             ((2, 2, 1.0, "yes"), {}, TypeError, "`special` must be a bool"),
         ],
     )

@@ -10,7 +10,10 @@ import re
 
 import pytest
 
+from discretize import Loop
 from holonomy.cli import main
+from holonomy.groups import make_group
+from noise import ArgumentError
 from holonomy.experiment import SpecError, load_spec, parse_spec
 
 from wg_specs import ISSUE_SPEC, TINY_SPEC
@@ -186,5 +189,34 @@ def test_bad_options_exit_2(argv, key, tmp_path, capsys):
 def test_spin_for_su2_and_power_accepted():
     spec = parse_spec(_sub("[run]", '[observable]\nrep = "spin:3/2"\n[run]'))
     assert spec.rep == "spin:3/2"
-    spec = parse_spec(_sub("[run]", '[observable]\nrep = "power:-2"\n[run]'))
-    assert spec.rep == "power:-2"
+    spec = parse_spec(_sub("[run]", '[observable]\nrep = "spin:1.5"\n[run]'))
+    assert spec.rep == "spin:3/2"      # the engine's canonical spelling
+    spec = parse_spec(_sub("[run]", '[observable]\nrep = "power:2"\n[run]'))
+    assert spec.rep == "power:2"
+
+
+# Values the spec once passed and the engine then refused under another key: the spec
+# now calls the engine's own grammar (holonomy.groups.parse_rep, parse_metric;
+# discretize.parse_moves), so each is refused once, at the spec, on its own key, and the
+# engine refuses exactly the same values.
+@pytest.mark.parametrize("old,new,key,rule", [
+    ('rep = "fundamental"', 'rep = "power:-2"', "observable.rep",
+     "got 'power:-2'; expected power:k with k an integer >= 1"),
+    ('"R2 U1 L1 U1 L1 D2"', '"R U L D"', "loops[1].moves",
+     "bad step 'R'; expected R, U, L or D followed by a positive count"),
+    ('metric = "physics"', 'metric = "Large_N"', "group.metric", "got 'Large_N'; expected"),
+])
+def test_refused_once_at_the_spec_with_its_key(old, new, key, rule):
+    text = _sub(old, new, TINY_SPEC.replace("[run]", '[observable]\nrep = "fundamental"\n[run]'))
+    with pytest.raises(SpecError) as info:
+        parse_spec(text)
+    assert info.value.key == key
+    assert info.value.rule.startswith(rule)
+    # the engine agrees: the same value is refused there (same argument, same rule)
+    engine = {"observable.rep": lambda: make_group("SU", 2).rep("power:-2"),
+              "loops[1].moves": lambda: Loop.from_moves("R U L D"),
+              "group.metric": lambda: make_group("SU", 2, "Large_N")}[key]
+    with pytest.raises(ArgumentError) as info:
+        engine()
+    assert info.value.argument == key.split(".")[-1].replace("rep", "rep")
+    assert info.value.rule.startswith(rule[:20])

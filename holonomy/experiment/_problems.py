@@ -1,0 +1,81 @@
+"""From a validated spec to the engine's problems.
+
+:func:`build_lattice` makes the lattice problem (group, representation, field, loops:
+what ``exact``, ``series`` and the references take); :func:`build_problem` adds the run
+settings (what ``run`` and ``study`` sample). An engine error that names its argument
+(:class:`noise.ArgumentError`) is reported as a :class:`SpecError` on the key that
+argument comes from (:data:`ARGUMENT_KEYS`), never by reading the message.
+"""
+
+from __future__ import annotations
+
+from discretize import Loop
+from holonomy import Field, LatticeProblem, WilsonProblem
+from noise import ArgumentError
+
+from ._spec import Spec, SpecError
+
+__all__ = ["ARGUMENT_KEYS", "build_lattice", "build_problem"]
+
+#: the spec key each engine argument comes from
+ARGUMENT_KEYS = {"rep": "observable.rep", "scheme": "field.scheme", "gauge": "field.gauge",
+                 "family": "group.family", "metric": "group.metric", "n": "group.n",
+                 "samples": "run.samples", "block": "run.block", "seed": "run.seed",
+                 "area": "field.density", "reference": "field.reference",
+                 "loops": "loops", "coupling": "field.coupling", "spacing": "field.spacing"}
+
+
+def _loops(spec: Spec, h: float) -> tuple[Loop, ...]:
+    loops = []
+    for i, ls in enumerate(spec.loops):
+        try:
+            loops.append(ls.build(h))
+        except (ValueError, TypeError) as exc:
+            raise SpecError(f"loops[{i}]", str(exc)) from None
+    return tuple(loops)
+
+
+def _field(spec: Spec, scheme: str | None, spacing: float) -> Field:
+    try:
+        return Field(coupling=spec.coupling, spacing=spacing,
+                     gauge=spec.gauge, reference=spec.reference,
+                     scheme=scheme or spec.scheme, area=spec.area_form())
+    except ArgumentError as exc:
+        raise SpecError(ARGUMENT_KEYS.get(exc.argument, "field"), exc.rule) from None
+
+
+def _refused(exc: ArgumentError) -> SpecError:
+    return SpecError(ARGUMENT_KEYS.get(exc.argument, "spec"), exc.rule)
+
+
+def build_lattice(spec: Spec, *, scheme: str | None = None,
+                  spacing: float | None = None) -> LatticeProblem:
+    """The ``holonomy.LatticeProblem`` of ``spec`` (optionally another scheme or
+    spacing); a signed density is fine (nothing is sampled)."""
+    h = spec.spacing if spacing is None else spacing
+    loops = _loops(spec, h)
+    fld = _field(spec, scheme, h)
+    try:
+        return LatticeProblem(family=spec.family, n=spec.n, metric=spec.metric, field=fld,
+                              loops=loops, names=spec.names, rep=spec.rep)
+    except ArgumentError as exc:
+        raise _refused(exc) from None
+
+
+def build_problem(spec: Spec, *, scheme: str | None = None, spacing: float | None = None,
+                  formal: bool = False) -> WilsonProblem:
+    """The ``holonomy.WilsonProblem`` of ``spec`` (optionally another scheme or spacing).
+
+    Errors raised by the engine while building the loops, the group or the problem are
+    reported as :class:`SpecError` on the key they come from.
+    """
+    h = spec.spacing if spacing is None else spacing
+    loops = _loops(spec, h)
+    fld = _field(spec, scheme, h)
+    try:
+        return WilsonProblem(
+            family=spec.family, n=spec.n, metric=spec.metric, field=fld, loops=loops,
+            names=spec.names, rep=spec.rep, samples=spec.samples, block=spec.block,
+            seed=spec.seed, path="auto", formal=formal)
+    except ArgumentError as exc:
+        raise _refused(exc) from None
