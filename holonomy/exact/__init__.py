@@ -16,7 +16,7 @@ ExactValue, exact_wilson_loop
 Exact values of lattice problems (what each scheme samples)
 -----------------------------------------------------------
 LatticeValue, heat_lattice_value, wilson_action_value, gaussian_scheme_value, loop_value,
-lattice_polygon
+simple_cells
 
 Exact evaluation of any polygonal loop
 --------------------------------------

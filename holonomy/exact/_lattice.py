@@ -37,7 +37,7 @@ from ._gaussian_step import gaussian_step
 from ._wilson_action import wilson_lattice_loop
 
 __all__ = ["LatticeValue", "NOT_AVAILABLE", "loop_value", "simple_cells", "heat_lattice_value",
-           "wilson_action_value", "gaussian_scheme_value", "lattice_polygon"]
+           "wilson_action_value", "gaussian_scheme_value"]
 
 NOT_AVAILABLE = "not available for this loop"
 #: what an exact route raises for a loop or group it does not cover
@@ -83,7 +83,7 @@ def simple_cells(lattice_loop):
     return w
 
 
-def lattice_polygon(lattice_loop) -> Loop:
+def _corner_loop(lattice_loop) -> Loop:
     """The lattice loop as a ``discretize.Loop`` polygon through its corners."""
     xy = np.asarray(lattice_loop.coordinates, float)
     if len(xy) > 1 and (xy[0] == xy[-1]).all():
@@ -106,7 +106,7 @@ def heat_lattice_value(problem, i: int) -> LatticeValue:
     out = loop_value(problem.group, problem.rep, lat, field.coupling, field.area)
     if out.value is None:
         try:
-            poly = lattice_polygon(lat)
+            poly = _corner_loop(lat)
         except ValueError:       # a degenerate polygon: keep the first answer
             poly = None
         if poly is not None:
