@@ -17,18 +17,23 @@ References
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 
 from ._solver import MatrixStorage, QuaternionStorage
 from .groups import su2_heat_quaternions
 
-__all__ = ["MatrixKernel", "QuaternionKernel", "kernel_for"]
+__all__ = ["MatrixKernel", "QuaternionKernel", "FastMatrixKernel", "FastQuaternionKernel",
+           "kernel_for", "kernel_path", "fast_available", "KERNEL_ENV"]
 
 _PAULI = np.array([[[0, 1], [1, 0]], [[0, -1j], [1j, 0]], [[1, 0], [0, -1]]], dtype=complex)
 
 
 class MatrixKernel(MatrixStorage):
     """Elements as (..., N, N) matrices; any group."""
+
+    name = "numpy"
 
     def exp(self, coords: np.ndarray) -> np.ndarray:
         return self.group.exp_matrix(self.group.algebra(coords))
@@ -85,9 +90,112 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
         return float(np.sqrt(2.0) * np.abs(np.einsum("...i,...i->...", a, a) - 1.0).max())
 
 
-def kernel_for(group) -> MatrixKernel:
-    """The fastest kernel for ``group``: quaternions for SU(2) and Sp(1)."""
+# ------------------------------------------------------------ the `fast` extra (numba)
+class FastMatrixKernel(MatrixKernel):
+    """`MatrixKernel` with compiled products (:mod:`holonomy._fast`)."""
+
+    name = "numba"
+
+    def __init__(self, group):
+        super().__init__(group)
+        from . import _fast
+
+        self._fast = _fast
+
+    def mul(self, a, b):
+        shape = np.broadcast_shapes(a.shape, b.shape)
+        N = self.group.N
+        a = np.ascontiguousarray(np.broadcast_to(a, shape)).reshape(-1, N, N)
+        b = np.ascontiguousarray(np.broadcast_to(b, shape)).reshape(-1, N, N)
+        dtype = np.result_type(a, b)
+        return self._fast.matrix_mul(a.astype(dtype, copy=False),
+                                     b.astype(dtype, copy=False)).reshape(shape)
+
+    def product(self, factors):
+        if factors.ndim != 4:
+            return super().product(factors)
+        return self._fast.matrix_product(np.ascontiguousarray(factors))
+
+
+class FastQuaternionKernel(QuaternionKernel):
+    """`QuaternionKernel` with compiled exponentials, products and heat draws."""
+
+    name = "numba"
+
+    def __init__(self, group):
+        super().__init__(group)
+        from . import _fast
+
+        self._fast = _fast
+
+    def exp(self, coords):
+        c = np.ascontiguousarray(coords, dtype=float)
+        return self._fast.quaternion_exp(c.reshape(-1, 3), self.V).reshape(c.shape[:-1] + (4,))
+
+    def mul(self, a, b):
+        shape = np.broadcast_shapes(a.shape, b.shape)
+        a = np.ascontiguousarray(np.broadcast_to(a, shape)).reshape(-1, 4)
+        b = np.ascontiguousarray(np.broadcast_to(b, shape)).reshape(-1, 4)
+        return self._fast.quaternion_mul(a, b).reshape(shape)
+
+    def product(self, factors):
+        f = np.ascontiguousarray(factors)
+        if f.ndim != 3:
+            return super().product(factors)
+        return self._fast.quaternion_product(f)
+
+    def heat(self, t, size, rng):
+        from .groups._heat import _IMAGE_LOG_TOL, _TAU_REJECT, sample_su2_angle
+
+        t = np.asarray(t, float)
+        tau = np.ascontiguousarray(np.broadcast_to(t / (4.0 * self.group.k), (size,) + t.shape))
+        flat = tau.ravel()
+        out = np.zeros(flat.shape + (4,))
+        out[:, 0] = 1.0
+        small = np.flatnonzero((flat > 0) & (flat < _TAU_REJECT))
+        large = np.flatnonzero(flat >= _TAU_REJECT)
+        if small.size:
+            self._fast.su2_heat_small(flat, small, out, rng, _IMAGE_LOG_TOL)
+        if large.size:  # inverse CDF, as in the numpy path
+            theta = sample_su2_angle(flat[large], rng=rng)
+            axis = rng.standard_normal((large.size, 3))
+            axis *= (np.sin(theta) / np.sqrt(np.einsum("ij,ij->i", axis, axis)))[:, None]
+            out[large, 0] = np.cos(theta)
+            out[large, 1:] = axis
+        return out.reshape(tau.shape + (4,))
+
+
+#: environment variable choosing the kernels: "numpy", "fast" or "auto" (the default:
+#: the compiled kernels when numba is installed, the numpy ones otherwise)
+KERNEL_ENV = "WHITEGAUGE_KERNEL"
+
+
+def fast_available() -> bool:
+    """True when the ``fast`` extra (numba) can be imported."""
+    try:
+        import numba  # noqa: F401
+    except ImportError:
+        return False
+    return True
+
+
+def kernel_path(fast: bool | None = None) -> str:
+    """``"numba"`` or ``"numpy"``: the kernels `kernel_for` returns (``provenance.kernel``)."""
+    if fast is None:
+        choice = os.environ.get(KERNEL_ENV, "auto").strip().lower()
+        if choice not in ("auto", "numpy", "fast"):
+            raise ValueError(f"`{KERNEL_ENV}` must be 'auto', 'numpy' or 'fast'; got {choice!r}.")
+        if choice == "fast" and not fast_available():
+            raise ValueError(f"`{KERNEL_ENV}`='fast' needs the extra: pip install -e '.[fast]'.")
+        fast = choice == "fast" or (choice == "auto" and fast_available())
+    return "numba" if fast else "numpy"
+
+
+def kernel_for(group, fast: bool | None = None) -> MatrixKernel:
+    """The fastest kernel for ``group``: quaternions for SU(2) and Sp(1); compiled ones
+    when ``fast`` (default: `kernel_path`, i.e. when numba is installed)."""
+    compiled = kernel_path(fast) == "numba"
     if group.N == 2 and group.family in ("SU", "Sp"):
-        return QuaternionKernel(group)
-    return MatrixKernel(group)
+        return FastQuaternionKernel(group) if compiled else QuaternionKernel(group)
+    return FastMatrixKernel(group) if compiled else MatrixKernel(group)
 

@@ -26,9 +26,9 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable
 
-
 from holonomy import run_block
 from holonomy._estimate import BlockSums
+from holonomy._kernels import kernel_path
 
 from ._faults import fault_point, maybe_fail_block
 from ._problems import build_lattice, build_problem
@@ -288,6 +288,9 @@ def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor
         "block_seconds": stats.block_seconds,
         "executor": "inline" if executor is None else type(executor).__name__,
         "platform": sys.platform,
+        # which sampler kernels ran: "numpy" (the reference) or "numba" (the `fast`
+        # extra); the two agree to rounding, not bit for bit
+        "kernel": kernel_path(),
     })
     if bar is not None:
         bar.step(f"{spec.name}: exact values")

@@ -636,11 +636,15 @@ def su2_heat_quaternions(tau, *, rng=None) -> np.ndarray:
     rng = np.random.default_rng(rng)
     tau = np.asarray(tau, float)
     flat = tau.ravel()
-    out = np.zeros(flat.shape + (4,))
-    out[:, 0] = 1.0
+    out = np.empty(flat.shape + (4,))
     small = np.flatnonzero((flat > 0) & (flat < _TAU_REJECT))
     large = np.flatnonzero(flat >= _TAU_REJECT)
-    todo, t = small, flat[small]
+    if small.size + large.size < flat.size:  # t = 0: the identity
+        zero = np.flatnonzero(flat <= 0)
+        out[zero] = (1.0, 0.0, 0.0, 0.0)
+    todo = small
+    whole = small.size == flat.size  # the usual case: no fancy indexing in round one
+    t = flat if whole else flat[small]
     while todo.size:
         Z = rng.standard_normal((todo.size, 3))
         u = rng.random(todo.size)
@@ -648,9 +652,15 @@ def su2_heat_quaternions(tau, *, rng=None) -> np.ndarray:
         th = np.sqrt(2.0 * t) * r
         with np.errstate(invalid="ignore"):
             ok = (th <= np.pi) & (u * th * th <= _accept_numerator(th, t))
-        idx, th_ok = todo[ok], th[ok]
-        out[idx, 0] = np.cos(th_ok)
-        out[idx, 1:] = Z[ok] * (np.sin(th_ok) / r[ok])[:, None]
+        if whole:
+            # every entry written now, the rejected ones again in later rounds
+            np.cos(th, out=out[:, 0])
+            np.multiply(Z, (np.sin(th) / r)[:, None], out=out[:, 1:])
+            whole = False
+        else:
+            idx, th_ok = todo[ok], th[ok]
+            out[idx, 0] = np.cos(th_ok)
+            out[idx, 1:] = Z[ok] * (np.sin(th_ok) / r[ok])[:, None]
         todo, t = todo[~ok], t[~ok]
     if large.size:
         theta = sample_su2_angle(flat[large], rng=rng)
