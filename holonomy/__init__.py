@@ -31,4 +31,4 @@ from ._sampling import (  # noqa: E402
 )
 from ._study import EXPECTED_RATES, StudyProblem, run_study_block  # noqa: E402
 from ._lattice_series import lattice_covariance, lattice_series  # noqa: E402
-from ._continuum_series import continuum_series  # noqa: E402  (continuum series)
+from ._continuum_series import continuum_series, exact_series  # noqa: E402  (continuum series)

@@ -40,7 +40,7 @@ import sympy
 from .exact import evaluate_polygon
 from ._series import SeriesResult
 
-__all__ = ["continuum_series"]
+__all__ = ["continuum_series", "exact_series"]
 
 _LAM = sympy.Symbol("lambda_", positive=True)
 
@@ -162,3 +162,106 @@ def continuum_series(group: Any, vertices: Any, turns: int = 1, order: int = 4, 
         coeffs = [complex(c) if complex(c).imag else float(c) for c in coeffs]
     return SeriesResult(coefficients=coeffs, order=M, rep=rep_name, dim=int(group.N),
                         exact=exact)
+
+
+def _rational(x: float, max_den: int = 1 << 20) -> Any:
+    """x as a sympy Rational when it is one with a modest denominator, else None.
+
+    Lattice measures are multiples of h^2 and Casimirs rational for a rational metric;
+    a float that is not (a polygon approximating a circle) gets no rational.
+    """
+    from fractions import Fraction
+
+    f = Fraction(float(x)).limit_denominator(max_den)
+    # a near miss is a float that only resembles a rational: within a few ulps only
+    if abs(float(f) - float(x)) > 4e-16 * max(1.0, abs(float(x))):
+        return None
+    return sympy.Rational(f.numerator, f.denominator)
+
+
+def _exp_coefficients(terms, order: int):
+    """Taylor coefficients of ``sum_r a_r exp(b_r lambda)``: exact when every a_r, b_r
+    has a rational form, else floats. Returns ``(coefficients, exact)``."""
+    exact_terms = [(_rational(a), _rational(b)) for a, b in terms]
+    if all(a is not None and b is not None for a, b in exact_terms):
+        coeffs = [sum(a * b ** j for a, b in exact_terms) / math.factorial(j)
+                  for j in range(order + 1)]
+        return [sympy.nsimplify(c) for c in coeffs], True
+    return [float(sum(a * b ** j for a, b in terms) / math.factorial(j))
+            for j in range(order + 1)], False
+
+
+def exact_series(group: Any, rep: Any, loop: Any, order: int, *,
+                 area: Any = None) -> SeriesResult | None:
+    """Taylor coefficients in the coupling of the exact Wilson loop of any loop.
+
+    The same routes as :func:`holonomy.exact.exact_wilson_loop` (which decides), each
+    expanded exactly: U(1) windings and simple loops ``exp(-c lambda S / 2)``; U(N),
+    SU(N) loops wound n times by the hook formula, a finite sum of exponentials; other
+    polygons by :func:`continuum_series` (lasso decomposition). For a lattice loop this
+    is the series of the heat scheme's value (the heat-kernel lattice measure is exact
+    for lattice loops); for a polygon, of the continuum value.
+
+    Parameters
+    ----------
+    group : Group
+    rep : str or Representation
+    loop : discretize.LatticeLoop or discretize.Loop
+    order : int
+        M >= 0.
+    area : discretize.AreaForm, optional
+        A signed density gives the formal continuation's series.
+
+    Returns
+    -------
+    SeriesResult or None
+        None when no exact route applies. ``exact`` is True when the coefficients are
+        sympy Rationals (rational measures and Casimirs), else they are floats;
+        ``method`` names the route.
+
+    References
+    ----------
+    .. [1] T. Levy, Mem. Amer. Math. Soc. 166 (2003), no. 790 (simple loops, lattice
+       heat-kernel measure).
+    .. [2] E. M. Rains, J. Theoret. Probab. 10 (1997) 659-679 (loops wound n times).
+    """
+    from .exact import exact_wilson_loop, unitary_casimir, unitary_dimension
+    from .exact._dispatch import _lattice_shape, _polygon_shape
+    from .exact._unitary import _hooks
+
+    if isinstance(order, (bool, np.bool_)) or not isinstance(order, numbers.Integral) \
+            or order < 0:
+        raise ValueError(f"`order` must be an integer >= 0; got {order!r}.")
+    ev = exact_wilson_loop(group, rep, loop, coupling=1.0, area=area)
+    if ev is None:
+        return None
+    M = int(order)
+    rep_name = rep if isinstance(rep, str) else rep.name
+    dim = int(group.rep(rep).dim) if isinstance(rep, str) else int(rep.dim)
+    det = ev.details
+    if ev.method == "u1-windings":
+        terms = [(1.0, -det["casimir"] * det["sum_n2_mu"] / 2)]
+    elif ev.method == "simple-loop":
+        terms = [(1.0, -det["casimir"] * det["measure"] / 2)]
+    elif ev.method == "hook-expansion":
+        N, n, mu = group.N, det["turns"], det["measure"]
+        special = group.family == "SU"
+        terms = [(sign * unitary_dimension(lam, N) / N,
+                  -unitary_casimir(lam, N, k=group.k, special=special) * mu / 2)
+                 for sign, lam in _hooks(n, N)]
+    else:
+        from discretize import AreaForm, LatticeLoop
+
+        shape = (_lattice_shape if isinstance(loop, LatticeLoop) else _polygon_shape)(
+            loop, area if area is not None else AreaForm())
+        res = continuum_series(group, shape.vertices, shape.periods, M, rep=rep_name,
+                               area_density=shape.area, exact=True)
+        coeffs = res.coefficients
+        exact = all(sympy.sympify(c).is_Rational for c in coeffs)
+        if not exact:
+            coeffs = [float(c) for c in coeffs]
+        return SeriesResult(coefficients=coeffs, order=M, rep=rep_name, dim=dim,
+                            exact=exact, method=ev.method)
+    coeffs, exact = _exp_coefficients(terms, M)
+    return SeriesResult(coefficients=coeffs, order=M, rep=rep_name, dim=dim, exact=exact,
+                        method=ev.method)

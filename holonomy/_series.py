@@ -108,6 +108,11 @@ class SeriesResult:
         True when the coefficients are exact sympy values.
     diagrams : int
         Number of pairings D that were contracted.
+    method : str or None
+        How the coefficients were obtained (set by the routes that have several).
+    asymptotic : bool
+        True when the series is only asymptotic (the Wilson action's weak-coupling
+        expansion misses terms like exp(-const / lambda)).
     """
 
     coefficients: list
@@ -117,6 +122,8 @@ class SeriesResult:
     exact: bool
     diagrams: int = 0
     states: int = field(default=0, repr=False)
+    method: str | None = None
+    asymptotic: bool = False
 
     def value(self, lam: Any, order: int | None = None) -> Any:
         """The series truncated at ``order`` (default M), evaluated at ``lam``."""
