@@ -30,5 +30,7 @@ from ._sampling import (  # noqa: E402
     run_block,
 )
 from ._study import EXPECTED_RATES, StudyProblem, run_study_block  # noqa: E402
-from ._lattice_series import lattice_covariance, lattice_series  # noqa: E402
+from ._lattice_series import (  # noqa: E402  (lattice series of the schemes)
+    gauss_series, lattice_covariance, lattice_series, wilson_series,
+)
 from ._continuum_series import continuum_series, exact_series  # noqa: E402  (continuum series)
