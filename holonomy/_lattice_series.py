@@ -34,7 +34,7 @@ __all__ = ["lattice_covariance", "lattice_loadings", "lattice_series", "gauss_lo
            "gauss_series", "wilson_series"]
 
 
-def lattice_loadings(problem: LatticeProblem, loop_index: int = 0
+def lattice_loadings(problem: LatticeProblem, loop_index: int = 0, *, merge: bool = True
                      ) -> tuple[np.ndarray, np.ndarray]:
     """The step exponents as sums of independent interval noises: ``(U, mu)``.
 
@@ -42,7 +42,8 @@ def lattice_loadings(problem: LatticeProblem, loop_index: int = 0
     ``U_es = -dir_e`` if interval s lies on the chain of step e, else 0. Intervals used
     by exactly the same steps are merged (their noises always appear summed), so S is
     the number of distinct ways the loop's steps share a column. Steps on the reference
-    line (identity links) are left out.
+    line (identity links) are left out. ``merge=False`` keeps one column per interval of
+    the plan (all loops of the problem share them: one noise field).
     """
     plan = problem.plan
     links, direction = plan.steps[loop_index]
@@ -57,6 +58,8 @@ def lattice_loadings(problem: LatticeProblem, loop_index: int = 0
             chain[k, j] = 1.0
             j = plan.parent[j]
     U = -direction[:, None] * chain[links]
+    if not merge:
+        return U, np.asarray(plan.measure, dtype=float)
     used = np.any(U != 0, axis=0)
     U, measure = U[:, used], np.asarray(plan.measure, dtype=float)[used]
     if U.shape[1] == 0:
@@ -138,7 +141,35 @@ def _wound_simple(lattice_loop) -> tuple[np.ndarray, int] | None:
     return np.sign(w), turns
 
 
-def gauss_loadings(problem: WilsonProblem, loop_index: int = 0
+def gauss_axial_factors(problem: LatticeProblem, loop_index: int = 0
+                        ) -> list[tuple[int, float]]:
+    """The ``gauss`` holonomy in axial gauge as one-cell factors ``(cell, sign)``.
+
+    ``cell = column * ny + row`` in the plan's frame; the holonomy is the ordered product
+    of ``exp(sign x_cell)`` (DEVELOPERS.md, axial gauge: ``R(i, y) = (Q_ref ...
+    Q_{y-1})^{-1}`` above the reference, ``Q_y ... Q_{ref-1}`` below; a leftward step
+    is the inverse).
+    """
+    plan = problem.plan
+    ny = np.asarray(plan.cell_measures).shape[1]
+    ref = int(plan.ref_row)
+    links, direction = plan.steps[loop_index]
+    out: list[tuple[int, float]] = []
+    for k, d in zip(links, direction):
+        if k < 0:
+            continue
+        col = int(plan.column[k])
+        if plan.side[k] > 0:       # R = exp(-x_{y-1}) ... exp(-x_ref)
+            factors = [(col * ny + j, -1.0) for j in range(int(plan.hi[k]) - 1, ref - 1, -1)]
+        else:                      # R = exp(x_y) ... exp(x_{ref-1})
+            factors = [(col * ny + j, 1.0) for j in range(int(plan.lo[k]), ref)]
+        if d < 0:                  # the inverse: reversed order, negated exponents
+            factors = [(c, -v) for c, v in reversed(factors)]
+        out.extend(factors)
+    return out
+
+
+def gauss_loadings(problem: LatticeProblem, loop_index: int = 0
                    ) -> tuple[np.ndarray, np.ndarray, int, str]:
     """The ``gauss`` scheme's holonomy as a product of one-cell exponentials.
 
@@ -152,13 +183,9 @@ def gauss_loadings(problem: WilsonProblem, loop_index: int = 0
       convolution of the plaquette laws; Driver 1989, Levy 2003): one factor per
       enclosed cell.
     - ``"axial gauge"``: any other loop: each horizontal step's link written as the
-      ordered product of the plaquettes of its column (DEVELOPERS.md, axial gauge:
-      ``R(i, y) = (Q_ref ... Q_{y-1})^{-1}`` above the reference, ``Q_y ... Q_{ref-1}``
-      below; a leftward step is the inverse).
+      ordered product of the plaquettes of its column (`gauss_axial_factors`).
     """
-    plan = problem.plan
-    cm = np.asarray(plan.cell_measures, dtype=float)
-    ny = cm.shape[1]
+    cm = np.asarray(problem.plan.cell_measures, dtype=float)
     lat = problem.lattice_loops[loop_index]
     wound = _wound_simple(lat)  # the law of a loop does not depend on the gauge
     if wound is not None:
@@ -168,20 +195,7 @@ def gauss_loadings(problem: WilsonProblem, loop_index: int = 0
                         dtype=float).ravel()[cells]
         U = np.diag(sign.ravel()[cells].astype(float))
         return U, mu, turns, "simple loop"
-    links, direction = plan.steps[loop_index]
-    rows_out: list[tuple[int, float]] = []
-    ref = int(plan.ref_row)
-    for k, d in zip(links, direction):
-        if k < 0:
-            continue
-        col = int(plan.column[k])
-        if plan.side[k] > 0:       # R = exp(-x_{y-1}) ... exp(-x_ref)
-            factors = [(col * ny + j, -1.0) for j in range(int(plan.hi[k]) - 1, ref - 1, -1)]
-        else:                      # R = exp(x_y) ... exp(x_{ref-1})
-            factors = [(col * ny + j, 1.0) for j in range(int(plan.lo[k]), ref)]
-        if d < 0:                  # the inverse: reversed order, negated exponents
-            factors = [(c, -v) for c, v in reversed(factors)]
-        rows_out.extend(factors)
+    rows_out = gauss_axial_factors(problem, loop_index)
     if not rows_out:
         return np.zeros((0, 0)), np.zeros(0), 1, "axial gauge"
     labels = sorted({c for c, _ in rows_out})
@@ -193,7 +207,7 @@ def gauss_loadings(problem: WilsonProblem, loop_index: int = 0
     return U, mu, 1, "axial gauge"
 
 
-def gauss_series(problem: WilsonProblem, loop_index: int = 0, order: int = 4, *,
+def gauss_series(problem: LatticeProblem, loop_index: int = 0, order: int = 4, *,
                  exact: bool = False) -> SeriesResult:
     """Coefficients c_0..c_order of the ``gauss`` scheme's Wilson loop in lambda.
 
@@ -252,7 +266,7 @@ def _ratio_series(num: list, den: list, order: int) -> list:
     return q
 
 
-def wilson_series(problem: WilsonProblem, loop_index: int = 0, order: int = 4
+def wilson_series(problem: LatticeProblem, loop_index: int = 0, order: int = 4
                   ) -> SeriesResult:
     """Weak-coupling expansion of the ``wilson`` scheme's lattice Wilson loop.
 
