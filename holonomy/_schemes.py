@@ -86,11 +86,13 @@ class Scheme:
        is known (the default). Never another scheme's value.
     7. ``rate`` is the exponent p of the bias O(h^p) for a fixed loop (None when there is
        none or it is unknown; ``rate_note`` says which, for the study's table).
-    8. ``series_route`` names the scheme whose lattice Wick series
-       (:func:`holonomy.lattice_series`) the ``series`` command expands for this scheme,
-       or None when no series applies. Today only the ``linear`` links have a Wick
-       expansion, so every built-in scheme answers ``"linear"``: the series of the
-       continuum axial connection on the spec's grid.
+    8. ``series(problem, i, order, exact=False)`` is the perturbative series in the
+       coupling of the same quantity as ``lattice_value`` (a
+       :class:`holonomy.SeriesResult`; the default raises NotImplementedError with the
+       reason), and ``series_expands(problem)`` a short label saying what it expands
+       (``"linear lattice, spacing 0.25"``, ``"heat (continuum, as snapped)"``).
+       ``series_route`` is the name of the scheme whose series that is (itself), or
+       None when the scheme has none.
     9. ``in_study`` is True when ``whitegauge study`` runs the scheme by default.
     """
 
@@ -99,7 +101,7 @@ class Scheme:
     perimeter: bool = False
     rate: float | None = None
     rate_note: str = "unknown"
-    series_route: str | None = "linear"
+    series_route: str | None = None
     in_study: bool = False
 
     def check(self, group) -> None:
@@ -108,6 +110,13 @@ class Scheme:
     def lattice_value(self, problem, i: int) -> LatticeValue:
         return LatticeValue(None, None, f"{NOT_AVAILABLE} (no exact value is known for "
                             f"the scheme {self.name!r})")
+
+    def series(self, problem, i: int, order: int, *, exact: bool = False):
+        raise NotImplementedError(f"no perturbative series is known for the scheme "
+                                  f"{self.name!r}")
+
+    def series_expands(self, problem) -> str:
+        return f"{self.name} lattice, spacing {problem.field.spacing:g}"
 
     def reads_noise(self, group) -> bool:
         return True
@@ -156,8 +165,15 @@ class LinearScheme(Scheme):
     rate = 1.0
     in_study = True
 
+    series_route = "linear"
+
     def lattice_value(self, problem, i: int) -> LatticeValue:
         return _abelian_or(problem, i, "linear")
+
+    def series(self, problem, i: int, order: int, *, exact: bool = False):
+        from ._lattice_series import lattice_series
+
+        return lattice_series(problem, i, order, exact=exact)
 
 
 class GaussScheme(Scheme):
@@ -167,8 +183,15 @@ class GaussScheme(Scheme):
     rate = 2.0   # O(s^2) per plaquette times O(h^-2) plaquettes
     in_study = True
 
+    series_route = "gauss"
+
     def lattice_value(self, problem, i: int) -> LatticeValue:
         return _abelian_or(problem, i, "gauss")
+
+    def series(self, problem, i: int, order: int, *, exact: bool = False):
+        from ._lattice_series import gauss_series
+
+        return gauss_series(problem, i, order, exact=exact)
 
     def _plaquettes_impl(self, kernel, noise, variances, rng, size):
         return kernel.exp(noise)
@@ -182,8 +205,24 @@ class HeatScheme(Scheme):
     rate_note = "none (exact)"   # exact for lattice loops at every spacing: no bias
     in_study = True
 
+    series_route = "heat"
+
     def lattice_value(self, problem, i: int) -> LatticeValue:
         return heat_lattice_value(problem, i)
+
+    def series(self, problem, i: int, order: int, *, exact: bool = False):
+        """The continuum series of the loop as snapped (exact for lattice loops): the
+        Taylor coefficients of the exact evaluation (:func:`holonomy.exact_series`)."""
+        from ._continuum_series import exact_series
+
+        res = exact_series(problem.group, problem.rep, problem.lattice_loops[i], order,
+                           area=problem.field.area)
+        if res is None:
+            raise NotImplementedError("no exact route applies to the loop as snapped")
+        return res
+
+    def series_expands(self, problem) -> str:
+        return "heat (continuum, as snapped)"
 
     def reads_noise(self, group) -> bool:
         return _is_u1(group)
@@ -260,8 +299,21 @@ class WilsonScheme(Scheme):
                 f"{group.family}({group.n}); use 'heat', 'gauss' or 'linear'."
             )
 
+    series_route = "wilson"
+
     def lattice_value(self, problem, i: int) -> LatticeValue:
         return wilson_action_value(problem, i)
+
+    def series(self, problem, i: int, order: int, *, exact: bool = False):
+        """The weak-coupling expansion of the lattice value (asymptotic;
+        :func:`holonomy.wilson_series`)."""
+        from ._lattice_series import wilson_series
+
+        return wilson_series(problem, i, order)
+
+    def series_expands(self, problem) -> str:
+        return (f"wilson lattice, spacing {problem.field.spacing:g} (weak-coupling "
+                "expansion, asymptotic)")
 
     def _plaquettes_impl(self, kernel, noise, variances, rng, size):
         m = variances.size

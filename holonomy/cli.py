@@ -145,10 +145,15 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = _sub(sub, "series", "perturbative coefficients c_0..c_M per loop",
              "Print the coefficients c_0..c_M of E[W](lambda) = sum_m c_m lambda^m per "
-             "loop: the Wick series of the linear scheme on the spec's grid, as floats "
-             "and, for loops with few steps, exact rationals. Each loop has a time "
-             "budget (WHITEGAUGE_SERIES_BUDGET seconds, default 60); a loop over budget "
-             "gets — and a note.")
+             "loop, of the quantity field.scheme names: heat, the continuum series of "
+             "the loop as snapped (exact for lattice loops); linear and gauss, their "
+             "Wick series on the spec's grid; wilson, the weak-coupling expansion of its "
+             "lattice value (asymptotic; U(1), and SU(2) simple loops). Beside them the "
+             "continuum series of the loop as specified. Floats and, where available, "
+             "exact rationals; a signed density gives formal series. Each loop has a "
+             "time budget (WHITEGAUGE_SERIES_BUDGET seconds, default 60); a loop over "
+             "budget gets — and a note, a warning on stderr, and exit code 1 if no loop "
+             "got any coefficient.")
     _spec_arg(p, "[run] is not needed")
     p.add_argument("--order", type=_order, required=True, metavar="M",
                    help="the highest order M, an integer from 0 to 20 (required)")
@@ -258,12 +263,25 @@ def _cmd_exact(args) -> int:
 
 
 def _cmd_series(args) -> int:
+    from holonomy.experiment._commands import budget_limited
+
     spec = load_spec(args.spec, purpose="series")
-    obj = series_results(spec, args.order)
+    bar = Progress(enabled=_talk(args) and sys.stderr.isatty(), unit="part")
+    try:
+        obj = series_results(spec, args.order, progress=bar)
+    finally:
+        bar.close()
     if args.json:
         print(json.dumps(obj, indent=2))
     else:
         print(format_series_table(obj))
+    late = budget_limited(obj)
+    if late:
+        print(f"whitegauge series: warning: no coefficients for {', '.join(late)}: the "
+              "time budget (WHITEGAUGE_SERIES_BUDGET seconds per loop) ran out; try a "
+              "lower --order or a larger budget", file=sys.stderr)
+        if all(r.get("coefficients") is None for r in obj["results"]):
+            return 1
     return 0
 
 

@@ -10,7 +10,7 @@ import multiprocessing as mp
 import os
 from typing import Sequence
 
-from holonomy import LatticeProblem, get_scheme, lattice_covariance, lattice_series
+from holonomy import LatticeProblem, get_scheme, lattice_covariance
 
 from ._problems import build_lattice
 from ._references import NOT_AVAILABLE, loop_references
@@ -18,7 +18,7 @@ from ._report import clean
 from ._spec import Spec, SpecError
 
 __all__ = ["exact_results", "series_results", "geometry_problem", "MAX_SERIES_ORDER",
-           "SERIES_BUDGET", "RATIONAL_STEPS", "SeriesBudgetExceeded"]
+           "SERIES_BUDGET", "RATIONAL_STEPS", "SeriesBudgetExceeded", "budget_limited"]
 
 
 def geometry_problem(spec: Spec) -> LatticeProblem:
@@ -103,14 +103,23 @@ def _bounded(fn, *args, **kwargs):
     return value
 
 
-def _rationals(lattice_series, problem, i, order):
-    """Exact coefficients as strings, or (None, why not)."""
-    m = lattice_covariance(problem, i).shape[0]
+def _factor_count(scheme: str, problem: LatticeProblem, i: int) -> int:
+    """Exponentials in the Wick expansion of loop ``i`` (what the exact route pays for)."""
+    if scheme == "gauss":
+        from holonomy._lattice_series import gauss_loadings
+
+        return gauss_loadings(problem, i)[0].shape[0]
+    return lattice_covariance(problem, i).shape[0]
+
+
+def _rationals(scheme, problem, i, order):
+    """Exact coefficients of a lattice Wick series as strings, or (None, why not)."""
+    m = _factor_count(scheme.name, problem, i)
     if m > RATIONAL_STEPS:
-        return None, (f"exact coefficients skipped: {m} horizontal steps (more than "
-                      f"{RATIONAL_STEPS}); the floats are exact up to rounding")
+        return None, (f"exact coefficients skipped: {m} exponentials in the product (more "
+                      f"than {RATIONAL_STEPS}); the floats are exact up to rounding")
     try:
-        res = _bounded(lattice_series, problem, i, order, exact=True)
+        res = _bounded(scheme.series, problem, i, order, exact=True)
     except SeriesBudgetExceeded as exc:
         return None, f"exact coefficients skipped: {exc}"
     except NotImplementedError as exc:
@@ -121,51 +130,115 @@ def _rationals(lattice_series, problem, i, order):
     return [str(c) for c in res.coefficients], None
 
 
+def _floats(coefficients) -> tuple[list[float], list[float] | None]:
+    vals = [complex(c) for c in coefficients]
+    imag = [v.imag for v in vals]
+    if any(abs(v.imag) > 1e-12 * max(1.0, abs(v.real)) for v in vals):
+        return [v.real for v in vals], imag
+    return [v.real for v in vals], None
+
+
+def _expand(fn, *args, **kwargs):
+    """``(SeriesResult or None, note)`` of a bounded series route."""
+    try:
+        return _bounded(fn, *args, **kwargs), None
+    except SeriesBudgetExceeded as exc:
+        return None, f"{NOT_AVAILABLE} ({exc})"
+    except NotImplementedError as exc:
+        return None, f"{NOT_AVAILABLE} ({exc})" if str(exc) else NOT_AVAILABLE
+    except (ValueError, ArithmeticError, MemoryError, RecursionError) as exc:
+        return None, f"{NOT_AVAILABLE} ({exc})"
+
+
+def _continuum_series(group, rep, loop, order, area):
+    from holonomy import exact_series
+
+    res = exact_series(group, rep, loop, order, area=area)
+    if res is None:
+        raise NotImplementedError("no exact route applies to the loop as specified")
+    return res
+
+
 def series_results(spec: Spec, order: int, *, loops: Sequence[int] | None = None,
-                   rationals: bool = True) -> dict:
-    """The ``series`` command's object: c_0..c_order per loop of E[W](lambda) =
-    sum_m c_m lambda^m (the Wick series of the spec scheme's ``series_route``, today the
-    ``linear`` scheme, on the spec's grid),
-    floats plus exact rationals where available; null with a note otherwise.
+                   rationals: bool = True, progress=None) -> dict:
+    """The ``series`` command's object: per loop the coefficients c_0..c_order of
+    E[W](lambda) = sum_m c_m lambda^m of the quantity the spec's scheme names.
+
+    ``coefficients`` expand what ``field.scheme`` samples (:meth:`Scheme.series`):
+    ``heat`` the continuum series of the loop as snapped (exact for lattice loops),
+    ``linear`` and ``gauss`` their Wick lattice series at the spec's spacing,
+    ``wilson`` its asymptotic weak-coupling expansion where known; ``expands`` says
+    which. ``continuum`` holds the continuum coefficients of the loop as specified
+    where the exact evaluation applies. Floats plus exact rationals where available;
+    null with a note otherwise (a note naming the time budget when that was the
+    limit). A signed density makes every coefficient formal (``formal: true``).
 
     ``loops`` restricts the work to some loop indices; ``rationals=False`` skips the
-    exact (sympy) coefficients.
+    exact (sympy) coefficients; ``progress`` is a :class:`Progress` to tick.
     """
+    from holonomy._series import _key_graph
+
+    scheme = get_scheme(spec.scheme)
     rows = []
     problem = None
     note = None
-    route = get_scheme(spec.scheme).series_route
-    if route is None:
-        note = NOT_AVAILABLE + f" (no series route for the scheme {spec.scheme!r})"
-    else:
-        try:
-            problem = build_lattice(spec, scheme=route)
-        except SpecError as exc:
-            note = f"{NOT_AVAILABLE} ({exc})"
-    for i, name in enumerate(spec.names):
-        if loops is not None and i not in loops:
-            continue
-        row = {"loop": name, "rep": spec.rep, "kind": "series", "order": order,
-               "coefficients": None, "rationals": None, "note": note,
-               "variable": "coupling (lambda)"}
+    try:
+        problem = build_lattice(spec)
+    except SpecError as exc:
+        note = f"{NOT_AVAILABLE} ({exc})"
+    todo = [i for i in range(len(spec.names)) if loops is None or i in loops]
+    if progress is not None:
+        progress.stage(f"{spec.name}: series", 2 * len(todo))
+    if problem is not None and scheme.name in ("linear", "gauss") and 5 <= order <= 6:
+        # the pairing graph of the transfer is the same for every loop: build it once
+        # here and let the forked workers inherit it (seconds at order 6)
+        _key_graph(order)
+    expands = scheme.series_expands(problem) if problem is not None else None
+    for i in todo:
+        name = spec.names[i]
+        row = {"loop": name, "rep": spec.rep, "kind": "series", "scheme": spec.scheme,
+               "order": order, "expands": expands, "coefficients": None,
+               "rationals": None, "note": note, "asymptotic": False,
+               "continuum": None, "continuum_rationals": None, "continuum_note": note,
+               "formal": bool(spec.signed), "variable": "coupling (lambda)"}
         if problem is not None:
-            res = None
-            try:
-                res = _bounded(lattice_series, problem, i, order, exact=False)
-            except NotImplementedError as exc:
-                row["note"] = f"{NOT_AVAILABLE} ({exc})" if str(exc) else NOT_AVAILABLE
-            except (ValueError, ArithmeticError) as exc:
-                row["note"] = f"{NOT_AVAILABLE} ({exc})"
+            if progress is not None:
+                progress.step(f"{spec.name}: {name}, {expands}")
+            res, row["note"] = _expand(scheme.series, problem, i, order, exact=False)
             if res is not None:
-                vals = [complex(c) for c in res.coefficients]
-                row["coefficients"] = [v.real for v in vals]
-                if any(abs(v.imag) > 1e-12 * max(1.0, abs(v.real)) for v in vals):
-                    row["coefficients_imag"] = [v.imag for v in vals]
-                row["note"] = None
-                if rationals:
+                row["coefficients"], imag = _floats(res.coefficients)
+                if imag is not None:
+                    row["coefficients_imag"] = imag
+                row["asymptotic"] = bool(res.asymptotic)
+                row["method"] = res.method
+                if res.exact:
+                    row["rationals"] = [str(c) for c in res.coefficients]
+                elif rationals:
                     row["rationals"], row["rationals_note"] = _rationals(
-                        lattice_series, problem, i, order)
+                        scheme, problem, i, order)
+            if progress is not None:
+                progress.update()
+                progress.step(f"{spec.name}: {name}, continuum")
+            loop = spec.loops[i].build(spec.spacing)
+            cont, row["continuum_note"] = _expand(_continuum_series, problem.group,
+                                                  spec.rep, loop, order,
+                                                  problem.field.area)
+            if cont is not None:
+                row["continuum"], _ = _floats(cont.coefficients)
+                if cont.exact:
+                    row["continuum_rationals"] = [str(c) for c in cont.coefficients]
+                row["continuum_method"] = cont.method
+            if progress is not None:
+                progress.update()
         rows.append(row)
     return clean({"name": spec.name, "spec_sha256": spec.sha256,
                   "group": {"family": spec.family, "n": spec.n, "metric": spec.metric},
-                  "spacing": spec.spacing, "order": order, "results": rows})
+                  "scheme": spec.scheme, "spacing": spec.spacing, "order": order,
+                  "formal": bool(spec.signed), "results": rows})
+
+
+def budget_limited(obj: dict) -> list[str]:
+    """Loops of a ``series`` object whose coefficients are null because of the time
+    budget."""
+    return [r["loop"] for r in obj["results"]
+            if r.get("coefficients") is None and "budget" in (r.get("note") or "")]

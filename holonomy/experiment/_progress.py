@@ -14,7 +14,7 @@ import sys
 
 __all__ = ["Progress"]
 
-_FORMAT = ("{desc}: {n_fmt}/{total_fmt} blocks |{bar}| {percentage:3.0f}% "
+_FORMAT = ("{desc}: {n_fmt}/{total_fmt} {unit}s |{bar}| {percentage:3.0f}% "
            "[{elapsed} elapsed, {remaining} left]")
 
 
@@ -28,10 +28,15 @@ class Progress:
         each :meth:`stage` adds its blocks.
     enabled : bool
         False makes every method a no-op (``--quiet``, ``--json``, not a terminal).
+    unit : str
+        What is counted (``"block"``; the series command counts parts: per loop the
+        scheme's series and the continuum series).
     """
 
-    def __init__(self, total: int | None = None, *, enabled: bool = True):
+    def __init__(self, total: int | None = None, *, enabled: bool = True,
+                 unit: str = "block"):
         self.enabled = enabled
+        self.unit = unit
         self.fixed = total is not None
         self.total = int(total or 0)
         self.bar = None
@@ -40,7 +45,7 @@ class Progress:
         if self.bar is None and self.enabled:
             from tqdm import tqdm
 
-            self.bar = tqdm(total=self.total, file=sys.stderr, unit="block",
+            self.bar = tqdm(total=self.total, file=sys.stderr, unit=self.unit,
                             dynamic_ncols=True, leave=False, bar_format=_FORMAT)
         return self.bar
 

@@ -300,15 +300,38 @@ def format_exact_table(obj: dict) -> str:
 
 
 def format_series_table(obj: dict) -> str:
-    rows = []
-    for r in obj["results"]:
-        if r["coefficients"] is None:
-            rows.append([r["loop"], "series", "", MISSING, r.get("note") or
-                         "not available for this loop"])
-            continue
-        rats = r.get("rationals") or [None] * len(r["coefficients"])
-        for m, (c, q) in enumerate(zip(r["coefficients"], rats)):
-            rows.append([r["loop"] if m == 0 else "", "series", f"c_{m}",
-                         f"{c:.12g}", f"= {q} (exact rational)" if q else
-                         "float, exact up to rounding"])
-    return _render(rows, ["loop", "kind", "term", "value", "note"])
+    """The coefficients of the scheme's series and of the continuum series side by
+    side, each column saying what it expands; notes for what is missing."""
+    results = obj["results"]
+    formal = " (formal)" if obj.get("formal") else ""
+    expands = next((r.get("expands") for r in results if r.get("expands")), None) \
+        or obj.get("scheme", "series")
+    head = ["loop", "term", f"series: {expands}{formal}", "exact",
+            f"continuum: loop as specified{formal}", "exact"]
+    rows, notes = [], []
+    for r in results:
+        coef, cont = r.get("coefficients"), r.get("continuum")
+        n = len(coef or cont or [None])
+        rats = r.get("rationals") or [None] * n
+        crats = r.get("continuum_rationals") or [None] * n
+        for m in range(n):
+            rows.append([r["loop"] if m == 0 else "", f"c_{m}" if (coef or cont) else "",
+                         f"{coef[m]:.12g}" if coef else MISSING, rats[m] or "",
+                         f"{cont[m]:.12g}" if cont else MISSING, crats[m] or ""])
+        if coef is None:
+            notes.append(f"{r['loop']}: series: {r.get('note') or 'not available'}")
+        elif r.get("rationals") is None and r.get("rationals_note"):
+            notes.append(f"{r['loop']}: {r['rationals_note']}")
+        if cont is None:
+            notes.append(f"{r['loop']}: continuum: "
+                         f"{r.get('continuum_note') or 'not available'}")
+        if r.get("asymptotic"):
+            notes.append(f"{r['loop']}: the series is asymptotic (it misses terms like "
+                         "exp(-const/lambda) and does not converge)")
+    text = _render(rows, head)
+    lines = [f"coefficients c_m of E[W](lambda) = sum_m c_m lambda^m, in the coupling "
+             f"lambda{'; formal: the density changes sign, no measure exists' if formal else ''}",
+             text]
+    if notes:
+        lines.append("\n".join(notes))
+    return "\n".join(lines)
