@@ -208,6 +208,14 @@ class HeatScheme(Scheme):
     series_route = "heat"
 
     def lattice_value(self, problem, i: int) -> LatticeValue:
+        G = problem.group
+        if not G.exact_heat_kernel:
+            # larger groups draw the kernel by sub-stepping (holonomy.groups.heat_kernel):
+            # its law is off by O(dt), so the continuum value is not what it samples
+            return LatticeValue(None, None, (
+                f"{NOT_AVAILABLE} (the heat kernel of {G.family}({G.n}) is drawn by "
+                "Brownian sub-stepping, whose law differs from the heat kernel by O(dt), "
+                "dt <= 0.01; exact kernels: holonomy.groups.exact_heat_route)"))
         return heat_lattice_value(problem, i)
 
     def series(self, problem, i: int, order: int, *, exact: bool = False):

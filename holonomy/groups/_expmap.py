@@ -108,14 +108,15 @@ def expm_u3(X: np.ndarray) -> np.ndarray:
        variables in lattice QCD." Phys. Rev. D 69, 054501.
     """
     X = np.asarray(X)
-    q = np.trace(X, axis1=-2, axis2=-1).imag / 3.0
+    # traces from the diagonals' parts (np.trace on complex batches is far slower)
+    q = (X[..., 0, 0].imag + X[..., 1, 1].imag + X[..., 2, 2].imag) / 3.0
     Q = -1j * X
     Q[..., 0, 0] -= q
     Q[..., 1, 1] -= q
     Q[..., 2, 2] -= q
     Q = 0.5 * (Q + np.conj(np.swapaxes(Q, -1, -2)))  # exactly Hermitian
     Q2 = Q @ Q
-    c1 = 0.5 * np.trace(Q2, axis1=-2, axis2=-1).real
+    c1 = 0.5 * (Q2[..., 0, 0].real + Q2[..., 1, 1].real + Q2[..., 2, 2].real)
     c0 = np.einsum("...ij,...ji->...", Q, Q2).real / 3.0  # det Q = tr(Q^3) / 3
     neg = c0 < 0
     c0 = np.abs(c0)

@@ -801,8 +801,44 @@ def _nearest_representative(x: np.ndarray, lattice: str) -> np.ndarray:
     return x - 2 * np.pi * f
 
 
+def _eig3(H: np.ndarray) -> np.ndarray:
+    """Eigenvalues of Hermitian 3 x 3 matrices by the trigonometric solution of the
+    characteristic cubic (unsorted). Rounding grows like eps / gap near a double
+    eigenvalue, where the proposal's density vanishes like gap^2 (eigenvalue
+    repulsion), so the effect on the law stays at the rounding level.
+
+    References
+    ----------
+    .. [1] O. K. Smith, "Eigenvalues of a symmetric 3 x 3 matrix", Commun. ACM 4 (1961)
+       168.
+    """
+    a, b, c = H[..., 0, 0].real, H[..., 1, 1].real, H[..., 2, 2].real
+    d, e, f = H[..., 0, 1], H[..., 0, 2], H[..., 1, 2]
+    q = (a + b + c) / 3.0
+    a, b, c = a - q, b - q, c - q
+    dd = d.real * d.real + d.imag * d.imag
+    ee = e.real * e.real + e.imag * e.imag
+    ff = f.real * f.real + f.imag * f.imag
+    c1 = 0.5 * (a * a + b * b + c * c) + dd + ee + ff  # tr(A^2) / 2
+    # det A = abc + 2 Re(d f conj(e)) - a|f|^2 - b|e|^2 - c|d|^2
+    dfr = d.real * f.real - d.imag * f.imag
+    dfi = d.real * f.imag + d.imag * f.real
+    c0 = a * b * c + 2.0 * (dfr * e.real + dfi * e.imag) - a * ff - b * ee - c * dd
+    p = np.sqrt(c1 / 3.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        arg = np.where(p > 0, c0 / (2.0 * p * p * p), 0.0)
+    phi = np.arccos(np.clip(arg, -1.0, 1.0)) / 3.0
+    out = np.empty(H.shape[:-1])
+    for k in range(3):
+        out[..., k] = q + 2.0 * p * np.cos(phi - 2.0 * np.pi * k / 3.0)
+    return out
+
+
 def _torus_coords(law: _TorusLaw, H: np.ndarray) -> np.ndarray:
-    """Torus point of ``exp(iH)`` from the eigenvalues of the Hermitian H."""
+    """Torus point of ``exp(iH)`` from the eigenvalues of the Hermitian H (their order
+    does not matter: the acceptance is symmetric under the Weyl group)."""
+    if law.lattice == "A" and law.m == 3:
+        return _eig3(H)
     w = np.linalg.eigvalsh(H)
     if law.lattice == "A":
         return w
@@ -816,26 +852,30 @@ def _torus_accept(law: _TorusLaw, x: np.ndarray, t: np.ndarray) -> np.ndarray:
     a = y @ law.roots.T  # root values
     expo = np.exp(-law.c * (np.einsum("sim,sim->si", y, y) - np.einsum("sm,sm->s", x, x)[:, None])
                   / (2 * t[:, None]))
+    # s(y) w(y) = prod_a 2 sin(a/2) a * expo: no division (sin(a/2)/(a/2) times a^2)
     w = np.prod(a * a, axis=-1) * expo
-    sw = w * np.prod(np.sinc(a / (2 * np.pi)), axis=-1)
+    sw = np.prod(2.0 * np.sin(0.5 * a) * a, axis=-1) * expo
     return sw.sum(axis=1) / w.sum(axis=1)
 
 
 def _torus_draw(group, law: _TorusLaw, t: np.ndarray, rng) -> np.ndarray:
     """One exact heat-kernel sample per entry of t (1-D, each <= law.piece)."""
-    out = np.empty(t.shape + (group.N, group.N), dtype=group.dtype)
+    out = None
     todo = np.arange(t.size)
+    tt = t
     while todo.size:
-        tt = t[todo]
         Z = rng.standard_normal((todo.size, group.dim))
         u = rng.random(todo.size)
         Z *= np.sqrt(tt)[:, None]
         X = group.algebra(Z)
         ok = u <= _torus_accept(law, _torus_coords(law, -1j * X), tt)
-        if ok.any():
+        if out is None:
+            # round one: every entry at once (the rejected ones are redrawn below)
+            out = group.exp_matrix(X)
+        elif ok.any():
             out[todo[ok]] = group.exp_matrix(X[ok])
-        todo = todo[~ok]
-    return out
+        todo, tt = todo[~ok], tt[~ok]
+    return out if out is not None else np.empty(t.shape + (group.N, group.N), group.dtype)
 
 
 def _su_part(group):

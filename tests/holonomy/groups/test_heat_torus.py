@@ -232,3 +232,18 @@ def test_routes():
     assert exact_heat_route(make_group("SU", 6, "trace")) is None
     assert make_group("SU", 4, "physics").exact_heat_kernel
     assert not make_group("SU", 6, "physics").exact_heat_kernel
+
+
+def test_heat_reference_says_whether_the_kernel_is_exact():
+    # The heat scheme's exact value is the continuum value of the lattice loop only where
+    # the kernel is exact in law (README, "exact"); sub-stepped groups get null + a note.
+    from discretize import Loop
+    from holonomy import Field, LatticeProblem
+    from holonomy._schemes import HeatScheme
+
+    loop = Loop.polygon([(0, 0), (1, 0), (1, 1), (0, 1)])
+    field = Field(1.0, 0.5, scheme="heat")
+    exact = HeatScheme().lattice_value(LatticeProblem("SU", 4, "physics", field, (loop,)), 0)
+    assert exact.value is not None and abs(exact.value - np.exp(-15 / 8 / 2)) < 1e-12
+    sub = HeatScheme().lattice_value(LatticeProblem("SU", 6, "physics", field, (loop,)), 0)
+    assert sub.value is None and "sub-stepping" in sub.note
