@@ -94,6 +94,10 @@ class Scheme:
        ``series_route`` is the name of the scheme whose series that is (itself), or
        None when the scheme has none.
     9. ``in_study`` is True when ``whitegauge study`` runs the scheme by default.
+    10. ``noise_only`` is True when the plaquettes are a function of the cell noise
+        alone (no extra randomness): two such schemes on one noise field are paired
+        sample by sample, and a study measures one's error against the other's exact
+        value through their difference.
     """
 
     name: str = ""
@@ -103,6 +107,7 @@ class Scheme:
     rate_note: str = "unknown"
     series_route: str | None = None
     in_study: bool = False
+    noise_only: bool = False
 
     def check(self, group) -> None:
         return None
@@ -164,6 +169,7 @@ class LinearScheme(Scheme):
     perimeter = True
     rate = 1.0
     in_study = True
+    noise_only = True
 
     series_route = "linear"
 
@@ -182,6 +188,7 @@ class GaussScheme(Scheme):
     name = "gauss"
     rate = 2.0   # O(s^2) per plaquette times O(h^-2) plaquettes
     in_study = True
+    noise_only = True
 
     series_route = "gauss"
 

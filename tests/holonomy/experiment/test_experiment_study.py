@@ -13,8 +13,9 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from holonomy.experiment import (THEORY_RATES, build_problem, fit_rate, loop_references,
-                                 parse_spec, run_study)
+from holonomy.experiment import (THEORY_RATES, SpecError, build_problem, fit_exact_rate,
+                                 fit_rate, loop_references, parse_spec, run_study,
+                                 study_block)
 
 
 def f_su2(t: float) -> float:
@@ -151,3 +152,115 @@ seed = 11
     # sharp enough to tell the two apart: each interval excludes the other's rate
     assert outcome.fits[("rectangle", "gauss")].interval[0] > THEORY_RATES["linear"]
     assert outcome.fits[("rectangle", "linear")].interval[1] < THEORY_RATES["gauss"]
+
+
+def test_exact_rate_of_the_closed_forms():
+    # the rectangle's scheme errors from the closed forms (f by quadrature): the observed
+    # order between the finest spacings, with its change as the error, holds the theory
+    lam, a, b = 2.0, 1.0, 0.5
+    hs = np.array([0.5, 0.25, 0.125, 0.0625])
+    exact = math.exp(-3 / 8 * lam * a * b)
+    gauss = [f_su2(lam * h * h) ** round(a * b / h**2) - exact for h in hs]
+    linear = [f_su2(lam * h * b) ** round(a / h) - exact for h in hs]
+    for errors, theory in ((gauss, 2.0), (linear, 1.0)):
+        fit = fit_exact_rate(hs, errors, theory=theory)
+        assert fit.rate is not None and fit.method == "exact lattice values"
+        assert abs(fit.rate - theory) < 3 * fit.stderr, fit
+    short = fit_exact_rate(hs[:2], gauss[:2], theory=2.0)
+    assert short.rate is None and short.note.startswith("undetermined: 2 spacings")
+
+
+def test_a_fit_whose_error_exceeds_its_value_is_undetermined():
+    from holonomy.experiment import RateFit
+    from holonomy.experiment._study import _undetermined
+
+    # the fit the old study printed for a 64-gon: rate 20.8 +- 453578.7
+    fit = _undetermined(RateFit(20.8, 453578.7, (-9e5, 9e5), 1.0, 30.0, 3, 1.0, "",
+                                "shared-noise differences"))
+    assert fit.rate is None and fit.stderr is None and fit.interval is None
+    assert fit.note.startswith("undetermined: the fit gave 20.8 with error 4.54e+05")
+    kept = _undetermined(RateFit(1.9, 0.1, (1.7, 2.1), 1.0, 30.0, 3, 2.0, ""))
+    assert kept.rate == 1.9
+    nan = _undetermined(RateFit(1.9, float("nan"), None, 1.0, 30.0, 3, 2.0, ""))
+    assert nan.rate is None and "error unknown" in nan.note
+
+
+def test_study_block_adapts_or_refuses():
+    spec = parse_spec(RECT.format(scheme="gauss").replace("samples = 200", "samples = 1000")
+                      .replace("block = 20", "block = 4096"))
+    block, note = study_block(spec)
+    assert block == 125 and "8 blocks" in note and "run.block <= 125" in note
+    assert study_block(parse_spec(RECT.format(scheme="gauss"))) == (20, None)
+    small = parse_spec(RECT.format(scheme="gauss").replace("samples = 200", "samples = 100"))
+    with pytest.raises(SpecError) as info:
+        study_block(small)
+    assert info.value.key == "run.samples" and "run.samples >= 128" in info.value.rule
+
+
+CIRCLE = '''
+name = "circle64"
+[group]
+family = "SU"
+n = 2
+metric = "physics"
+[field]
+coupling = 2.0
+spacing = 0.4
+[[loops]]
+name = "circle"
+circle = {center = [0.0, 0.0], radius = 0.7, sides = 64}
+[run]
+samples = SAMPLES
+seed = 1
+'''
+
+
+def _check_circle_study(outcome, linear_needed: bool):
+    rows = outcome.results["results"]
+    for r in rows:
+        # snapping and scheme errors apart, each against its own exact reference
+        assert r["snapping_error"] == pytest.approx(r["snapped"] - r["continuum"], abs=1e-15)
+        if r["scheme"] == "gauss":
+            assert r["scheme_error_kind"] == "exact"
+            assert r["scheme_error"] == pytest.approx(r["scheme_exact"] - r["snapped"],
+                                                      abs=1e-15)
+        if r["scheme"] == "heat":
+            assert r["scheme_error"] == 0.0 and abs(r["z_scheme"]) < 4
+        if r["scheme"] == "linear":
+            assert r["scheme_error_kind"] == "paired with gauss"
+            assert r["scheme_error_stderr"] < r["stderr"]   # the shared noise pays off
+    # the circle's snapping error does not shrink like a power of h: it is not fitted
+    fits = outcome.fits
+    gauss = fits[("circle", "gauss")]
+    assert gauss.method == "exact lattice values"
+    assert abs(gauss.rate - 2.0) < 3 * gauss.stderr, gauss
+    linear = fits[("circle", "linear")]
+    assert linear.method == "shared-noise differences with gauss"
+    if linear_needed or linear.rate is not None:
+        assert abs(linear.rate - 1.0) < 3 * linear.stderr, linear
+    else:
+        assert linear.note.startswith(("undetermined", "bias not resolved")), linear
+    for fit in fits.values():  # never an absurd number
+        assert fit.rate is None or fit.stderr <= abs(fit.rate)
+    assert fits[("circle", "heat")].rate is None
+
+
+def test_circle_study_separates_snapping_and_scheme_errors(tmp_path):
+    """A 64-gon circle: the gauss rate from exact lattice values (noise-free, so a small
+    run suffices); 1024 samples with the default block of 4096 give 8 blocks of 128."""
+    spec = parse_spec(CIRCLE.replace("SAMPLES", "1024"))
+    outcome = run_study(spec, spacings=(0.4, 0.2, 0.1), schemes=("heat", "linear", "gauss"),
+                        out=tmp_path / "s")
+    assert outcome.results["block"] == 128 and "lowered from 4096" in outcome.results["block_note"]
+    _check_circle_study(outcome, linear_needed=False)
+    assert (tmp_path / "s" / "convergence.png").exists()
+
+
+@pytest.mark.slow
+def test_circle_study_rates(tmp_path):
+    """The 64-gon circle at four spacings: gauss within 3 se of 2 from exact lattice
+    values, linear within 3 se of 1 from its shared-noise difference with gauss."""
+    spec = parse_spec(CIRCLE.replace("SAMPLES", "16000"))
+    outcome = run_study(spec, spacings=(0.4, 0.2, 0.1, 0.05),
+                        schemes=("heat", "linear", "gauss"), workers=2)
+    _check_circle_study(outcome, linear_needed=True)
