@@ -1,7 +1,7 @@
 """The ``whitegauge`` command line.
 
-Subcommands: ``run``, ``exact``, ``series``, ``study``, ``demo`` (see ``whitegauge
-SUBCOMMAND --help``). Exit codes: 0 success; 2 invalid input, with one line
+Subcommands: ``run``, ``exact``, ``series``, ``study``, ``spec``, ``demo`` (see
+``whitegauge SUBCOMMAND --help``). Exit codes: 0 success; 2 invalid input, with one line
 ``whitegauge: error: <key path>: <rule>`` on stderr and no traceback; 1 internal error
 (set ``WHITEGAUGE_DEBUG=1`` to see its traceback).
 """
@@ -88,7 +88,18 @@ def _sub(sub, name: str, summary: str, description: str):
 
 def _spec_arg(p, purpose: str) -> None:
     p.add_argument("spec", metavar="SPEC", help=f"the experiment spec, a TOML file ({purpose}; "
-                   "the keys are listed in README.md, section The spec)")
+                   "whitegauge spec --keys lists the keys)")
+    _set_arg(p)
+
+
+def _set_arg(p) -> None:
+    p.add_argument("--set", action="append", default=[], metavar="KEY=VALUE",
+                   dest="overrides",
+                   help="set a spec key, repeatable: a key path as in whitegauge spec "
+                   "--keys (run.samples=100000, field.scheme=gauss, "
+                   "loops[0].circle.radius=0.5) and a TOML value (a bare word is a "
+                   "string); validated exactly like the file and recorded in the stored "
+                   "spec and its spec_sha256 (default: none)")
 
 
 def _json_arg(p) -> None:
@@ -186,6 +197,26 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true",
                    help="print nothing but errors: no progress bar, table or start/end line")
 
+    p = _sub(sub, "spec", "the spec reference (--keys) or a check of a spec file (--check)",
+             "With --keys, print every spec key with its meaning, allowed values and "
+             "default (the reference generated from the parser's own definition). With "
+             "--check FILE, validate the file (and any --set) for the given purpose and "
+             "print a one-line summary, or the error and exit code 2; with --print, "
+             "print the spec text as it would be stored.")
+    what = p.add_mutually_exclusive_group(required=True)
+    what.add_argument("--keys", action="store_true",
+                      help="print the spec reference: key paths, meanings and defaults")
+    what.add_argument("--check", metavar="FILE",
+                      help="validate the spec file FILE (exit 0 if valid, 2 if not); "
+                      "one of --keys and --check is required (no default)")
+    p.add_argument("--purpose", choices=("run", "study", "exact", "series"), default="run",
+                   help="what the spec is checked for: run and study need [run] samples "
+                   "and seed and a density >= 0 (default run)")
+    _set_arg(p)
+    p.add_argument("--print", action="store_true", dest="show",
+                   help="with --check: print the spec text as stored (with the --set "
+                   "values) instead of the summary (default: the summary)")
+
     p = _sub(sub, "demo", "a built-in survey: report.md, plots, results.json",
              "Run a built-in survey (SU(2) and U(3); a rectangle, a doubly wound circle "
              "and a figure eight; the heat, gauss, linear and, where it applies, wilson "
@@ -229,7 +260,7 @@ def _workers_text(workers) -> str:
 
 
 def _cmd_run(args) -> int:
-    spec = load_spec(args.spec, purpose="run")
+    spec = load_spec(args.spec, purpose="run", overrides=args.overrides)
     out = args.out or f"whitegauge-{spec.name}"
     _say(args, f"{spec.name}: {spec.family}({spec.n}), {spec.scheme} scheme, spacing "
          f"{spec.spacing:g}, {len(spec.loops)} loop(s), {_blocks(spec)}, "
@@ -253,7 +284,7 @@ def _cmd_run(args) -> int:
 
 
 def _cmd_exact(args) -> int:
-    spec = load_spec(args.spec, purpose="exact")
+    spec = load_spec(args.spec, purpose="exact", overrides=args.overrides)
     obj = exact_results(spec)
     if args.json:
         print(json.dumps(obj, indent=2))
@@ -265,7 +296,7 @@ def _cmd_exact(args) -> int:
 def _cmd_series(args) -> int:
     from holonomy.experiment._commands import budget_limited
 
-    spec = load_spec(args.spec, purpose="series")
+    spec = load_spec(args.spec, purpose="series", overrides=args.overrides)
     bar = Progress(enabled=_talk(args) and sys.stderr.isatty(), unit="part")
     try:
         obj = series_results(spec, args.order, progress=bar)
@@ -286,7 +317,7 @@ def _cmd_series(args) -> int:
 
 
 def _cmd_study(args) -> int:
-    spec = load_spec(args.spec, purpose="study")
+    spec = load_spec(args.spec, purpose="study", overrides=args.overrides)
     out = args.out or f"whitegauge-{spec.name}-study"
     _say(args, f"{spec.name}: {spec.family}({spec.n}), schemes {', '.join(args.schemes)} "
          f"at spacings {', '.join(f'{h:g}' for h in args.spacings)} on one noise field, "
@@ -303,6 +334,25 @@ def _cmd_study(args) -> int:
         print(outcome.table)
     _say(args, f"wrote {os.path.join(out, 'study.json')}, study.csv, convergence.png and "
          "the run store study.sqlite")
+    return 0
+
+
+def _cmd_spec(args) -> int:
+    from holonomy.experiment import format_spec_keys, load_spec
+
+    if args.keys:
+        if args.overrides or args.show:
+            raise _UsageError("--set and --print apply to --check FILE only")
+        print(format_spec_keys())
+        return 0
+    spec = load_spec(args.check, purpose=args.purpose, overrides=args.overrides)
+    if args.show:
+        print(spec.text, end="" if spec.text.endswith("\n") else "\n")
+        return 0
+    run = "" if spec.samples is None else f", {spec.samples} samples (seed {spec.seed})"
+    print(f"{args.check}: a valid spec for {args.purpose}: {spec.name}, "
+          f"{spec.family}({spec.n}) {spec.metric}, {spec.scheme} scheme, spacing "
+          f"{spec.spacing:g}, {len(spec.loops)} loop(s){run}; spec_sha256 {spec.sha256}")
     return 0
 
 
@@ -326,7 +376,7 @@ def _cmd_demo(args) -> int:
 
 
 _COMMANDS = {"run": _cmd_run, "exact": _cmd_exact, "series": _cmd_series,
-             "study": _cmd_study, "demo": _cmd_demo}
+             "study": _cmd_study, "spec": _cmd_spec, "demo": _cmd_demo}
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -344,6 +394,9 @@ def main(argv: list[str] | None = None) -> int:
         return 0
     try:
         return _COMMANDS[args.command](args)
+    except _UsageError as exc:
+        print(f"whitegauge: error: {exc}", file=sys.stderr)
+        return 2
     except SpecError as exc:
         print(f"whitegauge: error: {exc}", file=sys.stderr)
         return 2

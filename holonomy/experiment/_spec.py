@@ -51,7 +51,8 @@ from ..groups import FAMILIES, METRICS, MIN_N, matrix_size, parse_metric, parse_
     rep_name
 
 __all__ = ["SpecError", "LoopSpec", "Spec", "load_spec", "parse_spec", "PURPOSES",
-           "FAMILIES", "METRICS", "GAUGES", "SCHEMES", "LIMITS"]
+           "FAMILIES", "METRICS", "GAUGES", "SCHEMES", "LIMITS", "SPEC_KEYS",
+           "format_spec_keys", "apply_overrides"]
 
 # FAMILIES, METRICS (holonomy.groups), GAUGES (discretize) and SCHEMES (the scheme
 # registry, holonomy._schemes) are the engine's own definitions, re-exported here
@@ -67,16 +68,120 @@ MAX_BLOCK = 10**6        # samples per block (memory is proportional to it)
 MAX_CELLS = 10**7        # cells of the grid that covers the loops at the spacing
 MAX_STEPS = 10**6        # count of one moves token
 
-_TOP_KEYS = ("name", "group", "field", "loops", "observable", "run")
-_GROUP_KEYS = ("family", "n", "metric")
-_FIELD_KEYS = ("coupling", "spacing", "gauge", "reference", "scheme", "density")
-_LOOP_KINDS = ("vertices", "circle", "ellipse", "curve", "moves")
-_LOOP_KEYS = ("name",) + _LOOP_KINDS + ("start", "turns")
-_CIRCLE_KEYS = ("center", "radius", "sides")
-_ELLIPSE_KEYS = ("center", "radii", "sides")
 MAX_SIDES = 100_000      # vertices of a sampled circle, ellipse or curve
-_OBS_KEYS = ("rep",)
-_RUN_KEYS = ("samples", "block", "seed")
+
+
+def _one_of(names) -> str:
+    return ", ".join(f"`{n}`" for n in names)
+
+
+def _curve_keys():
+    params = {}
+    for fam, f in CURVES.items():
+        for p in f.params:
+            params.setdefault(p, []).append(fam)
+    return tuple((f"loops[i].curve.{p}", f"parameter of {_one_of(fams)} (see "
+                  "`loops[i].curve.family`)", "required by those families")
+                 for p, fams in params.items())
+
+
+def _curve_families() -> str:
+    return "; ".join(f"`{name}` ({', '.join(f.params)}): {f.equation}"
+                     for name, f in CURVES.items())
+
+
+#: The spec's keys as ``(key path, meaning, default)``: the one definition the parser's
+#: key sets, ``whitegauge spec --keys`` and README.md's table come from.
+SPEC_KEYS: tuple[tuple[str, str, str], ...] = (
+    ("name", "the experiment's name (names the default output folder)", "the file's stem"),
+    ("group.family", f"the group family: {_one_of(FAMILIES)}", "required"),
+    ("group.n", "the group size: U(n) n >= 1, SU(n) n >= 2, SO(n) n >= 2, Sp(n) n >= 1 "
+     f"(matrix size at most {MAX_MATRIX})", "required"),
+    ("group.metric", f"{_one_of(METRICS)} (k = 1, 2, matrix size) or a number k in "
+     "[1e-6, 1e6]: the inner product -k Re tr(XY)", "required"),
+    ("field.coupling", "lambda, a number in [1e-100, 1e100]", "required"),
+    ("field.spacing", "the lattice spacing h > 0", "required"),
+    ("field.gauge", f"{_one_of(GAUGES)}", "`axial-y`"),
+    ("field.reference", "the reference line (y for axial-y, x for axial-x), on a grid "
+     "line", "the lowest (axial-y) or leftmost (axial-x) point of all loops"),
+    ("field.scheme", f"a registered scheme: {_one_of(SCHEMES)} (README.md, Schemes; "
+     "DEVELOPERS.md to add one)", "`heat`"),
+    ("field.density", "a number, or a list of {rect = [x0, y0, x1, y1], value = v} over a "
+     "base of 1 (negative values: exact and series only)", "1"),
+    ("loops", "an array of tables [[loops]], one per loop", "required"),
+    ("loops[i].name", "the loop's name (distinct)", "`loop<i>`"),
+    ("loops[i].vertices", "a polygon [[x, y], ...], at least three points",
+     "one loop kind is required"),
+    ("loops[i].circle", "a regular polygon on a circle", "one loop kind is required"),
+    ("loops[i].circle.center", "[x, y]", "required"),
+    ("loops[i].circle.radius", "r > 0", "required"),
+    ("loops[i].circle.sides", "m >= 3", "required"),
+    ("loops[i].ellipse", "the axis-parallel ellipse sampled at m points (exact area "
+     "pi a b)", "one loop kind is required"),
+    ("loops[i].ellipse.center", "[x, y]", "required"),
+    ("loops[i].ellipse.radii", "[a, b], both > 0", "required"),
+    ("loops[i].ellipse.sides", f"m, 3 <= m <= {MAX_SIDES}", "required"),
+    ("loops[i].curve", "a parametric curve sampled at m points, with exact face areas",
+     "one loop kind is required"),
+    ("loops[i].curve.family", _curve_families(), "required"),
+    ("loops[i].curve.center", "[x, y], the curve's origin", "[0, 0]"),
+    ("loops[i].curve.sides", f"m, 3 <= m <= {MAX_SIDES}", "required"),
+    *_curve_keys(),
+    ("loops[i].moves", 'lattice steps like "R4 U2 L4 D2" (a direction R, L, U or D and '
+     "a count >= 1) in units of the spacing; must close", "one loop kind is required"),
+    ("loops[i].start", "[x, y] where the moves begin (moves only)", "required with moves"),
+    ("loops[i].turns", "times the loop is traversed, an integer >= 1", "1"),
+    ("observable.rep", "`fundamental`, `adjoint`, `trivial`, `spin:j` (SU(2), j = 0, "
+     f"1/2, 1, ...) or `power:k` (1 <= k <= {MAX_POWER})", "`fundamental`"),
+    ("run.samples", f"number of samples, 1 to {MAX_SAMPLES:.0e}",
+     "required for run and study"),
+    ("run.block", f"samples per block, 1 to {MAX_BLOCK:.0e} (part of the spec: it fixes "
+     "the random streams; a study lowers it to have 8 blocks)", f"{DEFAULT_BLOCK}"),
+    ("run.seed", "an integer >= 0", "required for run and study"),
+)
+
+
+def _children(prefix: str) -> tuple[str, ...]:
+    """The key names directly under ``prefix`` ("" for the top level), in table order."""
+    out = []
+    for path, _, _ in SPEC_KEYS:
+        rest = path if not prefix else path[len(prefix) + 1:] \
+            if path.startswith(prefix + ".") else None
+        if rest:
+            name = rest.split(".")[0].split("[")[0]
+            if name not in out:
+                out.append(name)
+    return tuple(out)
+
+
+_TOP_KEYS = _children("")
+_GROUP_KEYS = _children("group")
+_FIELD_KEYS = _children("field")
+_LOOP_KINDS = ("vertices", "circle", "ellipse", "curve", "moves")
+_LOOP_KEYS = _children("loops[i]")
+_CIRCLE_KEYS = _children("loops[i].circle")
+_ELLIPSE_KEYS = _children("loops[i].ellipse")
+_OBS_KEYS = _children("observable")
+_RUN_KEYS = _children("run")
+
+
+def format_spec_keys(*, markdown: bool = False) -> str:
+    """The spec reference (``whitegauge spec --keys``): every key with its meaning and
+    default, from :data:`SPEC_KEYS`; ``markdown=True`` gives README.md's table."""
+    import textwrap
+
+    if markdown:
+        rows = ["| key | meaning | default |", "| --- | --- | --- |"]
+        rows += [f"| `{k}` | {m.replace('|', '/')} | {d} |" for k, m, d in SPEC_KEYS]
+        return "\n".join(rows)
+    width = max(len(k) for k, _, _ in SPEC_KEYS)
+    lines = []
+    for key, meaning, default in SPEC_KEYS:
+        text = f"{meaning.replace('`', '')} [default: {default.replace('`', '')}]"
+        body = textwrap.wrap(text, 88 - width - 2) or [""]
+        lines.append(f"{key.ljust(width)}  {body[0]}")
+        lines.extend(" " * (width + 2) + b for b in body[1:])
+    return "\n".join(lines)
 
 
 LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM, "power": MAX_POWER,
@@ -171,12 +276,14 @@ class Spec:
 
 # --------------------------------------------------------------------------- loading
 
-def load_spec(path: str | Path, *, purpose: str = "run") -> Spec:
+def load_spec(path: str | Path, *, purpose: str = "run", overrides=()) -> Spec:
     """Read and validate the spec file at ``path`` for ``purpose``.
 
     ``purpose`` is one of ``run``, ``study``, ``exact``, ``series``: sampling purposes
     (``run``, ``study``) also need ``[run] samples`` and ``seed`` and refuse a density
     that changes sign; ``exact`` and ``series`` accept it (formal evaluation).
+    ``overrides`` are ``"KEY=VALUE"`` strings (the command line's ``--set``), see
+    :func:`apply_overrides`.
 
     Raises
     ------
@@ -193,12 +300,18 @@ def load_spec(path: str | Path, *, purpose: str = "run") -> Spec:
         raise SpecError(str(path), "is a directory; expected a TOML spec file") from None
     except (OSError, UnicodeDecodeError) as exc:
         raise SpecError(str(path), f"cannot read the spec file ({exc})") from None
-    return parse_spec(text, name=p.stem, purpose=purpose, source=str(path))
+    return parse_spec(text, name=p.stem, purpose=purpose, source=str(path),
+                      overrides=overrides)
 
 
 def parse_spec(text: str, *, name: str = "experiment", purpose: str = "run",
-               source: str = "<string>") -> Spec:
-    """Validate spec ``text`` (TOML); ``name`` is the default for the ``name`` key."""
+               source: str = "<string>", overrides=()) -> Spec:
+    """Validate spec ``text`` (TOML); ``name`` is the default for the ``name`` key.
+
+    With ``overrides`` (``"KEY=VALUE"`` strings), the values are set first and the spec
+    is validated as if the file held them; its ``text`` (and so ``sha256``) is then the
+    resulting TOML, headed by a comment naming the source and the overrides.
+    """
     if purpose not in PURPOSES:
         raise ValueError(f"`purpose` must be one of {PURPOSES}; got {purpose!r}.")
     try:
@@ -209,7 +322,120 @@ def parse_spec(text: str, *, name: str = "experiment", purpose: str = "run",
         where = f"line {m.group(1)}" if m else "end of file"
         msg = re.sub(r"\s*\(at (line \d+, column \d+|end of document)\)", "", msg)
         raise SpecError(source, f"{where}: malformed TOML: {msg}") from None
+    if overrides:
+        data = apply_overrides(data, overrides)
+        header = [f"# {source} with " + " ".join(f"--set {o}" for o in overrides)]
+        text = "\n".join(header) + "\n" + _toml_text(data)
     return _spec_iv(data, text=text, default_name=name, purpose=purpose, source=source)
+
+
+# --------------------------------------------------------------------------- --set
+
+_SEGMENT = re.compile(r"^([A-Za-z_][A-Za-z0-9_-]*)(?:\[(\d+)\])?$")
+_BARE = re.compile(r"^[A-Za-z0-9_.:/+-]+$")
+
+
+def _override_value(key: str, text: str) -> Any:
+    """The value of ``KEY=VALUE``: a TOML value (numbers, true/false, "strings",
+    [arrays], {inline tables}); a bare word that is not TOML is taken as a string
+    (``field.scheme=gauss``)."""
+    try:
+        return tomllib.loads(f"v = {text}")["v"]
+    except tomllib.TOMLDecodeError:
+        if _BARE.match(text):
+            return text
+        raise SpecError(f"--set {key}", f"cannot read the value {text!r}; expected a TOML "
+                        'value such as 100000, 0.5, "text", [1, 2] or a bare word') from None
+
+
+def apply_overrides(data: dict, overrides) -> dict:
+    """A copy of the spec ``data`` with each ``"KEY=VALUE"`` of ``overrides`` set.
+
+    KEY is a spec key path as in the error messages and ``whitegauge spec --keys``:
+    ``run.samples``, ``field.scheme``, ``loops[0].circle.radius``. Missing tables are
+    created; an index must name an existing ``[[loops]]`` entry. The value is then
+    validated with the rest of the spec, so a bad one is refused exactly as in a file.
+    """
+    import copy
+
+    data = copy.deepcopy(data)
+    for item in overrides:
+        key, sep, raw = str(item).partition("=")
+        key = key.strip()
+        if not sep or not key:
+            raise SpecError(f"--set {item}", "expected KEY=VALUE with a spec key path "
+                            "such as run.samples=100000 (see whitegauge spec --keys)")
+        value = _override_value(key, raw.strip())
+        node, where = data, ""
+        parts = key.split(".")
+        for depth, part in enumerate(parts):
+            m = _SEGMENT.match(part)
+            if m is None:
+                raise SpecError(f"--set {key}", f"{part!r} is not a key name or name[index]")
+            name, index = m.group(1), m.group(2)
+            where = f"{where}.{name}" if where else name
+            last = depth == len(parts) - 1
+            if index is None:
+                if last:
+                    node[name] = value
+                    break
+                node = node.setdefault(name, {})
+                if not isinstance(node, dict):
+                    raise SpecError(where, f"is {_describe(node)}, not a table: cannot set "
+                                    f"{key}")
+                continue
+            items = node.get(name)
+            i = int(index)
+            if not isinstance(items, list) or not 0 <= i < len(items):
+                count = len(items) if isinstance(items, list) else 0
+                raise SpecError(f"{where}[{i}]", f"there are {count} entries; expected an "
+                                f"index from 0 to {count - 1}" if count else "no such entries")
+            where = f"{where}[{i}]"
+            if last:
+                items[i] = value
+                break
+            node = items[i]
+            if not isinstance(node, dict):
+                raise SpecError(where, f"is {_describe(node)}, not a table: cannot set {key}")
+    return data
+
+
+def _toml_value(v: Any) -> str:
+    import json
+
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, (int, float)):
+        return repr(v)
+    if isinstance(v, str):
+        return json.dumps(v, ensure_ascii=False)
+    if isinstance(v, list):
+        return "[" + ", ".join(_toml_value(x) for x in v) + "]"
+    if isinstance(v, dict):
+        return "{" + ", ".join(f"{_toml_key(k)} = {_toml_value(x)}" for k, x in v.items()) + "}"
+    raise TypeError(f"cannot write {type(v).__name__} as TOML")
+
+
+def _toml_key(k: str) -> str:
+    import json
+
+    return k if re.fullmatch(r"[A-Za-z0-9_-]+", k) else json.dumps(k)
+
+
+def _toml_text(data: dict) -> str:
+    """TOML text for spec ``data`` (scalars first, then tables and arrays of tables)."""
+    head, tables = [], []
+    for k, v in data.items():
+        if isinstance(v, dict):
+            tables.append(f"\n[{_toml_key(k)}]")
+            tables.extend(f"{_toml_key(a)} = {_toml_value(b)}" for a, b in v.items())
+        elif isinstance(v, list) and v and all(isinstance(x, dict) for x in v):
+            for item in v:
+                tables.append(f"\n[[{_toml_key(k)}]]")
+                tables.extend(f"{_toml_key(a)} = {_toml_value(b)}" for a, b in item.items())
+        else:
+            head.append(f"{_toml_key(k)} = {_toml_value(v)}")
+    return "\n".join(head + tables) + "\n"
 
 
 # --------------------------------------------------------------------------- helpers
