@@ -602,7 +602,7 @@ def plot_convergence(results: dict, path: str | Path) -> Path:
         se = np.array([r["scheme_error_stderr"] or 0.0 for r in rs])
         fit = rates.get((loop, scheme), {})
         exact = all(r["scheme_error_kind"] == "exact" for r in rs)
-        label = f"{loop} {scheme} ({'exact' if exact else 'estimated'})"
+        label = f"{loop} {scheme} ({rs[-1]['scheme_error_kind']})"
         if fit.get("rate") is not None:
             label += f": rate {fit['rate']:.2f} ± {fit['rate_stderr']:.2f}"
         line = ax.errorbar(h, np.maximum(e, 1e-16), yerr=None if exact else se,
