@@ -9,6 +9,7 @@ Subcommands: ``run``, ``exact``, ``series``, ``study``, ``spec``, ``demo`` (see
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
 import os
 import sys
@@ -17,8 +18,9 @@ import traceback
 from holonomy import SCHEMES, __version__, study_schemes
 from holonomy.experiment import (DEMO_GROUPS, MAX_SERIES_ORDER, BlockFailed, Progress,
                                  SpecError, exact_results, format_exact_table,
-                                 format_series_table, format_table, load_spec, run_demo,
-                                 run_spec, run_study, series_results)
+                                 format_series_table, format_spec_keys, format_table,
+                                 load_spec, run_demo, run_spec, run_study, series_results,
+                                 study_block)
 
 __all__ = ["build_parser", "main"]
 
@@ -319,9 +321,11 @@ def _cmd_series(args) -> int:
 def _cmd_study(args) -> int:
     spec = load_spec(args.spec, purpose="study", overrides=args.overrides)
     out = args.out or f"whitegauge-{spec.name}-study"
+    block, note = study_block(spec)
     _say(args, f"{spec.name}: {spec.family}({spec.n}), schemes {', '.join(args.schemes)} "
          f"at spacings {', '.join(f'{h:g}' for h in args.spacings)} on one noise field, "
-         f"{_blocks(spec)}, {_workers_text(args.workers)}; output in {out}/")
+         f"{_blocks(dataclasses.replace(spec, block=block))}"
+         f"{f' ({note})' if note else ''}, {_workers_text(args.workers)}; output in {out}/")
     bar = _progress(args)
     try:
         outcome = run_study(spec, spacings=args.spacings, schemes=args.schemes, out=out,
@@ -338,8 +342,6 @@ def _cmd_study(args) -> int:
 
 
 def _cmd_spec(args) -> int:
-    from holonomy.experiment import format_spec_keys, load_spec
-
     if args.keys:
         if args.overrides or args.show:
             raise _UsageError("--set and --print apply to --check FILE only")
