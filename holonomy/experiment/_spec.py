@@ -34,9 +34,12 @@ that could hang the machine or exhaust its memory are refused before any numeric
 
 from __future__ import annotations
 
+import copy
 import hashlib
+import json
 import math
 import re
+import textwrap
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
@@ -168,8 +171,6 @@ _RUN_KEYS = _children("run")
 def format_spec_keys(*, markdown: bool = False) -> str:
     """The spec reference (``whitegauge spec --keys``): every key with its meaning and
     default, from :data:`SPEC_KEYS`; ``markdown=True`` gives README.md's table."""
-    import textwrap
-
     if markdown:
         rows = ["| key | meaning | default |", "| --- | --- | --- |"]
         rows += [f"| `{k}` | {m.replace('|', '/')} | {d} |" for k, m, d in SPEC_KEYS]
@@ -356,8 +357,6 @@ def apply_overrides(data: dict, overrides) -> dict:
     created; an index must name an existing ``[[loops]]`` entry. The value is then
     validated with the rest of the spec, so a bad one is refused exactly as in a file.
     """
-    import copy
-
     data = copy.deepcopy(data)
     for item in overrides:
         key, sep, raw = str(item).partition("=")
@@ -401,8 +400,6 @@ def apply_overrides(data: dict, overrides) -> dict:
 
 
 def _toml_value(v: Any) -> str:
-    import json
-
     if isinstance(v, bool):
         return "true" if v else "false"
     if isinstance(v, (int, float)):
@@ -417,8 +414,6 @@ def _toml_value(v: Any) -> str:
 
 
 def _toml_key(k: str) -> str:
-    import json
-
     return k if re.fullmatch(r"[A-Za-z0-9_-]+", k) else json.dumps(k)
 
 
