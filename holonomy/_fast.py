@@ -120,38 +120,116 @@ def matrix_product(f):
 
 
 @njit(cache=True)
-def _accept(th, t, log_tol):
-    # the numerator of `holonomy.groups._heat._accept_numerator`, one angle at a time
-    rhs = th
-    if (math.pi / t) * (math.pi - th) < math.log(4 * math.pi * math.pi / t) + log_tol:
-        em = math.exp(-(math.pi / t) * (math.pi - th))
-        rhs += (th - _TWO_PI) * em + (th + _TWO_PI) * (em * math.exp(-(_TWO_PI / t) * th))
-    return math.sin(th) * rhs
-
-
-@njit(cache=True)
-def su2_heat_small(tau, idx, out, rng, log_tol):
-    """The rejection branch of `holonomy.groups.su2_heat_quaternions` for the entries
-    ``idx`` of ``tau`` (all < 0.5), written into ``out`` (n, 4); same draws, same
-    order: per round ``standard_normal((todo, 3))`` then ``random(todo)``."""
+def su2_heat_small(idx, m, sq2t, pi_t, two_pi_t, logc, out, rng):
+    """The rejection branch of `holonomy.groups.su2_heat_quaternions` for the flat
+    entries ``idx`` of a (samples, m) array of times (all with tau < 0.5), written into
+    ``out`` (samples * m, 4). Per column c (entry e has c = e % m), the numpy path's
+    per-entry constants: ``sq2t = sqrt(2 tau)``, ``pi_t = pi / tau``,
+    ``two_pi_t = 2 pi / tau`` and ``logc = log(4 pi^2 / tau) + image tolerance`` (see
+    `holonomy.groups._heat._accept_numerator`). Same draws, same order: per round
+    ``standard_normal((todo, 3))`` then ``random(todo)``."""
     todo = idx.copy()
     while todo.size:
         k = todo.size
         Z = rng.standard_normal((k, 3))
         u = rng.random(k)
         keep = np.empty(k, dtype=np.bool_)
+        nk = 0
         for j in range(k):
             e = todo[j]
-            t = tau[e]
+            c = e % m
             r = math.sqrt(Z[j, 0] * Z[j, 0] + Z[j, 1] * Z[j, 1] + Z[j, 2] * Z[j, 2])
-            th = math.sqrt(2.0 * t) * r
-            ok = th <= math.pi and u[j] * th * th <= _accept(th, t, log_tol)
+            th = sq2t[c] * r
+            ok = False
+            if th <= math.pi:
+                sn = math.sin(th)
+                rhs = th
+                if pi_t[c] * (math.pi - th) < logc[c]:
+                    em = math.exp(-pi_t[c] * (math.pi - th))
+                    rhs += (th - _TWO_PI) * em + (th + _TWO_PI) * (em * math.exp(-two_pi_t[c] * th))
+                ok = u[j] * th * th <= sn * rhs
+                if ok:
+                    s = sn / r
+                    out[e, 0] = math.cos(th)
+                    out[e, 1] = Z[j, 0] * s
+                    out[e, 2] = Z[j, 1] * s
+                    out[e, 3] = Z[j, 2] * s
             keep[j] = not ok
-            if ok:
-                s = math.sin(th) / r
-                out[e, 0] = math.cos(th)
-                out[e, 1] = Z[j, 0] * s
-                out[e, 2] = Z[j, 1] * s
-                out[e, 3] = Z[j, 2] * s
+            nk += not ok
         todo = todo[keep]
+    return out
+
+
+@njit(cache=True)
+def _qmul_into(a0, a1, a2, a3, b0, b1, b2, b3):
+    return (a0 * b0 - a1 * b1 - a2 * b2 - a3 * b3,
+            a0 * b1 + b0 * a1 - (a2 * b3 - a3 * b2),
+            a0 * b2 + b0 * a2 - (a3 * b1 - a1 * b3),
+            a0 * b3 + b0 * a3 - (a1 * b2 - a2 * b1))
+
+
+@njit(cache=True)
+def quaternion_holonomies_algebra(x, side, order, parent, links, dirs, offsets, V):
+    """Holonomies of the ``algebra`` (linear) scheme in one pass per sample: interval
+    sums ``x`` (n, K, 3) cumulated outward (``S_k = side_k x_k + S_parent``, in depth
+    ``order``), then per loop the product of ``exp(-dir S_link)`` over its links
+    (``links[offsets[j]:offsets[j + 1]]``). Output (n, loops, 4)."""
+    n, K = x.shape[0], x.shape[1]
+    nl = offsets.size - 1
+    out = np.empty((n, nl, 4))
+    cum = np.empty((K, 3))
+    for i in range(n):
+        for kk in range(K):
+            k = order[kk]
+            p = parent[k]
+            for j in range(3):
+                v = x[i, k, j] * side[k]
+                cum[k, j] = v + cum[p, j] if p >= 0 else v
+        for loop in range(nl):
+            a0, a1, a2, a3 = 1.0, 0.0, 0.0, 0.0
+            for e in range(offsets[loop], offsets[loop + 1]):
+                lk = links[e]
+                c0 = cum[lk, 0] * -dirs[e]
+                c1 = cum[lk, 1] * -dirs[e]
+                c2 = cum[lk, 2] * -dirs[e]
+                u1 = c0 * V[0, 0] + c1 * V[1, 0] + c2 * V[2, 0]
+                u2 = c0 * V[0, 1] + c1 * V[1, 1] + c2 * V[2, 1]
+                u3 = c0 * V[0, 2] + c1 * V[1, 2] + c2 * V[2, 2]
+                th = math.sqrt(u1 * u1 + u2 * u2 + u3 * u3)
+                r = math.sin(th) / th if th > 0 else 1.0
+                a0, a1, a2, a3 = _qmul_into(a0, a1, a2, a3, math.cos(th), u1 * r, u2 * r, u3 * r)
+            out[i, loop, 0], out[i, loop, 1], out[i, loop, 2], out[i, loop, 3] = a0, a1, a2, a3
+    return out
+
+
+@njit(cache=True)
+def quaternion_holonomies_group(q, side, order, parent, links, flips, offsets):
+    """Holonomies of the ``group`` schemes in one pass per sample: interval products
+    ``q`` (n, K, 4) cumulated outward (``C_k = C_parent B_k`` above the reference,
+    ``B_k C_parent`` below), then per loop the product of ``C_link`` (its inverse where
+    ``flips``) over its links. Output (n, loops, 4)."""
+    n, K = q.shape[0], q.shape[1]
+    nl = offsets.size - 1
+    out = np.empty((n, nl, 4))
+    cum = np.empty((K, 4))
+    for i in range(n):
+        for kk in range(K):
+            k = order[kk]
+            p = parent[k]
+            b0, b1, b2, b3 = q[i, k, 0], q[i, k, 1], q[i, k, 2], q[i, k, 3]
+            if p < 0:
+                c = (b0, b1, b2, b3)
+            elif side[k] > 0:
+                c = _qmul_into(cum[p, 0], cum[p, 1], cum[p, 2], cum[p, 3], b0, b1, b2, b3)
+            else:
+                c = _qmul_into(b0, b1, b2, b3, cum[p, 0], cum[p, 1], cum[p, 2], cum[p, 3])
+            cum[k, 0], cum[k, 1], cum[k, 2], cum[k, 3] = c
+        for loop in range(nl):
+            a0, a1, a2, a3 = 1.0, 0.0, 0.0, 0.0
+            for e in range(offsets[loop], offsets[loop + 1]):
+                lk = links[e]
+                s = -1.0 if flips[e] else 1.0
+                a0, a1, a2, a3 = _qmul_into(a0, a1, a2, a3, cum[lk, 0], s * cum[lk, 1],
+                                            s * cum[lk, 2], s * cum[lk, 3])
+            out[i, loop, 0], out[i, loop, 1], out[i, loop, 2], out[i, loop, 3] = a0, a1, a2, a3
     return out

@@ -144,25 +144,62 @@ class FastQuaternionKernel(QuaternionKernel):
             return super().product(factors)
         return self._fast.quaternion_product(f)
 
+    def holonomies(self, plan, variables, algebra: bool) -> list:
+        """Every loop's holonomy in one compiled pass per sample (see
+        `holonomy._sampling._holonomies` for the numpy reference)."""
+        if variables.shape[1] == 0:
+            return [self.identity((variables.shape[0],)) for _ in plan.steps]
+        order = np.argsort(plan.depth, kind="stable")
+        parent = np.asarray(plan.parent, np.intp)
+        side = np.asarray(plan.side, float)
+        links, extra, offsets = [], [], [0]
+        for lk, direction in plan.steps:
+            on = lk >= 0
+            links.append(lk[on])
+            extra.append(direction[on] if algebra else (direction[on] * side[lk[on]]) > 0)
+            offsets.append(offsets[-1] + int(on.sum()))
+        links = np.concatenate(links).astype(np.intp)
+        offsets = np.asarray(offsets, np.intp)
+        x = np.ascontiguousarray(variables, dtype=float)
+        if algebra:
+            dirs = np.concatenate(extra).astype(float)
+            out = self._fast.quaternion_holonomies_algebra(x, side, order, parent, links, dirs,
+                                                           offsets, self.V)
+        else:
+            flips = np.concatenate(extra).astype(np.bool_)
+            out = self._fast.quaternion_holonomies_group(x, side, order, parent, links, flips,
+                                                         offsets)
+        return [out[:, j] for j in range(out.shape[1])]
+
     def heat(self, t, size, rng):
         from .groups._heat import _IMAGE_LOG_TOL, _TAU_REJECT, sample_su2_angle
 
         t = np.asarray(t, float)
-        tau = np.ascontiguousarray(np.broadcast_to(t / (4.0 * self.group.k), (size,) + t.shape))
-        flat = tau.ravel()
-        out = np.zeros(flat.shape + (4,))
-        out[:, 0] = 1.0
-        small = np.flatnonzero((flat > 0) & (flat < _TAU_REJECT))
-        large = np.flatnonzero(flat >= _TAU_REJECT)
+        col = (t / (4.0 * self.group.k)).reshape(-1)  # tau per column
+        m = col.size
+        out = np.empty((size * m, 4))
+        # entries by column class, in flat order (the numpy path's order)
+        kind = np.where(col <= 0, 0, np.where(col < _TAU_REJECT, 1, 2))
+        if np.all(kind == 1):
+            small, large = np.arange(size * m), np.empty(0, np.intp)
+        else:
+            flat_kind = np.tile(kind, size)
+            small, large = np.flatnonzero(flat_kind == 1), np.flatnonzero(flat_kind == 2)
+            out[flat_kind == 0] = (1.0, 0.0, 0.0, 0.0)
+        flat = np.tile(col, size)
         if small.size:
-            self._fast.su2_heat_small(flat, small, out, rng, _IMAGE_LOG_TOL)
+            # per-column constants, computed as the numpy path computes them per entry
+            with np.errstate(divide="ignore"):
+                consts = (np.sqrt(2.0 * col), np.pi / col, 2 * np.pi / col,
+                          np.log(4 * np.pi**2 / col) + _IMAGE_LOG_TOL)
+            self._fast.su2_heat_small(small, m, *consts, out, rng)
         if large.size:  # inverse CDF, as in the numpy path
             theta = sample_su2_angle(flat[large], rng=rng)
             axis = rng.standard_normal((large.size, 3))
             axis *= (np.sin(theta) / np.sqrt(np.einsum("ij,ij->i", axis, axis)))[:, None]
             out[large, 0] = np.cos(theta)
             out[large, 1:] = axis
-        return out.reshape(tau.shape + (4,))
+        return out.reshape((size,) + t.shape + (4,))
 
 
 #: environment variable choosing the kernels: "numpy", "fast" or "auto" (the default:

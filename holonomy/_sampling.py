@@ -376,6 +376,9 @@ def _interval_variables(problem: WilsonProblem, size: int, rng, path: str,
 def _holonomies(problem: WilsonProblem, variables: np.ndarray, kernel) -> list[np.ndarray]:
     """Holonomies of every loop (kernel elements, leading axis samples)."""
     plan = problem.plan
+    fused = getattr(kernel, "holonomies", None)
+    if fused is not None:  # a compiled kernel does all of this in one pass per sample
+        return fused(plan, variables, problem.scheme.kind == "algebra")
     size = variables.shape[0]
     side = plan.side
     out = []

@@ -36,10 +36,12 @@ CASES = [("SU", 2, "physics", s) for s in ("heat", "linear", "gauss", "wilson")]
     ("U", 2, "trace", "linear"), ("SO", 4, "trace", "heat")]
 
 
-@pytest.mark.parametrize("family,n,metric,scheme", CASES)
+@pytest.mark.parametrize("family,n,metric,scheme,coupling",
+                         [c + (1.3,) for c in CASES] + [("SU", 2, "trace", "heat", 40.0)])
 @pytest.mark.parametrize("path", ["perimeter", "dense"])
-def test_fast_and_numpy_kernels_agree_per_sample(family, n, metric, scheme, path):
-    field = Field(coupling=1.3, spacing=0.25, scheme=scheme)
+def test_fast_and_numpy_kernels_agree_per_sample(family, n, metric, scheme, coupling, path):
+    # coupling 40: heat times on both sides of the SU(2) sampler's switch (tau = 0.5)
+    field = Field(coupling=coupling, spacing=0.25, scheme=scheme)
     prob = WilsonProblem(family=family, n=n, metric=metric, field=field, loops=(LOOP, RING),
                          samples=300, block=300, seed=5)
     if path == "perimeter" and not prob.scheme.perimeter:
