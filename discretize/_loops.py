@@ -318,7 +318,8 @@ def _sampled_xy(fn, t: np.ndarray) -> np.ndarray:
             out = out.T
         if out.shape != (len(t), 2):
             raise ValueError
-    except Exception:  # noqa: BLE001  (a scalar-only callable: evaluate point by point)
+    except (TypeError, ValueError, AttributeError, ArithmeticError):
+        # a callable of scalars only (math.cos, a branch on t): point by point
         try:
             out = np.array([tuple(fn(float(u))) for u in t], dtype=float)
         except (TypeError, ValueError) as exc:

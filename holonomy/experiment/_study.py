@@ -401,7 +401,8 @@ def run_study(spec: Spec, *, spacings: Sequence[float], schemes: Sequence[str] |
                 # exact: e_s = mean(s - partner) + e_partner, with the paired error
                 diff = means[s] - means[partner]
                 paired = (partner, diff, _stderr_columns(diff, counts))
-            diff_se = _paired_stderr(means[s], counts)
+            # consecutive spacings, paired on the same noise
+            diff_se = _stderr_columns(means[s][:, :-1] - means[s][:, 1:], counts)
             for k, h in enumerate(spacings):
                 le = estimates[(h, s)].loops[i]
                 exact = snap[k]
@@ -474,14 +475,6 @@ STUDY_CSV_FIELDS = ("loop", "scheme", "spacing", "estimate", "stderr", "exact", 
                     "scheme_error_stderr", "scheme_error_kind", "snapping_error",
                     "total_error", "total_error_stderr", "z_scheme",
                     "difference_to_finer", "difference_stderr", "samples")
-
-
-def _paired_stderr(bm: np.ndarray, counts: np.ndarray) -> list[float]:
-    """Standard errors of ``mean(h_k) - mean(h_{k+1})`` from the paired block means."""
-    if bm.shape[0] < 2 or bm.shape[1] < 2:
-        return [float("nan")] * max(bm.shape[1] - 1, 0)
-    d = bm[:, :-1] - bm[:, 1:]
-    return [float(math.sqrt(max(v, 0.0))) for v in np.diag(_batch_cov(d, counts))]
 
 
 def _study_row(name, scheme, h, le, exact, exact_method, scheme_exact,
