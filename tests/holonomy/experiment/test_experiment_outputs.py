@@ -137,3 +137,18 @@ def test_cli_says_what_runs_where_and_where_the_files_are(tmp_path):
     assert last.startswith(f"whitegauge run: wrote {tmp_path / 'out' / 'results.json'}")
     assert "3 blocks computed, 0 reused" in last
     assert not exact_zero_error(proc.stdout)
+
+
+def test_readme_defines_every_results_field_and_csv_column(tmp_path):
+    from pathlib import Path
+
+    readme = (Path(__file__).resolve().parents[3] / "README.md").read_text()
+    section = readme[readme.index("## Results"):]
+    section = section[:section.index("\n## ", 5)]
+    outcome = run_spec(parse_spec(SPEC), out=tmp_path / "run")
+    res = outcome.results
+    keys = set(res) | set(res["results"][0]) | set(res["provenance"]) | set(res["field"])
+    missing = sorted(k for k in keys if f"`{k}`" not in section)
+    assert not missing, missing
+    header = open(outcome.files["results.csv"]).readline().strip().split(",")
+    assert all(col in section for col in header)

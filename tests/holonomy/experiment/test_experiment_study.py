@@ -254,6 +254,15 @@ def test_circle_study_separates_snapping_and_scheme_errors(tmp_path):
     assert outcome.results["block"] == 128 and "lowered from 4096" in outcome.results["block_note"]
     _check_circle_study(outcome, linear_needed=False)
     assert (tmp_path / "s" / "convergence.png").exists()
+    # README.md defines every field and column of the study's files
+    readme = (__import__("pathlib").Path(__file__).resolve().parents[3] / "README.md").read_text()
+    section = readme[readme.index("## Studies"):]
+    section = section[:section.index("\n## ", 5)]
+    res = outcome.results
+    keys = set(res) | set(res["results"][0]) | set(res["rates"][0])
+    assert not sorted(k for k in keys if f"`{k}`" not in section)
+    header = (tmp_path / "s" / "study.csv").read_text().splitlines()[0].split(",")
+    assert all(col in section for col in header)
 
 
 @pytest.mark.slow
