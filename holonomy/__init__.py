@@ -34,3 +34,4 @@ from ._lattice_series import (  # noqa: E402  (lattice series of the schemes)
     gauss_series, lattice_covariance, lattice_series, wilson_series,
 )
 from ._continuum_series import continuum_series, exact_series  # noqa: E402  (continuum series)
+from ._formal_estimate import formal_block, formal_estimate, formal_schemes  # noqa: E402

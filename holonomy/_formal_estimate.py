@@ -38,18 +38,23 @@ from ._estimate import BlockSums, EstimateResult
 from ._sampling import WilsonProblem
 from ._solver import ordered_product
 
-__all__ = ["FORMAL_SCHEMES", "formal_block", "formal_estimate", "check_formal_scheme"]
+__all__ = ["formal_schemes", "formal_block", "formal_estimate", "check_formal_scheme"]
 
-#: schemes whose expectations continue to signed densities by complex rotation
-FORMAL_SCHEMES = ("linear", "gauss")
+
+def formal_schemes() -> tuple[str, ...]:
+    """The registered schemes with a formal sampler (``Scheme.formal``): their links
+    are exponentials of the Gaussian noise, which continue to signed variances."""
+    from ._schemes import SCHEMES
+
+    return tuple(name for name, cls in SCHEMES.items() if cls.formal)
 
 
 def check_formal_scheme(scheme: str) -> None:
     """Raise ValueError (one line naming ``field.scheme``) unless formal runs apply."""
-    if scheme not in FORMAL_SCHEMES:
+    if scheme not in formal_schemes():
         raise ValueError(
             f"field.scheme: got {scheme!r}; a signed density has a formal Monte Carlo "
-            f"estimate only for the Gaussian schemes {', '.join(FORMAL_SCHEMES)} (the "
+            f"estimate only for the Gaussian schemes {', '.join(formal_schemes())} (the "
             f"{scheme} scheme samples a density that does not continue to negative areas)")
 
 
@@ -57,7 +62,7 @@ def _factors(problem: WilsonProblem):
     """Per loop ``(labels, signs or loadings)`` and the shared labels' measures."""
     from ._lattice_series import gauss_axial_factors, lattice_loadings
 
-    if problem.field.scheme == "linear":
+    if problem.scheme.kind == "algebra":   # links exp(-S): interval noises
         per_loop = [lattice_loadings(problem, i, merge=False)[0]
                     for i in range(len(problem.loops))]
         return "linear", per_loop, np.asarray(problem.plan.measure, dtype=float)
@@ -87,7 +92,7 @@ def formal_block(problem: WilsonProblem, block: int) -> BlockSums:
     sizes[-1] = problem.samples - problem.block * (problem.n_blocks - 1)
     size = sizes[block]
     rng = block_rng(problem.seed, block)
-    kind, per_loop, mu = _factors(problem)
+    kind, per_loop, mu = _factors(problem)  # "linear": loadings; "gauss": cell factors
     sd = np.sqrt(problem.field.coupling * mu.astype(complex))
     noise = rng.standard_normal((size, mu.size, group.dim)) * sd[None, :, None]
     values = np.empty((size, len(per_loop)), dtype=complex)

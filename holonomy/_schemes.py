@@ -98,6 +98,10 @@ class Scheme:
         alone (no extra randomness): two such schemes on one noise field are paired
         sample by sample, and a study measures one's error against the other's exact
         value through their difference.
+    11. ``formal`` is True when the scheme's links are exponentials of the Gaussian
+        noise (per interval for ``kind == "algebra"``, per cell otherwise), so its
+        expectations continue to signed variances and a signed density has a formal
+        Monte Carlo estimate by complex rotation (:mod:`holonomy._formal_estimate`).
     """
 
     name: str = ""
@@ -108,6 +112,7 @@ class Scheme:
     series_route: str | None = None
     in_study: bool = False
     noise_only: bool = False
+    formal: bool = False
 
     def check(self, group) -> None:
         return None
@@ -172,6 +177,7 @@ class LinearScheme(Scheme):
     noise_only = True
 
     series_route = "linear"
+    formal = True
 
     def lattice_value(self, problem, i: int) -> LatticeValue:
         return _abelian_or(problem, i, "linear")
@@ -191,6 +197,7 @@ class GaussScheme(Scheme):
     noise_only = True
 
     series_route = "gauss"
+    formal = True
 
     def lattice_value(self, problem, i: int) -> LatticeValue:
         return _abelian_or(problem, i, "gauss")

@@ -39,10 +39,14 @@ def exact_results(spec: Spec) -> dict:
                      "exact_method": ref.exact_method, "exact_note": ref.exact_note,
                      "continuum": ref.continuum, "continuum_method": ref.continuum_method,
                      "continuum_note": ref.continuum_note, "area": problem.areas[i],
-                     "area_error": problem.area_errors[i]})
+                     "area_error": problem.area_errors[i],
+                     "gaussian_matrix": ref.gaussian_matrix,
+                     "gaussian_matrix_note": ref.gaussian_matrix_note,
+                     "formal": bool(spec.signed)})
     return clean({"name": spec.name, "spec_sha256": spec.sha256,
                   "group": {"family": spec.family, "n": spec.n, "metric": spec.metric},
-                  "coupling": spec.coupling, "spacing": spec.spacing, "results": rows})
+                  "coupling": spec.coupling, "spacing": spec.spacing,
+                  "formal": bool(spec.signed), "results": rows})
 
 
 #: exact (sympy) series only for loops with at most this many non-trivial horizontal

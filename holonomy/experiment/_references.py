@@ -33,7 +33,34 @@ from discretize import Loop
 from holonomy import LatticeProblem, get_scheme
 from holonomy.exact import NOT_AVAILABLE, heat_lattice_value, loop_value
 
-__all__ = ["LoopReference", "lattice_references", "loop_references", "NOT_AVAILABLE"]
+__all__ = ["LoopReference", "lattice_references", "loop_references", "NOT_AVAILABLE",
+           "gaussian_matrix_field", "GAUSSIAN_MATRIX_ORDER"]
+
+#: the order of the Gaussian-matrix series printed beside exact values
+GAUSSIAN_MATRIX_ORDER = 4
+
+
+def gaussian_matrix_field(group, rep, loop, coupling, area, order: int = GAUSSIAN_MATRIX_ORDER
+                          ) -> tuple[dict | None, str | None]:
+    """The ``gaussian_matrix`` field of a loop: the Gaussian-matrix prescription
+    (:func:`holonomy.exact.gaussian_matrix`) for a simple loop, with its series and the
+    first order at which it differs from the exact value; ``(None, note)`` otherwise."""
+    from holonomy.exact import exact_wilson_loop, gaussian_matrix
+
+    try:
+        ev = exact_wilson_loop(group, rep, loop, coupling=1.0, area=area)
+    except (ValueError, NotImplementedError, ArithmeticError) as exc:
+        return None, f"{NOT_AVAILABLE} ({exc})"
+    if ev is None or ev.method != "simple-loop":
+        return None, (NOT_AVAILABLE + " (the Gaussian-matrix prescription is a closed form "
+                      "for simple loops only)")
+    g = gaussian_matrix(group, rep, ev.details["measure"], coupling, order)
+    return {"value": None if g.value is None else complex(g.value).real,
+            "order": order, "coefficients": g.coefficients, "rationals": g.rationals,
+            "first_difference": g.first_difference,
+            "exact_coefficient": g.exact_coefficient,
+            "gaussian_coefficient": g.gaussian_coefficient,
+            "area": float(ev.details["measure"]), "note": g.note}, None
 
 
 @dataclass
@@ -46,6 +73,8 @@ class LoopReference:
     continuum_method: str | None = None
     continuum_note: str | None = None
     snapped: float | None = None          # the continuum value of the loop as snapped
+    gaussian_matrix: dict | None = None   # the Gaussian-matrix prescription (simple loops)
+    gaussian_matrix_note: str | None = None
 
 
 def lattice_references(problem: LatticeProblem, i: int, *, continuum: Loop | None = None,
@@ -69,6 +98,8 @@ def lattice_references(problem: LatticeProblem, i: int, *, continuum: Loop | Non
                 method = f"{method}, {faces.description}: exact face areas"
             ref.continuum, ref.continuum_method = cont.value.real, method
         ref.continuum_note = cont.note
+        ref.gaussian_matrix, ref.gaussian_matrix_note = gaussian_matrix_field(
+            problem.group, problem.rep, continuum, field.coupling, field.area)
     # the continuum value of the loop as snapped (what `heat` samples, for every scheme)
     snapped = heat_lattice_value(problem, i)
     if snapped.value is not None:

@@ -89,7 +89,9 @@ def build_results(spec, problem, estimate, provenance: dict, *,
         rows.append({
             "loop": le.name,
             "rep": spec.rep,
-            "kind": "estimate",
+            # a signed density: a formal value, estimated by complex rotation
+            "kind": "formal estimate" if spec.signed else "estimate",
+            "formal": bool(spec.signed),
             "scheme": estimate.scheme,
             "estimate": le.estimate,
             "estimate_imag": le.estimate_imag,
@@ -112,6 +114,8 @@ def build_results(spec, problem, estimate, provenance: dict, *,
             "reprojected": le.reprojected,
             "exact_note": ref.exact_note,
             "continuum_note": ref.continuum_note,
+            "gaussian_matrix": ref.gaussian_matrix,
+            "gaussian_matrix_note": ref.gaussian_matrix_note,
         })
     return clean({
         "name": spec.name,
@@ -260,7 +264,8 @@ def format_table(results: dict) -> str:
     rows = []
     for r in results["results"]:
         z = "" if r.get("z") is None else f"z = {r['z']:+.2f} vs exact"
-        rows.append([r["loop"], "estimate", fmt_value(r["estimate"], r["stderr"], "est"),
+        rows.append([r["loop"], r.get("kind", "estimate"),
+                     fmt_value(r["estimate"], r["stderr"], "est"),
                      f"{r.get('scheme', '')}, {r['samples']} samples; {z}".rstrip("; ")])
         rows.extend(_reference_rows(r))
         if r.get("warning"):
@@ -275,18 +280,40 @@ def _area_note(r: dict) -> str:
     return note
 
 
+def _gaussian_matrix_row(r: dict) -> list[str]:
+    """The Gaussian-matrix prescription beside the exact value, with the first order
+    at which their series differ."""
+    g = r.get("gaussian_matrix")
+    if g is None:
+        return ["", "gaussian matrix", MISSING,
+                r.get("gaussian_matrix_note") or "not available for this loop"]
+    if g.get("first_difference") is None:
+        diff = f"the same series as the exact value up to order {g['order']}"
+    else:
+        j = g["first_difference"]
+        diff = (f"differs from the exact value at order lambda^{j}: c_{j} = "
+                f"{g['gaussian_coefficient']:.6g} vs {g['exact_coefficient']:.6g}")
+    value = MISSING if g.get("value") is None else fmt_value(g["value"], 0.0, "exact")
+    return ["", "gaussian matrix", value,
+            f"one Gaussian exponential of the loop's area {g['area']:.6g}; {diff}"]
+
+
 def _reference_rows(r: dict) -> list[list[str]]:
     """The exact and continuum rows of a loop, with what they are or why missing."""
-    rows = [["", "exact", fmt_value(r.get("exact"), 0.0, "exact"),
+    formal = " (formal)" if r.get("formal") else ""
+    rows = [["", "exact" + formal, fmt_value(r.get("exact"), 0.0, "exact"),
              r.get("exact_method") if r.get("exact") is not None else
              (r.get("exact_note") or "not available for this loop")]]
     if r.get("continuum") is not None:
-        rows.append(["", "exact (continuum)", fmt_value(r["continuum"], 0.0, "exact"),
+        rows.append(["", "exact (continuum)" + formal,
+                     fmt_value(r["continuum"], 0.0, "exact"),
                      f"{r.get('continuum_method') or ''}; loop as specified, "
                      f"{_area_note(r)}"])
     else:
-        rows.append(["", "exact (continuum)", MISSING, r.get("continuum_note") or
+        rows.append(["", "exact (continuum)" + formal, MISSING, r.get("continuum_note") or
                      "not available for this loop"])
+    if "gaussian_matrix" in r:
+        rows.append(_gaussian_matrix_row(r))
     return rows
 
 

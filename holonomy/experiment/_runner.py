@@ -26,7 +26,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable
 
-from holonomy import run_block
+from holonomy import formal_block, run_block
 from holonomy._estimate import BlockSums
 from holonomy._kernels import kernel_path
 
@@ -250,7 +250,10 @@ def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor
     """
     start = datetime.now(timezone.utc)
     t0 = time.perf_counter()
-    problem = build_problem(spec)
+    # a signed density: the formal estimate by complex rotation (Gaussian schemes; the
+    # spec refuses the others), with the sampler's blocks, seeds and store
+    problem = build_problem(spec, formal=spec.signed)
+    job = Job(problem=problem, block_fn=formal_block) if spec.signed else wilson_job(problem)
     own_pool = None
     if executor is None and workers is not None and workers > 1:
         executor = own_pool = make_executor(workers)
@@ -267,7 +270,7 @@ def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor
                              workers=worker_label)
             store.set_meta("name", spec.name)
             fault_point("store-open")
-        estimate, stats = execute(wilson_job(problem), store=store, executor=executor,
+        estimate, stats = execute(job, store=store, executor=executor,
                                   progress=bar or False, name=spec.name)
     except BaseException:
         if progress is True:

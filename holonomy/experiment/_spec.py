@@ -49,6 +49,7 @@ from discretize import CURVES, AreaForm, Loop, closed_walk
 from discretize._axial import GAUGES
 from noise import ArgumentError
 
+from .._formal_estimate import formal_schemes
 from .._schemes import SCHEMES
 from ..groups import FAMILIES, METRICS, MIN_N, matrix_size, parse_metric, parse_n, parse_rep, \
     rep_name
@@ -782,7 +783,16 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
     scheme = _choice(f, "scheme", "field.scheme", tuple(SCHEMES), default="heat")
     reference = _number(f, "reference", "field.reference", rule="a finite number",
                         required=False)
-    density = _density_iv(f, purpose)
+    # `run` samples a signed density formally (complex rotation) for the Gaussian
+    # schemes; the others have no formal sampler: refused on field.scheme
+    density = _density_iv(f, "run (formal)" if purpose == "run" else purpose)
+    signed = (density < 0) if isinstance(density, float) else any(r[4] < 0 for r in density)
+    if purpose == "run" and signed and scheme not in formal_schemes():
+        raise SpecError("field.scheme", f"got {scheme!r} with a density that changes sign; "
+                        f"expected one of {', '.join(formal_schemes())}: `run` estimates a "
+                        "formal Wilson loop (no measure exists) only for the Gaussian "
+                        "schemes, by complex rotation (`whitegauge exact` and `whitegauge "
+                        "series` evaluate every scheme formally)")
 
     loops_raw = data.get("loops")
     if loops_raw is None:

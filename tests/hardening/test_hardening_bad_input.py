@@ -69,7 +69,7 @@ SPEC_CASES = [
      "a number > 0"),
     ("spacing-zero", M(("spacing = 0.25", "spacing = 0")), "field.spacing", "a number > 0"),
     ("density-negative-run", M(('scheme = "heat"', 'scheme = "heat"\ndensity = -1.0')),
-     "field.density", "formal route"),
+     "field.scheme", "one of linear, gauss"),
     ("density-rect-short", M(('scheme = "heat"',
                               'scheme = "heat"\ndensity = [{rect = [0, 0, 1], value = 1}]')),
      "field.density[0].rect", "four finite numbers"),

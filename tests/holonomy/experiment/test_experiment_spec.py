@@ -66,7 +66,12 @@ def test_negative_density_allowed_for_formal_purposes():
     assert parse_spec(text, purpose="exact").signed
     assert parse_spec(text, purpose="series").signed
     with pytest.raises(SpecError, match=r"^field\.density: .*formal route"):
+        parse_spec(text, purpose="study")
+    # `run` estimates it formally for the Gaussian schemes, and names field.scheme else
+    with pytest.raises(SpecError, match=r"^field\.scheme: got 'heat'.*linear, gauss"):
         parse_spec(text, purpose="run")
+    assert parse_spec(text.replace('scheme = "heat"', 'scheme = "gauss"'),
+                      purpose="run").signed
 
 
 def _sub(old, new, text=TINY_SPEC):
@@ -110,11 +115,12 @@ BAD = [
      "observable.rep"),
     ("samples = 0", _sub("samples = 600", "samples = 0"), "run.samples"),
     ("block = 0", _sub("block = 64", "block = 0"), "run.block"),
+    # a signed density: `run` has a formal estimate for linear and gauss only
     ("negative density with run", _sub('scheme = "heat"', 'scheme = "heat"\ndensity = -0.5'),
-     "field.density"),
+     "field.scheme"),
     ("negative density rect with run",
      _sub('scheme = "heat"', 'scheme = "heat"\ndensity = [{rect = [0, 0, 1, 1], value = -2}]'),
-     "field.density[0].value"),
+     "field.scheme"),
     ("float for an integer", _sub("samples = 600", "samples = 600.0"), "run.samples"),
     ("negative seed", _sub("seed = 7", "seed = -7"), "run.seed"),
     ("unknown key", _sub("[run]", "[run]\nsamples_per_block = 3"), "run.samples_per_block"),
