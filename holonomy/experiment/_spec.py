@@ -111,7 +111,7 @@ SPEC_KEYS: tuple[tuple[str, str, str], ...] = (
     ("field.scheme", f"a registered scheme: {_one_of(SCHEMES)} (README.md, Schemes; "
      "DEVELOPERS.md to add one)", "`heat`"),
     ("field.density", "a number, or a list of {rect = [x0, y0, x1, y1], value = v} over a "
-     "base of 1 (negative values: exact and series only)", "1"),
+     "base of 1 (negative values: exact, series, and run with linear or gauss: formal)", "1"),
     ("loops", "an array of tables [[loops]], one per loop", "required"),
     ("loops[i].name", "the loop's name (distinct)", "`loop<i>`"),
     ("loops[i].vertices", "a polygon [[x, y], ...], at least three points",
