@@ -1,6 +1,6 @@
 """Seeds and block streams.
 
-The seeding contract (DESIGN.md section 4): sample block ``b`` of a run with seed ``s``
+The seeding contract (README.md, "Reproducibility"): sample block ``b`` of a run with seed ``s``
 draws from ``SeedSequence(s, spawn_key=(b,))``, the ``b``-th child that
 ``SeedSequence(s).spawn`` would make. A block's stream therefore depends only on
 ``(s, b)``, never on how many blocks there are or in which order, or on which worker,

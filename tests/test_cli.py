@@ -4,7 +4,8 @@ resumed to bitwise identical numbers.
 
 Exact values are checked against the closed form for a simple loop,
 E[W] = exp(-c lambda A / 2) with c = 3/4 for SU(2) with k = 2 (Levy 2003, "Yang-Mills
-measure on compact surfaces", Mem. AMS 166(790); the Casimir value is in DESIGN.md).
+measure on compact surfaces", Mem. AMS 166(790); the Casimir value: Georgi 1999, Lie
+Algebras in Particle Physics, ch. 3, j(j+1) with j = 1/2 and k = 2, from memory).
 """
 
 import json
@@ -17,6 +18,8 @@ import sys
 import time
 
 import pytest
+
+from tests.conftest import wg as run_cli
 
 SPEC = '''
 name = "cli-box"
@@ -47,10 +50,7 @@ PROVENANCE_FIELDS = {"whitegauge", "numpy", "scipy", "python", "start", "wall_se
 
 
 def wg(*args, cwd=None, check_code=0):
-    proc = subprocess.run([sys.executable, "-m", "holonomy.cli", *map(str, args)],
-                          capture_output=True, text=True, cwd=cwd, timeout=600)
-    assert proc.returncode == check_code, (proc.returncode, proc.stdout, proc.stderr)
-    return proc
+    return run_cli(*args, cwd=cwd, check_code=check_code)
 
 
 @pytest.fixture

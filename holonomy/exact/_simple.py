@@ -1,6 +1,6 @@
 """Closed forms for simple loops (any group) and for any loop with U(1).
 
-Conventions (DESIGN.md, section 2): the curvature is white noise of intensity
+Conventions (README.md, "Conventions"): the curvature is white noise of intensity
 ``coupling * mu`` per Lie-algebra component in an orthonormal basis of the metric
 ``<X, Y> = -k Re tr(XY)``; for an irreducible representation pi the Casimir constant
 c_pi is defined by ``sum_a pi(X_a)^2 = -c_pi Id`` and Brownian motion at time t has

@@ -1,7 +1,7 @@
 """Moments of the heat kernel on tensor powers and their contraction along a word.
 
 For a Brownian motion ``V_t`` on a compact matrix group (``dV = V o dB``, Casimir
-normalization of the design document) and ``rho = pi^{(x)p} (x) conj(pi)^{(x)q}``,
+normalization of README.md, "Conventions") and ``rho = pi^{(x)p} (x) conj(pi)^{(x)q}``,
 
     E[rho(V_t)] = exp(t L_{p,q}),   L_{p,q} = 1/2 sum_a rho(X_a)^2,
     rho(X_a) = sum_i X_a^{(i)}   (conj(X_a) on the conjugate factors),

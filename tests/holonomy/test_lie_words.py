@@ -51,7 +51,7 @@ class TestCasimirTensor:
 
     @pytest.mark.parametrize("family, n, metric, c", [
         # Casimir constants (Georgi 1999, Lie Algebras in Particle Physics, ch. 7-8;
-        # also the table in DESIGN.md): SU(N) k=2: (N^2-1)/(2N); SU(N) k=N: 1 - 1/N^2;
+        # from memory): SU(N) k=2: (N^2-1)/(2N); SU(N) k=N: 1 - 1/N^2;
         # U(N) k=N: 1; SO(N) k=1: (N-1)/2
         ("SU", 2, "physics", 3 / 4), ("SU", 3, "physics", 4 / 3), ("SU", 3, "large-n", 8 / 9),
         ("U", 3, "large-n", 1.0), ("SO", 4, "trace", 1.5), ("SO", 3, "trace", 1.0)])

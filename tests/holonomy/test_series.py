@@ -26,7 +26,7 @@ def taylor(expr, order):
 
 def su2_step(t):
     """E[tr exp(X)] / 2 for SU(2), k = 2, X Gaussian with variance t per component:
-    (1 - t/4) exp(-t/8) (DESIGN.md exact references; checked against
+    (1 - t/4) exp(-t/8) (the characteristic function of a 3-d Gaussian; checked against
     scipy.stats.chi(3).expect in test_su2_step_formula)."""
     return (1 - t / 4) * sympy.exp(-t / 8)
 
@@ -89,7 +89,7 @@ class TestProducts:
 
     def test_independent_edges_rectangle(self):
         # a W-column rectangle in the `linear` scheme: W independent steps of variance
-        # s H each, so E[W] = f(s H)^W with f the SU(2) Gaussian step (DESIGN.md)
+        # s H each, so E[W] = f(s H)^W with f the SU(2) Gaussian step (su2_step above)
         g = make_group("SU", 2, "physics")
         W, sH = 5, R(3, 4)
         res = exp_product_series(g, sH * sympy.eye(W), 4, exact=True)

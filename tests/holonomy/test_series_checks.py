@@ -363,7 +363,7 @@ def test_signed_density_series_matches_complex_rotation():
 
 
 def test_samplers_refuse_signed_density_and_name_formal_route():
-    # DESIGN.md section 2: no measure exists for a signed density; the message names the
+    # README.md ("The spec"): no measure exists for a signed density; the message names the
     # formal route
     with pytest.raises(ValueError, match=r"negative density.*formal.*lattice_series"):
         _problem(FIGURE_EIGHT, 0.5, area=SIGNED)

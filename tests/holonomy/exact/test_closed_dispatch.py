@@ -16,7 +16,7 @@ def lattice(moves, start=(2, 2), turns=1):
 
 class TestRoutes:
     @pytest.mark.parametrize("family, n, metric, c", [
-        # DESIGN.md "Known values" (Georgi 1999, from memory): SU(2) k = 2: 3/4;
+        # Casimir values (Georgi 1999, from memory): SU(2) k = 2: 3/4;
         # SU(3) k = 2: 4/3; U(3) k = 3: 1; SO(3) k = 1: 1.
         ("SU", 2, "physics", 0.75), ("SU", 3, "physics", 4 / 3), ("U", 3, "large-n", 1.0),
         ("SO", 3, "trace", 1.0),

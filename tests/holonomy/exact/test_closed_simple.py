@@ -23,7 +23,7 @@ class TestSimpleLoop:
     def test_su2_against_heat_kernel_integral(self, t):
         # E[chi(U_t)] / 2 = E[cos theta] under the heat-kernel angle law (image form,
         # Dowker 1971), to be compared with exp(-c t / 2), c = 3/4 for k = 2
-        # (DESIGN.md table: SU(2) spin j with k = 2: j(j+1); Georgi 1999, ch. 3).
+        # (SU(2) spin j with k = 2: j(j+1); Georgi 1999, ch. 3).
         tau = t / 8.0
         num = integrate.quad(lambda th: np.cos(th) * su2_angle_density_image(th, tau), 0, np.pi,
                              epsabs=1e-14, epsrel=1e-13)[0]
@@ -47,7 +47,7 @@ class TestSimpleLoop:
 
     @pytest.mark.slow
     def test_monte_carlo_su3(self):
-        # SU(3) fundamental with k = 2 has c = (N^2 - 1) / (2N) = 4/3 (DESIGN.md table;
+        # SU(3) fundamental with k = 2 has c = (N^2 - 1) / (2N) = 4/3 (
         # Georgi 1999, ch. 7); Brownian motion at t = 0.8, 4 standard errors.
         G = make_group("SU", 3, "physics")
         U = G.heat_kernel(0.8, 4000, rng=np.random.default_rng(11))

@@ -108,7 +108,7 @@ class TestSU2:
                                               ("SO", 3, 1, 1.0), ("U", 1, 1, 1.0)])
     def test_plane_limit(self, fam, n, k, c):
         # As the outside area grows the loop sees the plane: exp(-c lambda A / 2)
-        # (Levy 2003, Mem. AMS 166; DESIGN.md Casimir table). The gap closes like
+        # (Levy 2003, Mem. AMS 166; Casimir values from Georgi 1999, from memory). The gap closes like
         # exp(-c lambda A2 / 2): the first terms of the character sums that involve the
         # outside disc are the loop's own representation (or its conjugate) there.
         A, lam = 1.2, 0.8

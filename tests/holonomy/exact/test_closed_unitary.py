@@ -91,8 +91,8 @@ def test_cyclic_operator():
 
 class TestCasimirAndDimension:
     @pytest.mark.parametrize("N", [2, 3, 4])
-    def test_design_table(self, N):
-        # DESIGN.md "Known values": U(N) fund, k = N: 1; SU(N) fund, k = N: 1 - 1/N^2;
+    def test_casimir_table(self, N):
+        # Casimir values (Georgi 1999, ch. 7-8, from memory): U(N) fund, k = N: 1; SU(N) fund, k = N: 1 - 1/N^2;
         # SU(N) fund, k = 2: (N^2 - 1)/(2N); SU(N) adjoint (2, 1^(N-2)), k = 2: N
         # (Georgi 1999, "Lie Algebras in Particle Physics", ch. 7, from memory).
         assert unitary_casimir((1,), N) == pytest.approx(1.0, abs=1e-14)

@@ -94,7 +94,7 @@ class TestSimpleLoop:
         assert r.method == "lasso"  # every variable occurs once: no contraction
 
     def test_casimir_reference_values(self):
-        # DESIGN.md / standard values: SU(N) fundamental, k = 2: (N^2 - 1) / (2N)
+        # standard values (Georgi 1999, ch. 7-8, from memory): SU(N) fundamental, k = 2: (N^2 - 1) / (2N)
         # (Georgi, "Lie Algebras in Particle Physics", 1999, ch. 7)
         r = evaluate_word(make_group("SU", 3, "physics"), [1], [1.0])
         assert r.value == pytest.approx(np.exp(-(8 / 6) / 2), abs=1e-12)
@@ -115,7 +115,7 @@ class TestU1:
                                             (WIND_2_1_M1, 1), (COMMUTATOR, 3),
                                             (star(7, 3), 1)])
     def test_winding_formula(self, poly, turns):
-        # U(1): E[H] = exp(-lambda sum_F n_F^2 |F| / 2) (DESIGN.md "Exact references";
+        # U(1): E[H] = exp(-lambda sum_F n_F^2 |F| / 2) (README.md "Conventions";
         # Levy 2003, Mem. AMS 166, sec. 2.?: abelian case, Gaussian phases)
         G = make_group("U", 1)
         arr = arrangement(poly, turns)
@@ -327,7 +327,7 @@ class TestExactAndContinuation:
         assert num.value == pytest.approx(ref, abs=1e-12)
 
     def test_sp1_equals_su2(self):
-        # Sp(1) is isomorphic to SU(2) (DESIGN.md; Hall 2015, "Lie Groups, Lie Algebras,
+        # Sp(1) is isomorphic to SU(2) (Hall 2015, "Lie Groups, Lie Algebras,
         # and Representations", sec. 1.2), same metric: same Wilson loops
         a = evaluate_polygon(make_group("Sp", 1, "physics"), ENTANGLED_3, coupling=0.7)
         b = evaluate_polygon(make_group("SU", 2, "physics"), ENTANGLED_3, coupling=0.7)

@@ -1,7 +1,7 @@
 """The runner and the run store, with a tiny stand-in problem (so these tests check the
 machinery, not the sampler) and once with the real sampler on several executors.
 
-Reproducibility contract: DESIGN.md section 4 (block b draws from
+Reproducibility contract: README.md "Reproducibility" (block b draws from
 SeedSequence(seed, spawn_key=(b,)); numbers identical for any executor and after a
 resume). Streams follow numpy's SeedSequence spawning (numpy documentation,
 "Parallel random number generation", from memory).
@@ -19,7 +19,7 @@ from holonomy import BlockSums, combine_blocks
 from holonomy.experiment import (Job, RunStore, SpecError, StoreMismatch, execute,
                                  parse_spec, run_spec, write_json_atomic)
 
-from wg_specs import TINY_SPEC
+from tests.conftest import TINY_SPEC
 
 
 @dataclass(frozen=True)

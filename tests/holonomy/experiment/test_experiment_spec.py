@@ -16,7 +16,7 @@ from holonomy.groups import make_group
 from noise import ArgumentError
 from holonomy.experiment import SpecError, load_spec, parse_spec
 
-from wg_specs import ISSUE_SPEC, TINY_SPEC
+from tests.conftest import ISSUE_SPEC, TINY_SPEC
 
 
 def test_issue_example_parses():

@@ -4,7 +4,7 @@ the SU(2) rectangle study of issue 5.
 The one-step function f(t) = E[tr exp(X)] / 2 for SU(2), k = 2, is computed here by
 quadrature against the chi distribution with 3 degrees of freedom (scipy.stats.chi,
 scipy.integrate.quad): exp(X) has eigenvalues exp(+-i r / 2) with r = |Z|, Z ~ N(0, t I_3),
-so f(t) = E[cos(sqrt(t) chi_3 / 2)]. DESIGN.md quotes (1 - t/4) exp(-t/8).
+so f(t) = E[cos(sqrt(t) chi_3 / 2)] = (1 - t/4) exp(-t/8).
 """
 
 import math
@@ -62,8 +62,8 @@ def test_scheme_references_for_a_rectangle(scheme):
         "linear": f_su2(lam * h * b) ** cols,
         # Levy (2003): simple loop exp(-c lambda A / 2), c = 3/4
         "heat": math.exp(-3 / 8 * lam * a * b),
-        # Wilson action, SU(2), k = 2: w = I2(beta)/I1(beta), beta = 4/s (DESIGN.md; Gross
-        # and Witten 1980 for independent plaquettes), scipy.special.iv
+        # Wilson action, SU(2), k = 2: w = I2(beta)/I1(beta), beta = 4/s (Creutz 1980,
+        # Phys. Rev. D 21, 2308, one-plaquette SU(2); Gross and Witten 1980 for independent plaquettes), scipy.special.iv
         "wilson": (__import__("scipy.special").special.iv(2, 4 / (lam * h * h))
                    / __import__("scipy.special").special.iv(1, 4 / (lam * h * h))) ** cells,
     }[scheme]

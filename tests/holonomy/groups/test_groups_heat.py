@@ -2,7 +2,7 @@
 
 References for the checks:
 - E[pi(U_t)] = exp(-c_pi t / 2) Id for Brownian motion with generator (1/2) sum X_a^2
-  (M. Liao 2004, "Levy Processes in Lie Groups", Section 1.3; project design, section 2).
+  (M. Liao 2004, "Levy Processes in Lie Groups", Section 1.3; DEVELOPERS.md "Conventions").
 - SU(2) heat-kernel angle law: class-function series sum_j (2j+1) exp(-c_j t/2) chi_j
   against the Weyl density (2/pi) sin^2(theta) (H. Weyl 1939, "The Classical Groups";
   L. Gross 1986, Springer LNM 1158), integrated with scipy.integrate.quad.

@@ -32,7 +32,7 @@ class TestBasis:
         assert G.real == (family == "SO")
 
     def test_orthonormal(self, family, n, metric):
-        # Definition of the metric <X, Y> = -k Re tr(XY) (project design, section 2).
+        # Definition of the metric <X, Y> = -k Re tr(XY) (README.md "Conventions").
         G = make_group(family, n, metric)
         B = G.basis
         gram = -G.k * np.einsum("aij,bji->ab", B, B).real
@@ -81,7 +81,7 @@ class TestBasis:
 
 
 def test_metric_constants():
-    # Named metrics (project design, section 2): trace 1, physics 2, large-n = N.
+    # Named metrics (README.md "Conventions"): trace 1, physics 2, large-n = N.
     assert make_group("SU", 3).k == 1.0
     assert make_group("SU", 3, "physics").k == 2.0
     assert make_group("SU", 3, "large-n").k == 3.0

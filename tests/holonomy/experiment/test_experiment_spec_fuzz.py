@@ -17,7 +17,7 @@ from discretize import Loop, parse_moves
 from holonomy.experiment import SpecError, parse_spec
 from holonomy.experiment._runner import build_problem
 
-from .hard_specs import BASE
+from tests.conftest import BASE
 
 FAST = settings(max_examples=40, deadline=None, derandomize=True,
                 suppress_health_check=[HealthCheck.too_slow])

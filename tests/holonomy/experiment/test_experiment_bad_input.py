@@ -15,7 +15,7 @@ import pytest
 from holonomy.cli import main
 from holonomy.experiment import SpecError, load_spec, run_spec
 
-from .hard_specs import BASE, mutate, wg
+from tests.conftest import BASE, mutate, wg
 
 M = mutate
 # (id, spec text, key path, a piece of the rule)

@@ -22,7 +22,7 @@ import pytest
 
 from holonomy.experiment import BlockFailed, RunStore, load_spec, run_spec
 
-from .hard_specs import BASE, mutate, numbers, read_json, wg
+from tests.conftest import mutate, numbers, read_json, wg
 
 # 12 blocks of 40 samples: fast, and enough blocks to kill in the middle
 SPEC = mutate(("samples = 64", "samples = 480"), ("block = 32", "block = 40"))

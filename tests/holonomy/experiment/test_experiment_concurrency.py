@@ -12,7 +12,7 @@ import pytest
 
 from holonomy.experiment import load_spec, run_spec
 
-from .hard_specs import mutate, numbers, read_json, wg
+from tests.conftest import mutate, numbers, read_json, wg
 
 A = mutate(("samples = 64", "samples = 960"), ("block = 32", "block = 60"))
 B = mutate(('name = "hard"', 'name = "other"'), ('family = "SU"', 'family = "U"'),

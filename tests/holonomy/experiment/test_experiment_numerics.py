@@ -3,8 +3,8 @@
 Reference values: for a simple loop enclosing area A and an irreducible representation
 with Casimir c, E[W] = exp(-c lambda A / 2) (Levy, T. (2003), "Yang-Mills measure on
 compact surfaces", Mem. AMS 166, no. 790, Prop. 2.x (simple loops), from memory; the
-same formula is the heat-kernel mean of the design document, section 2). Casimir values
-(design document, section 2): SU(2) fundamental with k = 2: 3/4; U(1), k = 1: 1; U(N)
+same formula is the heat-kernel mean stated in README.md, "Conventions"). Casimir values
+(Georgi 1999, Lie Algebras in Particle Physics, ch. 7-8, from memory): SU(2) fundamental with k = 2: 3/4; U(1), k = 1: 1; U(N)
 fundamental with k = N: 1; SO(N) defining with k = 1: (N - 1)/2. The `heat` scheme is
 exact for lattice loops at every spacing, so its estimate has no bias. Tolerance: 4
 standard errors (common practice, no source).
@@ -19,10 +19,10 @@ import pytest
 from discretize import Loop
 from holonomy import Field, WilsonProblem, run_block
 from holonomy._kernels import kernel_for
-from holonomy.experiment import LIMITS, load_spec, parse_spec, run_spec, series_results
+from holonomy.experiment import LIMITS, parse_spec, run_spec, series_results
 from holonomy.groups import make_group
 
-from .hard_specs import BASE, mutate
+from tests.conftest import BASE, mutate, wg
 
 SQUARE = Loop.polygon([[0, 0], [1, 0], [1, 1], [0, 1]])  # area 1: lambda * A = lambda
 GROUPS = {"SU2": ("SU", 2, "physics", 0.75), "U1": ("U", 1, "trace", 1.0)}
@@ -147,7 +147,7 @@ def test_series_within_budget_still_answers(monkeypatch):
     obj = series_results(parse_spec(mutate(('scheme = "heat"', 'scheme = "linear"'))), 2,
                          loops=[0], rationals=True)
     # box 1 x 0.5, SU(2), k = 2, linear scheme: c_1 = -c A / 2 = -(3/4)(1/2)/2 = -3/16
-    # (first-order Wick term; design document, section 2)
+    # (first-order Wick term; Wick 1950, Phys. Rev. 80, 268; README.md "Conventions")
     assert obj["results"][0]["rationals"][:2] == ["1", "-3/16"]
 
 
@@ -171,8 +171,6 @@ def test_exact_route_refuses_sizes_beyond_max_dim():
 
 @pytest.mark.slow
 def test_exact_command_on_large_groups_answers_quickly(tmp_path):
-    from .hard_specs import wg
-
     text = mutate(("n = 2", "n = 32"), ('family = "SU"', 'family = "SO"'),
                   ('metric = "physics"', 'metric = "trace"'),
                   ('name = "ell"', 'name = "ell"\nturns = 20'))

@@ -1,0 +1,134 @@
+"""Shared test helpers: spec texts, spec mutation and the command-line runner.
+
+Test modules import them (``from tests.conftest import TINY_SPEC, wg``); the fixtures
+below write the texts to files. Sample counts are tiny so the suite stays fast.
+"""
+
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+#: the spec of the README's tour (examples/box_and_ring.toml) with 100000 samples
+ISSUE_SPEC = '''
+name = "box-and-ring"
+[group]
+family = "SU"
+n = 2
+metric = "physics"
+[field]
+coupling = 1.0
+spacing = 0.125
+gauge = "axial-y"
+reference = 0.0
+scheme = "heat"
+density = 1.0
+[[loops]]
+name = "box"
+vertices = [[0.0, 0.0], [2.0, 0.0], [2.0, 1.0], [0.0, 1.0]]
+[[loops]]
+name = "ring"
+circle = { center = [1.0, 3.0], radius = 0.5, sides = 64 }
+turns = 2
+[[loops]]
+name = "ell"
+moves = "R4 U2 L2 U2 L2 D4"
+start = [0.0, 0.0]
+[observable]
+rep = "fundamental"
+[run]
+samples = 100000
+block = 4096
+seed = 20261202
+'''
+
+#: a small valid spec: a box and an L-shaped moves loop, 600 samples
+TINY_SPEC = '''
+name = "tiny"
+[group]
+family = "SU"
+n = 2
+metric = "physics"
+[field]
+coupling = 1.0
+spacing = 0.25
+scheme = "heat"
+[[loops]]
+name = "box"
+vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
+[[loops]]
+name = "ell"
+moves = "R2 U1 L1 U1 L1 D2"
+start = [0.0, 0.0]
+[run]
+samples = 600
+block = 64
+seed = 7
+'''
+
+#: the base of the bad-input tables (one [observable] table, 64 samples)
+BASE = '''name = "hard"
+[group]
+family = "SU"
+n = 2
+metric = "physics"
+[field]
+coupling = 1.0
+spacing = 0.25
+scheme = "heat"
+[[loops]]
+name = "box"
+vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
+[[loops]]
+name = "ell"
+moves = "R2 U1 L1 U1 L1 D2"
+start = [0.0, 0.0]
+[observable]
+rep = "fundamental"
+[run]
+samples = 64
+block = 32
+seed = 7
+'''
+
+
+def mutate(*pairs: tuple[str, str], text: str = BASE) -> str:
+    """``text`` with each ``old`` replaced by ``new`` (each ``old`` must occur)."""
+    for old, new in pairs:
+        assert old in text, old
+        text = text.replace(old, new, 1)
+    return text
+
+
+def wg(*args, cwd=None, env=None, timeout=600, check_code=None):
+    """Run ``whitegauge`` in a subprocess (this interpreter, so the code under test);
+    returns the CompletedProcess, after checking its exit code if ``check_code`` is
+    given."""
+    full = dict(os.environ, **(env or {}))
+    proc = subprocess.run([sys.executable, "-m", "holonomy.cli", *map(str, args)],
+                          capture_output=True, text=True, cwd=cwd, env=full,
+                          timeout=timeout)
+    if check_code is not None:
+        assert proc.returncode == check_code, (proc.returncode, proc.stdout, proc.stderr)
+    return proc
+
+
+def numbers(results: dict) -> list:
+    """The numbers of a results object that must be bitwise reproducible."""
+    return [(r["loop"], r["estimate"], r["estimate_imag"], r["stderr"], r["samples"])
+            for r in results["results"]]
+
+
+def read_json(path: Path) -> dict:
+    return json.loads(Path(path).read_text())
+
+
+@pytest.fixture
+def tiny_spec_path(tmp_path) -> Path:
+    """TINY_SPEC written to a file."""
+    path = tmp_path / "tiny.toml"
+    path.write_text(TINY_SPEC)
+    return path
