@@ -56,10 +56,13 @@ from fractions import Fraction
 
 import numpy as np
 
-from discretize import arrangement
+from discretize import arrangement, joint_arrangement
 
+from ._characters import adams_decomposition, class_weights, dominant_casimir, weyl_dimension
+from ._laws import ExactRouteError, law_character
+from ._master import master_field_word
 from ._tensor import contract_exact, contract_numeric, contraction_labels
-from ._laws import ExactRouteError
+from ._unitary import free_unitary_moment
 from ._word import ReducedWord, lasso_words, reduce_for_trace, reduce_for_traces
 
 __all__ = ["ExactEvaluation", "evaluate_polygon", "evaluate_polygons", "evaluate_word",
@@ -229,13 +232,10 @@ def _group_iv(group, rep):
         raise ExactRouteError("representation", f"{name!r} has no matrices ({exc})") from None
     C = np.einsum("aij,ajk->ik", mats, mats)
     c = float(-np.trace(C).real / C.shape[0])
-    from ._characters import class_weights
 
     weights = class_weights(group, rep_obj)
     highest = None
     if weights is not None:
-        from ._characters import adams_decomposition
-
         dec = adams_decomposition(weights)
         if len(dec) == 1 and next(iter(dec.values())) == 1:
             highest = next(iter(dec))
@@ -346,8 +346,6 @@ def _split_lobes(word) -> list:
 
 def _adams(setup: _RepSetup, n: int, law):
     """``E[chi(X^n)] / dim`` by the Adams operation and Racah-Speiser reduction."""
-    from ._characters import adams_decomposition, dominant_casimir, weyl_dimension
-    from ._laws import law_character
 
     group = setup.group
     special = group.family == "SU"
@@ -369,7 +367,6 @@ class _Evaluator:
 
     def words(self, words, times):
         """``E[prod_i tr pi(w_i) / d]`` (a complex number)."""
-        from ._laws import law_character
 
         setup = self.setup
         words = [tuple(w) * setup.power for w in words]
@@ -409,8 +406,6 @@ class _Evaluator:
             r = reduce_for_trace(word, times, drop_single=True)
             value = 1 + 0j
             if r.dropped:
-                from ._laws import law_character
-
                 for t in r.dropped:
                     value *= law_character(t, setup.casimir, setup.highest)
             word, times = r.word, r.times
@@ -426,8 +421,6 @@ class _Evaluator:
         return self.closed_or_tensor(word, times)
 
     def closed_or_tensor(self, word, times):
-        from ._unitary import free_unitary_moment
-
         setup = self.setup
         if len({abs(x) for x in word}) == 1:  # X^n: a wound loop
             f = abs(word[0])
@@ -439,8 +432,6 @@ class _Evaluator:
                 self.routes.add("adams")
                 return _adams(setup, n, times[f - 1])
         if self.large_n:
-            from ._master import master_field_word
-
             self.routes.add("free")
             return master_field_word(word, times)
         return self.tensor([word], times)
@@ -643,7 +634,6 @@ def evaluate_polygon(group, vertices, turns: int = 1, *, coupling=1.0,
     ((1, 1), '0.135335')
 
     A loop whose word does not reduce to closed forms (SU(2), physics metric):
-
     >>> G = make_group("SU", 2, "physics")
     >>> loop = [(0, 0), (4, 0), (4, 3), (1, 3), (1, 2), (3, 2), (3, 1), (2, 1), (2, 4), (0, 4)]
     >>> r = evaluate_polygon(G, loop, coupling=0.25)
@@ -714,7 +704,6 @@ def evaluate_polygons(group, curves, turns=None, *, coupling=1.0, rep="fundament
     >>> round(r.value.real, 12) == round(float(np.exp(-0.75)), 12)  # (e^{-3/8})^2
     True
     """
-    from discretize import joint_arrangement
 
     arr = joint_arrangement(curves, turns)
     areas = list(face_measures(arr, area_density))

@@ -34,6 +34,8 @@ from itertools import product
 
 import numpy as np
 
+from ._laws import law_character
+
 __all__ = [
     "casimir_tensor",
     "tensor_generator",
@@ -148,7 +150,6 @@ def _basis_key(basis: np.ndarray):
 
 def _law_spectrum(law, mu):
     """``w_sigma`` on each eigenvalue ``mu = -c_sigma / 2`` of ``L_{p,q}``."""
-    from ._laws import law_character
 
     if not hasattr(law, "character"):
         return np.exp(complex(law) * mu)

@@ -28,7 +28,13 @@ import math
 import numpy as np
 from scipy import special
 
+from discretize import AreaForm, LatticeLoop, joint_arrangement
+
 from ._common import _family_iv, _int_iv, _metric_iv, _real_iv
+from ._dispatch import lattice_polygon
+from ._evaluate import ExactEvaluation, evaluate_words
+from ._laws import ExactRouteError, WilsonLaw
+from ._word import lasso_words
 
 __all__ = ["wilson_plaquette", "wilson_lattice_loop", "wilson_lattice_exact"]
 
@@ -250,12 +256,6 @@ def wilson_lattice_exact(group, rep, loops, *, coupling: float, area=None,
     >>> bool(abs(r.value.real - (3 * w1**2 - 1) / 2) < 1e-12)
     True
     """
-    from discretize import AreaForm, LatticeLoop, joint_arrangement
-
-    from ._dispatch import lattice_polygon
-    from ._evaluate import ExactEvaluation, evaluate_words
-    from ._laws import ExactRouteError, WilsonLaw
-    from ._word import lasso_words
 
     single = isinstance(loops, LatticeLoop)
     loops = [loops] if single else list(loops)
