@@ -498,6 +498,12 @@ class Group:
         """Samples of the heat kernel p_t; see `holonomy.groups.heat_kernel`."""
         return heat_kernel(self, t, size, rng=rng)
 
+    @cached_property
+    def special_part(self) -> "Group":
+        """``SU(n)`` with this group's metric constant (for ``U(n)``: u(n) is the centre
+        plus su(n), orthogonal for the metric)."""
+        return make_group("SU", self.n, float(self.k))
+
     @property
     def exact_heat_kernel(self) -> bool:
         """True when `heat_kernel` samples exactly in law; see `exact_heat_route`."""

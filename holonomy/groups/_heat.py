@@ -878,13 +878,6 @@ def _torus_draw(group, law: _TorusLaw, t: np.ndarray, rng) -> np.ndarray:
     return out if out is not None else np.empty(t.shape + (group.N, group.N), group.dtype)
 
 
-def _su_part(group):
-    """SU(n) with the metric of ``group`` (U(n)): u(n) = centre + su(n), orthogonal."""
-    from ._group import make_group
-
-    return make_group("SU", group.n, float(group.k))
-
-
 def _heat_torus(group, tt, size, rng):
     """Exact heat kernel through `_torus_law`, U(n) as centre times SU(n).
 
@@ -895,7 +888,8 @@ def _heat_torus(group, tt, size, rng):
     """
     scalar = tt.ndim == 0
     t1 = np.atleast_1d(tt)
-    base = _su_part(group) if group.family == "U" else group
+    # u(n) = centre + su(n), orthogonal: the SU(n) part with the same metric
+    base = group.special_part if group.family == "U" else group
     law = _torus_law(base.family, base.n, float(base.k)) if base.N > 2 else None
     U = np.empty((size, t1.size, group.N, group.N), dtype=group.dtype)
     if law is None:  # U(2): centre times the SU(2) sampler
