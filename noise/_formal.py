@@ -67,7 +67,7 @@ def _formal_gaussian_iv(cov: Any) -> tuple[Any, bool]:
     else:
         try:
             arr = np.asarray(cov)
-        except Exception as exc:  # ragged lists and the like
+        except ValueError as exc:  # ragged lists
             raise ValueError(f"`cov` must be a square matrix (m, m); got {cov!r}") from exc
         shape = arr.shape
         if arr.dtype.kind in "biuO":
