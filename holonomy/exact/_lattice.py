@@ -32,7 +32,7 @@ import numpy as np
 
 from discretize import Loop
 
-from ._dispatch import exact_wilson_loop
+from ._dispatch import exact_wilson_loop, lattice_polygon
 from ._gaussian_step import gaussian_step
 from ._wilson_action import wilson_lattice_loop
 
@@ -84,17 +84,10 @@ def simple_cells(lattice_loop):
 
 
 def _corner_loop(lattice_loop) -> Loop:
-    """The lattice loop as a ``discretize.Loop`` polygon through its corners."""
-    xy = np.asarray(lattice_loop.coordinates, float)
-    if len(xy) > 1 and (xy[0] == xy[-1]).all():
-        xy = xy[:-1]
-    # keep the corners only (unit steps along a straight run add nothing)
-    prev = np.roll(xy, 1, axis=0)
-    nxt = np.roll(xy, -1, axis=0)
-    d1, d2 = xy - prev, nxt - xy
-    corner = np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]) > 0
-    corner |= (d1 * d2).sum(axis=1) < 0      # a turn back is a corner too
-    return Loop.polygon([tuple(map(float, p)) for p in xy[corner]])
+    """The lattice loop as a ``discretize.Loop`` through its corners (one period, wound
+    as often as it repeats; :func:`lattice_polygon`)."""
+    corners, periods = lattice_polygon(lattice_loop)
+    return Loop.polygon([tuple(map(float, p)) for p in corners], turns=periods)
 
 
 def heat_lattice_value(problem, i: int) -> LatticeValue:
