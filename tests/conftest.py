@@ -45,54 +45,36 @@ block = 4096
 seed = 20261202
 '''
 
-#: a small valid spec: a box and an L-shaped moves loop, 600 samples
-TINY_SPEC = '''
-name = "tiny"
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 1.0
-spacing = 0.25
-scheme = "heat"
-[[loops]]
+BOX = 'vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]'
+
+
+def spec_text(loops: str, *, name: str, spacing: float = 0.25, scheme: str | None = "heat",
+              samples: int = 600, block: int | None = 64, seed: int = 7,
+              observable: bool = False, lead: str = "\n") -> str:
+    """A spec for SU(2) with the physics metric and coupling 1 (the tests' usual group):
+    ``loops`` is the text of its ``[[loops]]`` tables; the other keys as given."""
+    return (f'{lead}name = "{name}"\n[group]\nfamily = "SU"\nn = 2\nmetric = "physics"\n'
+            f'[field]\ncoupling = 1.0\nspacing = {spacing!r}\n'
+            + (f'scheme = "{scheme}"\n' if scheme else "") + loops.strip("\n") + "\n"
+            + ('[observable]\nrep = "fundamental"\n' if observable else "")
+            + f"[run]\nsamples = {samples}\n" + (f"block = {block}\n" if block else "")
+            + f"seed = {seed}\n")
+
+
+BOX_AND_ELL = f'''[[loops]]
 name = "box"
-vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
+{BOX}
 [[loops]]
 name = "ell"
 moves = "R2 U1 L1 U1 L1 D2"
-start = [0.0, 0.0]
-[run]
-samples = 600
-block = 64
-seed = 7
-'''
+start = [0.0, 0.0]'''
+
+
+#: a small valid spec: a box and an L-shaped moves loop, 600 samples
+TINY_SPEC = spec_text(BOX_AND_ELL, name="tiny")
 
 #: the base of the bad-input tables (one [observable] table, 64 samples)
-BASE = '''name = "hard"
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 1.0
-spacing = 0.25
-scheme = "heat"
-[[loops]]
-name = "box"
-vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
-[[loops]]
-name = "ell"
-moves = "R2 U1 L1 U1 L1 D2"
-start = [0.0, 0.0]
-[observable]
-rep = "fundamental"
-[run]
-samples = 64
-block = 32
-seed = 7
-'''
+BASE = spec_text(BOX_AND_ELL, name="hard", samples=64, block=32, observable=True, lead="")
 
 
 def mutate(*pairs: tuple[str, str], text: str = BASE) -> str:

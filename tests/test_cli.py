@@ -19,17 +19,9 @@ import time
 
 import pytest
 
-from tests.conftest import wg as run_cli
+from tests.conftest import spec_text, wg as run_cli
 
-SPEC = '''
-name = "cli-box"
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 1.0
-spacing = 0.25
+SPEC = spec_text("""
 [[loops]]
 name = "box"
 vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
@@ -37,11 +29,7 @@ vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
 name = "ring"
 circle = { center = [0.5, 0.25], radius = 0.5, sides = 16 }
 turns = 2
-[run]
-samples = 2000
-block = 250
-seed = 5
-'''
+""", name="cli-box", scheme=None, samples=2000, block=250, seed=5)
 
 RESULT_FIELDS = {"loop", "rep", "estimate", "estimate_imag", "stderr", "exact",
                  "exact_method", "z", "continuum", "area", "samples"}

@@ -1,28 +1,12 @@
 """Exact references for the loops of a lattice problem.
 
 ``exact`` is the exact value of the quantity the sampler estimates: each scheme states
-it (:meth:`holonomy.Scheme.lattice_value`, the routes in :mod:`holonomy.exact._lattice`),
-so an unregistered or new scheme never borrows another scheme's value:
-
-- ``heat``: plaquettes are exact heat-kernel draws, so the sampler is unbiased for the
-  *continuum* Wilson loop of the loop as snapped to the lattice;
-- ``wilson``: the lattice value of the Wilson action where a closed form is known (a
-  simple loop enclosing A cells: ``w^A`` with ``w`` the one-plaquette value; U(1): any
-  loop through its winding numbers) at constant density;
-- ``linear`` and ``gauss``: for U(1) (abelian, so both are exact in law) the same as
-  ``heat``; otherwise their closed forms for simple loops where one exists (null).
-
-``continuum`` is the exact value of the loop as specified, before snapping. A route
-that is missing, or does not cover a loop, gives ``None`` and a note; never a made-up
-number.
-
-References
-----------
-.. [1] Levy, T. (2003). "Yang-Mills measure on compact surfaces." Mem. Amer. Math.
-   Soc. 166(790) (lattice heat-kernel measure, subdivision invariance).
-.. [2] Gross, D. J. and Witten, E. (1980). "Possible third-order phase transition in
-   the large-N lattice gauge theory." Phys. Rev. D 21, 446-453 (independent plaquettes
-   of the Wilson action in axial gauge on the plane).
+it (:meth:`holonomy.Scheme.lattice_value`, through the routes of
+:mod:`holonomy.exact._lattice`, which also give their sources), so a new scheme never
+borrows another scheme's value. ``continuum`` is the exact value of the loop as
+specified, before snapping, and ``snapped`` that of the loop as snapped to the lattice
+(what ``heat`` samples). A route that is missing, or does not cover a loop, gives
+``None`` and a note; never a made-up number.
 """
 
 from __future__ import annotations

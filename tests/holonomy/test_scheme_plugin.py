@@ -23,25 +23,13 @@ from scipy import stats
 from holonomy import SCHEMES, Scheme, register_scheme
 from holonomy.exact import LatticeValue, simple_cells
 from holonomy.experiment import exact_results, parse_spec, run_spec
+from tests.conftest import spec_text
 
-SPEC = """
-name = "plugin"
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 1.0
-spacing = 0.25
-scheme = "{scheme}"
+SPEC = spec_text("""
 [[loops]]
 name = "box"
 vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
-[run]
-samples = 2000
-block = 250
-seed = 11
-"""
+""", name="plugin", scheme="{scheme}", samples=2000, block=250, seed=11)
 
 
 def _one_plaquette(t: float) -> float:

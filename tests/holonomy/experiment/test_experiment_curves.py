@@ -5,18 +5,11 @@ import math
 
 import pytest
 
+from tests.conftest import spec_text
+
 from holonomy.experiment import SpecError, exact_results, parse_spec, run_spec
 
-SPEC = """
-name = "curves"
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 1.0
-spacing = 0.1
-scheme = "heat"
+SPEC = spec_text("""
 [[loops]]
 name = "lemniscate"
 curve = {family = "lemniscate", a = 1.2, sides = 256}
@@ -26,11 +19,8 @@ curve = {family = "cardioid", a = 0.4, center = [3.0, 0.0], sides = 256}
 [[loops]]
 name = "ellipse"
 ellipse = {center = [0.0, 3.0], radii = [1.0, 0.5], sides = 128}
-[run]
-samples = 20000
-block = 5000
-seed = 11
-"""
+""", name="curves", spacing=0.1, samples=20000,
+                 block=5000, seed=11)
 
 # SU(2) with the physics metric (k = 2): fundamental Casimir 3/4 (e.g. Fulton and
 # Harris, "Representation Theory", 1991, from memory). A simple loop of area A:

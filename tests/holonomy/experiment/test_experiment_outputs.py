@@ -12,31 +12,20 @@ import sys
 
 import pytest
 
+from tests.conftest import spec_text
+
 from holonomy.experiment import MISSING, Progress, format_exact_table, format_table, \
     parse_spec, run_spec
 from holonomy.experiment._report import _write_text_atomic
 
-SPEC = """
-name = "outputs"
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 1.0
-spacing = 0.25
-scheme = "gauss"
+SPEC = spec_text("""
 [[loops]]
 name = "box"
 vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
 [[loops]]
 name = "eight"
 vertices = [[0.0, 0.0], [0.5, 0.0], [0.5, 1.0], [1.0, 1.0], [1.0, 0.5], [0.0, 0.5]]
-[run]
-samples = 600
-block = 200
-seed = 3
-"""
+""", name="outputs", scheme="gauss", block=200, seed=3)
 
 
 @pytest.fixture
