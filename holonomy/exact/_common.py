@@ -49,3 +49,16 @@ def _real_iv(value, name: str, *, positive: bool = False, nonnegative: bool = Fa
     if nonnegative and not np.all(arr >= 0):
         raise ValueError(f"`{name}` must be >= 0, got {value!r}.")
     return float(arr) if arr.ndim == 0 else arr
+
+
+def _finite_iv(value, name: str, what: str = "a number or array") -> np.ndarray:
+    """A finite real or complex scalar or array, as a float or complex ndarray."""
+    if isinstance(value, (str, bytes)):
+        raise TypeError(f"`{name}` must be {what}, got {value!r}.")
+    try:
+        arr = np.asarray(value, dtype=complex if np.iscomplexobj(value) else float)
+    except (TypeError, ValueError):
+        raise TypeError(f"`{name}` must be {what}, got {value!r}.") from None
+    if not np.all(np.isfinite(arr)):
+        raise ValueError(f"`{name}` must be finite, got {value!r}.")
+    return arr

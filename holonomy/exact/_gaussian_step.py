@@ -45,7 +45,7 @@ import numpy as np
 from scipy import special
 
 from ..groups import matrix_size
-from ._common import _family_iv, _int_iv, _metric_iv
+from ._common import _finite_iv, _family_iv, _int_iv, _metric_iv
 
 __all__ = ["gaussian_step", "gaussian_matrix", "GaussianMatrixValue"]
 
@@ -105,14 +105,7 @@ def _gaussian_step_iv(family, n, t, k):
         )
     N = matrix_size(fam, n)
     kk = _metric_iv(k, N)
-    if isinstance(t, (str, bytes)):
-        raise TypeError(f"`t` must be a number or array, got {t!r}.")
-    try:
-        tt = np.asarray(t, dtype=complex if np.iscomplexobj(t) else float)
-    except (TypeError, ValueError):
-        raise TypeError(f"`t` must be a number or array, got {t!r}.") from None
-    if not np.all(np.isfinite(tt)):
-        raise ValueError(f"`t` must be finite, got {t!r}.")
+    tt = _finite_iv(t, "t")
     return fam, n, tt, kk
 
 

@@ -13,7 +13,7 @@ import numbers
 
 import numpy as np
 
-from ._common import _metric_iv, _real_iv
+from ._common import _finite_iv, _metric_iv, _real_iv
 
 __all__ = ["simple_loop", "u1_loop"]
 
@@ -49,14 +49,7 @@ def _casimir_from(group_or_casimir, rep) -> float:
 
 def _simple_loop_iv(group_or_casimir, area, coupling, rep):
     c = _casimir_from(group_or_casimir, rep)
-    if isinstance(area, (str, bytes)):
-        raise TypeError(f"`area` must be a real or complex number or array, got {area!r}.")
-    try:
-        a = np.asarray(area, dtype=complex if np.iscomplexobj(area) else float)
-    except (TypeError, ValueError):
-        raise TypeError(f"`area` must be a real or complex number or array, got {area!r}.") from None
-    if not np.all(np.isfinite(a)):
-        raise ValueError(f"`area` must be finite, got {area!r}.")
+    a = _finite_iv(area, "area", "a real or complex number or array")
     lam = _real_iv(coupling, "coupling", positive=True)
     if np.ndim(lam) != 0:
         raise ValueError(f"`coupling` must be a scalar > 0, got {coupling!r}.")

@@ -25,7 +25,7 @@ from fractions import Fraction
 
 import numpy as np
 
-from ._common import _int_iv, _metric_iv
+from ._common import _finite_iv, _int_iv, _metric_iv
 
 __all__ = [
     "unitary_casimir",
@@ -130,14 +130,7 @@ def _wound_iv(N, n, t, k, special):
     n = _int_iv(n, "n", 1)
     if not isinstance(special, bool):
         raise TypeError(f"`special` must be a bool, got {special!r}.")
-    if isinstance(t, (str, bytes)):
-        raise TypeError(f"`t` must be a number or array, got {t!r}.")
-    try:
-        tt = np.asarray(t, dtype=complex if np.iscomplexobj(t) else float)
-    except (TypeError, ValueError):
-        raise TypeError(f"`t` must be a number or array, got {t!r}.") from None
-    if not np.all(np.isfinite(tt)):
-        raise ValueError(f"`t` must be finite, got {t!r}.")
+    tt = _finite_iv(t, "t")
     kk = _metric_iv(N if k is None else k, N)
     return N, n, tt, kk, special
 
