@@ -233,3 +233,103 @@ def quaternion_holonomies_group(q, side, order, parent, links, flips, offsets):
                                             s * cum[lk, 2], s * cum[lk, 3])
             out[i, loop, 0], out[i, loop, 1], out[i, loop, 2], out[i, loop, 3] = a0, a1, a2, a3
     return out
+
+
+@njit(cache=True)
+def _expm3(X, Q, Q2, E):
+    """``E = exp(X)`` for one skew-Hermitian 3 x 3 ``X`` by the closed form of
+    `holonomy.groups.expm_u3` (Morningstar and Peardon 2004), scalar by scalar."""
+    q = (X[0, 0].imag + X[1, 1].imag + X[2, 2].imag) / 3.0
+    for r in range(3):
+        for c in range(3):
+            Q[r, c] = -1j * X[r, c]
+    for r in range(3):
+        Q[r, r] -= q
+    for r in range(3):
+        for c in range(r, 3):
+            h = 0.5 * (Q[r, c] + Q[c, r].conjugate())
+            Q[r, c] = h
+            Q[c, r] = h.conjugate()
+    for r in range(3):
+        for c in range(3):
+            Q2[r, c] = Q[r, 0] * Q[0, c] + Q[r, 1] * Q[1, c] + Q[r, 2] * Q[2, c]
+    c1 = 0.5 * (Q2[0, 0].real + Q2[1, 1].real + Q2[2, 2].real)
+    c0 = 0.0
+    for r in range(3):
+        for c in range(3):
+            c0 += (Q[r, c] * Q2[c, r]).real
+    c0 /= 3.0
+    neg = c0 < 0
+    c0 = abs(c0)
+    tiny = c1 < 1e-30
+    if tiny:
+        f0, f1, f2 = 1.0 + 0j, 1j, -0.5 + 0j
+    else:
+        c0max = 2.0 * (c1 / 3.0) ** 1.5
+        ratio = min(max(c0 / c0max, -1.0), 1.0)
+        theta = math.acos(ratio)
+        u = math.sqrt(c1 / 3.0) * math.cos(theta / 3.0)
+        w = math.sqrt(c1) * math.sin(theta / 3.0)
+        xi0 = math.sin(w) / w if w != 0 else 1.0
+        cw = math.cos(w)
+        e2iu = complex(math.cos(2 * u), math.sin(2 * u))
+        emiu = complex(math.cos(u), -math.sin(u))
+        u2, w2 = u * u, w * w
+        h0 = (u2 - w2) * e2iu + emiu * (8 * u2 * cw + 2j * u * (3 * u2 + w2) * xi0)
+        h1 = 2 * u * e2iu - emiu * (2 * u * cw - 1j * (3 * u2 - w2) * xi0)
+        h2 = e2iu - emiu * (cw + 3j * u * xi0)
+        den = 9 * u2 - w2
+        f0, f1, f2 = h0 / den, h1 / den, h2 / den
+    if neg:
+        f0, f1, f2 = f0.conjugate(), -f1.conjugate(), f2.conjugate()
+    ph = complex(math.cos(q), math.sin(q))
+    for r in range(3):
+        for c in range(3):
+            v = f1 * Q[r, c] + f2 * Q2[r, c]
+            if r == c:
+                v += f0
+            E[r, c] = v * ph
+
+
+@njit(cache=True)
+def u3_holonomies_algebra(x, side, order, parent, links, dirs, offsets, basis):
+    """`quaternion_holonomies_algebra` for U(3) and SU(3): ``x`` (n, K, d) interval sums,
+    ``basis`` (d, 3, 3) the group's orthonormal basis; the exponential of each link by
+    `_expm3`. Output (n, loops, 3, 3)."""
+    n, K, d = x.shape[0], x.shape[1], x.shape[2]
+    nl = offsets.size - 1
+    out = np.empty((n, nl, 3, 3), dtype=np.complex128)
+    cum = np.empty((K, d))
+    X = np.empty((3, 3), dtype=np.complex128)
+    Q = np.empty((3, 3), dtype=np.complex128)
+    Q2 = np.empty((3, 3), dtype=np.complex128)
+    E = np.empty((3, 3), dtype=np.complex128)
+    acc = np.empty((3, 3), dtype=np.complex128)
+    tmp = np.empty((3, 3), dtype=np.complex128)
+    for i in range(n):
+        for kk in range(K):
+            k = order[kk]
+            p = parent[k]
+            for j in range(d):
+                v = x[i, k, j] * side[k]
+                cum[k, j] = v + cum[p, j] if p >= 0 else v
+        for loop in range(nl):
+            for r in range(3):
+                for c in range(3):
+                    acc[r, c] = 1.0 if r == c else 0.0
+            for e in range(offsets[loop], offsets[loop + 1]):
+                lk = links[e]
+                s = -dirs[e]
+                for r in range(3):
+                    for c in range(3):
+                        v = 0j
+                        for a in range(d):
+                            v += (cum[lk, a] * s) * basis[a, r, c]
+                        X[r, c] = v
+                _expm3(X, Q, Q2, E)
+                for r in range(3):
+                    for c in range(3):
+                        tmp[r, c] = acc[r, 0] * E[0, c] + acc[r, 1] * E[1, c] + acc[r, 2] * E[2, c]
+                acc[:, :] = tmp
+            out[i, loop] = acc
+    return out

@@ -91,6 +91,24 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
 
 
 # ------------------------------------------------------------ the `fast` extra (numba)
+def _flat_plan(plan, algebra: bool):
+    """The axial plan as flat arrays for the compiled passes: intervals in depth order,
+    parents, sides, every loop's links concatenated (``offsets``), and per link the
+    direction (algebra schemes) or whether it enters as an inverse (group schemes)."""
+    order = np.argsort(plan.depth, kind="stable")
+    parent = np.asarray(plan.parent, np.intp)
+    side = np.asarray(plan.side, float)
+    links, extra, offsets = [], [], [0]
+    for lk, direction in plan.steps:
+        on = lk >= 0
+        links.append(lk[on])
+        extra.append(direction[on] if algebra else (direction[on] * side[lk[on]]) > 0)
+        offsets.append(offsets[-1] + int(on.sum()))
+    links = np.concatenate(links).astype(np.intp)
+    extra = np.concatenate(extra).astype(float if algebra else np.bool_)
+    return order, parent, side, links, extra, np.asarray(offsets, np.intp)
+
+
 class FastMatrixKernel(MatrixKernel):
     """`MatrixKernel` with compiled products (:mod:`holonomy._fast`)."""
 
@@ -115,6 +133,18 @@ class FastMatrixKernel(MatrixKernel):
         if factors.ndim != 4:
             return super().product(factors)
         return self._fast.matrix_product(np.ascontiguousarray(factors))
+
+    def holonomies(self, plan, variables, algebra: bool):
+        """The linear scheme's holonomies for U(3) and SU(3) in one compiled pass per
+        sample; None (the numpy route) otherwise."""
+        G = self.group
+        if not (algebra and G.N == 3 and G.family in ("U", "SU")) or variables.shape[1] == 0:
+            return None
+        order, parent, side, links, dirs, offsets = _flat_plan(plan, True)
+        out = self._fast.u3_holonomies_algebra(np.ascontiguousarray(variables, dtype=float),
+                                               side, order, parent, links, dirs, offsets,
+                                               np.ascontiguousarray(G.basis, dtype=complex))
+        return [out[:, j] for j in range(out.shape[1])]
 
 
 class FastQuaternionKernel(QuaternionKernel):
@@ -149,25 +179,13 @@ class FastQuaternionKernel(QuaternionKernel):
         `holonomy._sampling._holonomies` for the numpy reference)."""
         if variables.shape[1] == 0:
             return [self.identity((variables.shape[0],)) for _ in plan.steps]
-        order = np.argsort(plan.depth, kind="stable")
-        parent = np.asarray(plan.parent, np.intp)
-        side = np.asarray(plan.side, float)
-        links, extra, offsets = [], [], [0]
-        for lk, direction in plan.steps:
-            on = lk >= 0
-            links.append(lk[on])
-            extra.append(direction[on] if algebra else (direction[on] * side[lk[on]]) > 0)
-            offsets.append(offsets[-1] + int(on.sum()))
-        links = np.concatenate(links).astype(np.intp)
-        offsets = np.asarray(offsets, np.intp)
+        order, parent, side, links, extra, offsets = _flat_plan(plan, algebra)
         x = np.ascontiguousarray(variables, dtype=float)
         if algebra:
-            dirs = np.concatenate(extra).astype(float)
-            out = self._fast.quaternion_holonomies_algebra(x, side, order, parent, links, dirs,
+            out = self._fast.quaternion_holonomies_algebra(x, side, order, parent, links, extra,
                                                            offsets, self.V)
         else:
-            flips = np.concatenate(extra).astype(np.bool_)
-            out = self._fast.quaternion_holonomies_group(x, side, order, parent, links, flips,
+            out = self._fast.quaternion_holonomies_group(x, side, order, parent, links, extra,
                                                          offsets)
         return [out[:, j] for j in range(out.shape[1])]
 

@@ -378,7 +378,9 @@ def _holonomies(problem: WilsonProblem, variables: np.ndarray, kernel) -> list[n
     plan = problem.plan
     fused = getattr(kernel, "holonomies", None)
     if fused is not None:  # a compiled kernel does all of this in one pass per sample
-        return fused(plan, variables, problem.scheme.kind == "algebra")
+        out = fused(plan, variables, problem.scheme.kind == "algebra")
+        if out is not None:
+            return out
     size = variables.shape[0]
     side = plan.side
     out = []

@@ -32,7 +32,8 @@ def _values(problem, kernel, path, size=300):
 
 CASES = [("SU", 2, "physics", s) for s in ("heat", "linear", "gauss", "wilson")] + [
     ("Sp", 1, "trace", "heat"), ("U", 1, "trace", "heat"), ("SU", 3, "physics", "linear"),
-    ("SU", 3, "physics", "heat"), ("U", 4, "large-n", "gauss"), ("SO", 3, "trace", "heat"),
+    ("SU", 3, "physics", "heat"), ("U", 3, "trace", "linear"), ("U", 4, "large-n", "gauss"),
+    ("SO", 3, "trace", "heat"),
     ("U", 2, "trace", "linear"), ("SO", 4, "trace", "heat")]
 
 
