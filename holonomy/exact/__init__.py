@@ -1,13 +1,17 @@
 """Exact references for Wilson loops: closed forms (simple loops, U(1) from windings,
 U(N) loops wound n times and their free-probability limit, one-plaquette Wilson-action
-values, one Gaussian step, the sphere) and the dispatcher that picks the one that
-applies to a loop; exact evaluation of general polygonal loops.
+values, one Gaussian step) and the dispatcher that picks the one that
+applies to a loop; closed surfaces of any genus by character sums; exact evaluation of general polygonal loops.
 
 Closed forms
 ------------
 simple_loop, u1_loop, unitary_casimir, unitary_dimension, unitary_wound_loop,
-free_unitary_moment, wilson_plaquette, wilson_lattice_loop, gaussian_step,
-sphere_partition_function, sphere_wilson_loop
+free_unitary_moment, wilson_plaquette, wilson_lattice_loop, gaussian_step
+
+Closed surfaces (genus g, total area T)
+---------------------------------------
+exact_surface_wilson_loop, SurfaceValue, surface_simple_loop, surface_abelian_loop,
+surface_partition_function, outer_face_kernel
 
 Dispatcher
 ----------
@@ -39,7 +43,7 @@ from ._simple import *  # noqa: F401,F403
 from ._unitary import *  # noqa: F401,F403
 from ._wilson_action import *  # noqa: F401,F403
 from ._gaussian_step import *  # noqa: F401,F403
-from ._sphere import *  # noqa: F401,F403
+from ._surface import *  # noqa: F401,F403
 from ._dispatch import *  # noqa: F401,F403
 from ._word import *  # noqa: F401,F403
 from ._evaluate import *  # noqa: F401,F403

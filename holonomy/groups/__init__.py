@@ -5,7 +5,8 @@ Ad-invariant metric ``<X, Y> = -k Re tr(XY)`` (``trace`` k = 1, ``physics`` k = 
 ``large-n`` k = N, or a number); orthonormal Lie-algebra bases; representations,
 characters and Casimir constants computed from the basis; batched exponentials (closed
 forms for U(1), SU(2) = Sp(1), SO(3), eigendecomposition otherwise); Brownian motion and
-heat-kernel samplers (exact in law up to rank 3-4, see `exact_heat_route`).
+heat-kernel samplers (exact in law up to rank 3-4, see `exact_heat_route`); irreducibles by highest
+weight (Weyl dimension and character formulas, Casimirs, Brauer-Klimyk fusion).
 
 Examples
 --------
@@ -23,5 +24,7 @@ from ._heat import *  # noqa: F401,F403
 from ._heat import __all__ as _heat_all
 from ._expmap import *  # noqa: F401,F403
 from ._expmap import __all__ as _expmap_all
+from ._weights import *  # noqa: F401,F403
+from ._weights import __all__ as _weights_all
 
-__all__ = [*_group_all, *_reps_all, *_heat_all, *_expmap_all]
+__all__ = [*_group_all, *_reps_all, *_heat_all, *_expmap_all, *_weights_all]
