@@ -25,7 +25,7 @@ What is here:
   :data:`SCHEMES`;
 - exact values: :func:`exact_wilson_loop`, :func:`evaluate_polygon`,
   :func:`simple_loop`, :func:`u1_loop`, :func:`unitary_wound_loop`,
-  :func:`wilson_lattice_loop`, :func:`gaussian_step`, :func:`sphere_wilson_loop`;
+  :func:`wilson_lattice_loop`, :func:`gaussian_step`, :func:`exact_surface_wilson_loop`;
 - series: :func:`lattice_series`, :func:`continuum_series`,
   :func:`exp_product_series`;
 - formal Gaussians: :class:`FormalGaussian`.
@@ -47,10 +47,10 @@ from holonomy import (
 )
 from holonomy.exact import (
     evaluate_polygon,
+    exact_surface_wilson_loop,
     exact_wilson_loop,
     gaussian_step,
     simple_loop,
-    sphere_wilson_loop,
     u1_loop,
     unitary_wound_loop,
     wilson_lattice_loop,
@@ -83,7 +83,7 @@ __all__ = [
     "Field", "WilsonProblem", "estimate_wilson_loops", "SCHEMES",
     # exact values
     "exact_wilson_loop", "evaluate_polygon", "simple_loop", "u1_loop", "unitary_wound_loop",
-    "wilson_lattice_loop", "gaussian_step", "sphere_wilson_loop",
+    "wilson_lattice_loop", "gaussian_step", "exact_surface_wilson_loop",
     # series
     "lattice_series", "continuum_series", "exp_product_series",
     # formal Gaussians
