@@ -88,8 +88,16 @@ class BlockSums:
 
     @classmethod
     def from_dict(cls, data: dict) -> "BlockSums":
+        """The inverse of :meth:`to_dict`; a ValueError if ``data`` is not such a dict
+        (a missing field, an array of the wrong shape, a count < 1)."""
+        if not isinstance(data, dict):
+            raise ValueError(f"expected a dict of block sums, got {type(data).__name__}")
+        missing = {"block", "count", "sum_re", "sum_im", "cross_re", "cross_im",
+                   "cross_sq", "drift", "m2_re", "m2_im"} - set(data)
+        if missing:
+            raise ValueError(f"block sums lack the fields {sorted(missing)}")
         cross = np.asarray(data["cross_re"], float) + 1j * np.asarray(data["cross_im"], float)
-        return cls(
+        out = cls(
             block=int(data["block"]),
             count=int(data["count"]),
             sum_re=np.asarray(data["sum_re"], float),
@@ -101,6 +109,12 @@ class BlockSums:
             m2_im=np.asarray(data["m2_im"], float),
             reprojected=bool(data.get("reprojected", False)),
         )
+        n_loops = out.sum_re.shape
+        if (len(n_loops) != 1 or out.count < 1
+                or any(a.shape != n_loops for a in (out.sum_im, out.m2_re, out.m2_im))
+                or any(a.shape != n_loops * 2 for a in (out.cross, out.cross_sq))):
+            raise ValueError("block sums of inconsistent shapes or count")
+        return out
 
 
 @dataclass

@@ -3,7 +3,9 @@
 Subcommands: ``run``, ``exact``, ``series``, ``study``, ``spec``, ``demo`` (see
 ``whitegauge SUBCOMMAND --help``). Exit codes: 0 success; 2 invalid input, with one line
 ``whitegauge: error: <key path>: <rule>`` on stderr and no traceback; 1 internal error
-(set ``WHITEGAUGE_DEBUG=1`` to see its traceback).
+(set ``WHITEGAUGE_DEBUG=1`` to see its traceback); 130 after Ctrl-C and 143 after
+SIGTERM (the workers stopped, finished blocks kept, one line saying how to resume).
+Everything printed escapes control characters: names and paths are data.
 """
 
 from __future__ import annotations
@@ -12,15 +14,17 @@ import argparse
 import dataclasses
 import json
 import os
+import signal
 import sys
+import threading
 import traceback
 
 from holonomy import SCHEMES, __version__, study_schemes
-from holonomy.experiment import (DEMO_GROUPS, MAX_SERIES_ORDER, BlockFailed, Progress,
-                                 SpecError, exact_results, format_exact_table,
-                                 format_series_table, format_spec_keys, format_table,
-                                 load_spec, run_demo, run_spec, run_study, series_results,
-                                 study_block)
+from holonomy.experiment import (DEMO_GROUPS, MAX_SERIES_ORDER, MAX_WORKERS, BlockFailed,
+                                 Progress, SpecError, default_out, exact_results,
+                                 format_exact_table, format_series_table, format_spec_keys,
+                                 format_table, load_spec, printable, run_demo, run_spec,
+                                 run_study, series_results, study_block)
 
 __all__ = ["build_parser", "main"]
 
@@ -42,8 +46,9 @@ def _workers(text: str) -> int:
         v = int(text)
     except ValueError:
         v = 0
-    if v < 1:
-        raise argparse.ArgumentTypeError(f"got {text!r}; expected an integer >= 1")
+    if not 1 <= v <= MAX_WORKERS:
+        raise argparse.ArgumentTypeError(f"got {text!r}; expected an integer from 1 to "
+                                         f"{MAX_WORKERS}")
     return v
 
 
@@ -81,7 +86,13 @@ def _schemes(text: str) -> tuple[str, ...]:
 
 _EPILOG = ("Exit codes: 0 success; 2 invalid input (one line on stderr naming the key "
            "or option and what is expected; nothing computed is lost); 1 internal error "
-           "(set WHITEGAUGE_DEBUG=1 for the traceback); 130 interrupted.")
+           "(set WHITEGAUGE_DEBUG=1 for the traceback); 130 interrupted by Ctrl-C, 143 "
+           "terminated by SIGTERM (finished blocks kept; one line says how to resume).")
+
+
+_FRESH = ("discard the whitegauge files already in DIR (its store, results, report) "
+          "and start over; nothing else in DIR is touched. Without it, a DIR holding "
+          "another command's or spec's files is refused")
 
 
 def _sub(sub, name: str, summary: str, description: str):
@@ -112,7 +123,8 @@ def _json_arg(p) -> None:
 
 def _workers_arg(p, default: str) -> None:
     p.add_argument("--workers", type=_workers, default=1 if default == "1" else None,
-                   metavar="N", help=f"worker processes, an integer >= 1 (default "
+                   metavar="N", help=f"worker processes, an integer from 1 to "
+                   f"{MAX_WORKERS} (default "
                    f"{default}); the numbers do not depend on it")
 
 
@@ -138,12 +150,14 @@ def build_parser() -> argparse.ArgumentParser:
     _spec_arg(p, "run needs [run] samples and seed")
     p.add_argument("--out", metavar="DIR", help="output folder, created if missing "
                    "(default: whitegauge-<name> in the current folder, <name> the spec's "
-                   "name)")
+                   "name with every character other than a letter, digit, '.', '_', '+' "
+                   "or '-' replaced by '-')")
     _workers_arg(p, "1")
     p.add_argument("--resume", action="store_true",
                    help="keep the finished blocks of an interrupted run of the same spec "
                    "in DIR and compute only the missing ones (the numbers are bitwise the "
                    "same)")
+    p.add_argument("--fresh", action="store_true", help=_FRESH)
     _json_arg(p)
     p.add_argument("--quiet", action="store_true",
                    help="print nothing but errors: no progress bar, table or start/end line")
@@ -163,10 +177,10 @@ def build_parser() -> argparse.ArgumentParser:
              "Wick series on the spec's grid; wilson, the weak-coupling expansion of its "
              "lattice value (asymptotic; U(1), and SU(2) simple loops). Beside them the "
              "continuum series of the loop as specified. Floats and, where available, "
-             "exact rationals; a signed density gives formal series. Each loop has a "
-             "time budget (WHITEGAUGE_SERIES_BUDGET seconds, default 60); a loop over "
-             "budget gets — and a note, a warning on stderr, and exit code 1 if no loop "
-             "got any coefficient.")
+             "exact rationals; a signed density gives formal series. The command has a "
+             "time budget shared by its loops (WHITEGAUGE_SERIES_BUDGET seconds, default "
+             "60); a loop over budget gets — and a note, a warning on stderr, and exit "
+             "code 1 if no loop got any coefficient.")
     _spec_arg(p, "[run] is not needed")
     p.add_argument("--order", type=_order, required=True, metavar="M",
                    help="the highest order M, an integer from 0 to 20 (required)")
@@ -195,6 +209,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--resume", action="store_true",
                    help="keep the finished blocks of an interrupted study of the same spec "
                    "in DIR")
+    p.add_argument("--fresh", action="store_true", help=_FRESH)
     _json_arg(p)
     p.add_argument("--quiet", action="store_true",
                    help="print nothing but errors: no progress bar, table or start/end line")
@@ -228,6 +243,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", metavar="DIR", default="whitegauge-demo",
                    help="output folder, created if missing (default: whitegauge-demo)")
     _workers_arg(p, "the number of cores, at most 2")
+    p.add_argument("--fresh", action="store_true", help=_FRESH)
     _json_arg(p)
     p.add_argument("--quiet", action="store_true",
                    help="print nothing but errors: no progress bar, table or start/end line")
@@ -248,7 +264,7 @@ def _talk(args) -> bool:
 
 def _say(args, text: str) -> None:
     if _talk(args):
-        print(f"whitegauge {args.command}: {text}", file=sys.stderr, flush=True)
+        print(printable(f"whitegauge {args.command}: {text}"), file=sys.stderr, flush=True)
 
 
 def _blocks(spec) -> str:
@@ -263,20 +279,21 @@ def _workers_text(workers) -> str:
 
 def _cmd_run(args) -> int:
     spec = load_spec(args.spec, purpose="run", overrides=args.overrides)
-    out = args.out or f"whitegauge-{spec.name}"
+    out = args.out or default_out(spec.name)
+    args.resume_hint = (out, "run.sqlite")
     _say(args, f"{spec.name}: {spec.family}({spec.n}), {spec.scheme} scheme, spacing "
          f"{spec.spacing:g}, {len(spec.loops)} loop(s), {_blocks(spec)}, "
          f"{_workers_text(args.workers)}; output in {out}/")
     bar = _progress(args)
     try:
         outcome = run_spec(spec, out=out, workers=args.workers, resume=args.resume,
-                           progress=bar)
+                           fresh=args.fresh, progress=bar)
     finally:
         bar.close()
     if args.json:
         print(json.dumps(outcome.results, indent=2))
     elif not args.quiet:
-        print(f"{spec.name}: {spec.family}({spec.n}), {spec.scheme} scheme, spacing "
+        print(f"{printable(spec.name)}: {spec.family}({spec.n}), {spec.scheme} scheme, spacing "
               f"{spec.spacing:g}, {spec.samples} samples (seed {spec.seed})")
         print(format_table(outcome.results))
     _say(args, f"wrote {os.path.join(out, 'results.json')}, results.csv and the run "
@@ -320,7 +337,8 @@ def _cmd_series(args) -> int:
 
 def _cmd_study(args) -> int:
     spec = load_spec(args.spec, purpose="study", overrides=args.overrides)
-    out = args.out or f"whitegauge-{spec.name}-study"
+    out = args.out or default_out(spec.name, "-study")
+    args.resume_hint = (out, "study.sqlite")
     block, note = study_block(spec)
     _say(args, f"{spec.name}: {spec.family}({spec.n}), schemes {', '.join(args.schemes)} "
          f"at spacings {', '.join(f'{h:g}' for h in args.spacings)} on one noise field, "
@@ -329,7 +347,8 @@ def _cmd_study(args) -> int:
     bar = _progress(args)
     try:
         outcome = run_study(spec, spacings=args.spacings, schemes=args.schemes, out=out,
-                            workers=args.workers, resume=args.resume, progress=bar)
+                            workers=args.workers, resume=args.resume, fresh=args.fresh,
+                            progress=bar)
     finally:
         bar.close()
     if args.json:
@@ -365,7 +384,8 @@ def _cmd_demo(args) -> int:
          f"{_workers_text(args.workers or 2)}; output in {args.out}/")
     bar = _progress(args)
     try:
-        outcome = run_demo(out=args.out, workers=args.workers, progress=bar)
+        outcome = run_demo(out=args.out, workers=args.workers, progress=bar,
+                           fresh=args.fresh)
     finally:
         bar.close()
     if args.json:
@@ -381,43 +401,78 @@ _COMMANDS = {"run": _cmd_run, "exact": _cmd_exact, "series": _cmd_series,
              "study": _cmd_study, "spec": _cmd_spec, "demo": _cmd_demo}
 
 
+class _Terminated(KeyboardInterrupt):
+    """SIGTERM, raised in the main thread so that the same cleanup as Ctrl-C runs."""
+
+
+def _on_sigterm(signum, frame):
+    raise _Terminated()
+
+
+def _line(text: str) -> None:
+    """One line on stderr, control characters escaped (names and paths are data)."""
+    print(printable(" ".join(text.split("\n"))), file=sys.stderr)
+
+
+def _interrupted(args, exc: KeyboardInterrupt) -> int:
+    what, code = ("terminated", 143) if isinstance(exc, _Terminated) else ("interrupted", 130)
+    hint = getattr(args, "resume_hint", None)
+    if hint is not None:
+        out, store = hint
+        _line(f"whitegauge: {what}; the finished blocks are kept in "
+             f"{os.path.join(out, store)}: rerun the same command with --resume to "
+             "continue")
+    else:
+        _line(f"whitegauge: {what}; nothing was kept: rerun the command to start again")
+    return code
+
+
 def main(argv: list[str] | None = None) -> int:
-    """Entry point; returns the exit code (0 ok, 2 invalid input, 1 internal error)."""
+    """Entry point; returns the exit code (0 ok, 2 invalid input, 1 internal error,
+    130 interrupted by Ctrl-C, 143 terminated by SIGTERM)."""
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
     except _UsageError as exc:
-        print(f"whitegauge: error: {exc}", file=sys.stderr)
+        _line(f"whitegauge: error: {exc}")
         return 2
     except SystemExit as exc:  # --help, --version
         return int(exc.code or 0)
     if args.command is None:
         parser.print_help()
         return 0
+    if getattr(args, "resume", False) and getattr(args, "fresh", False):
+        _line("whitegauge: error: --fresh: not allowed with --resume (--resume keeps the "
+             "stored blocks, --fresh discards them)")
+        return 2
+    previous = None
+    if threading.current_thread() is threading.main_thread():
+        previous = signal.signal(signal.SIGTERM, _on_sigterm)
     try:
         return _COMMANDS[args.command](args)
     except _UsageError as exc:
-        print(f"whitegauge: error: {exc}", file=sys.stderr)
+        _line(f"whitegauge: error: {exc}")
         return 2
     except SpecError as exc:
-        print(f"whitegauge: error: {exc}", file=sys.stderr)
+        _line(f"whitegauge: error: {exc}")
         return 2
     except BlockFailed as exc:  # a block raised twice: exit 1, finished blocks kept
-        print(f"whitegauge: run stopped: {exc}", file=sys.stderr)
+        _line(f"whitegauge: run stopped: {exc}")
         return 1
-    except KeyboardInterrupt:
-        print("whitegauge: interrupted (finished blocks are kept; rerun with --resume)",
-              file=sys.stderr)
-        return 130
+    except KeyboardInterrupt as exc:
+        return _interrupted(args, exc)
     except BrokenPipeError:
         return 1
     except Exception as exc:  # noqa: BLE001  (exit 1, a short line, no traceback)
         if os.environ.get("WHITEGAUGE_DEBUG"):
             traceback.print_exc()
         msg = " ".join(str(exc).split())
-        print(f"whitegauge: internal error: {type(exc).__name__}: {msg} (set "
-              "WHITEGAUGE_DEBUG=1 for the traceback)", file=sys.stderr)
+        _line(f"whitegauge: internal error: {type(exc).__name__}: {msg} (set "
+             "WHITEGAUGE_DEBUG=1 for the traceback)")
         return 1
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
 
 
 if __name__ == "__main__":

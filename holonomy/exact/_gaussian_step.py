@@ -167,9 +167,13 @@ def gaussian_step(family: str, n: int, t, k):
         fam, n = "SU", 2
     if fam in ("U", "SU"):
         N = n
-        f = np.exp(-tt / (2 * kk)) * special.eval_genlaguerre(N - 1, 1, tt / kk) / N
-        if fam == "SU":
-            f = f * np.exp(tt / (2 * kk * N))
+        # one exponential (the SU factor exp(t / 2kN) folded in): at huge t the product
+        # of two would be 0 * inf; where exp underflows, the limit is 0 whatever the
+        # polynomial (which may overflow on its own)
+        decay = np.exp(-tt / (2 * kk) * ((1 - 1 / N) if fam == "SU" else 1))
+        with np.errstate(over="ignore", invalid="ignore"):
+            f = decay * special.eval_genlaguerre(N - 1, 1, tt / kk) / N
+        f = np.where(decay == 0, 0.0, f)
     elif fam == "SO" and n == 2:
         f = np.exp(-tt / (4 * kk))
     elif fam == "SO" and n == 3:

@@ -14,6 +14,7 @@ Example
 from ._spec import *  # noqa: F401,F403
 from ._store import *  # noqa: F401,F403
 from ._problems import *  # noqa: F401,F403
+from ._folder import *  # noqa: F401,F403
 from ._references import *  # noqa: F401,F403
 from ._report import *  # noqa: F401,F403
 from ._runner import *  # noqa: F401,F403

@@ -6,16 +6,21 @@ no route applies.
 
 from __future__ import annotations
 
+import math
 import multiprocessing as mp
 import os
+import time
 from typing import Sequence
+
+import numpy as np
 
 from holonomy import LatticeProblem, get_scheme, lattice_covariance
 
 from ._problems import build_lattice
 from ._references import NOT_AVAILABLE, loop_references
 from ._report import clean
-from ._spec import Spec, SpecError
+from ._runner import worker_init
+from ._spec import Spec, SpecError, spec_arg
 
 __all__ = ["exact_results", "series_results", "geometry_problem", "MAX_SERIES_ORDER",
            "SERIES_BUDGET", "RATIONAL_STEPS", "SeriesBudgetExceeded", "budget_limited"]
@@ -27,9 +32,11 @@ def geometry_problem(spec: Spec) -> LatticeProblem:
     return build_lattice(spec)
 
 
-def exact_results(spec: Spec) -> dict:
+def exact_results(spec: Spec | str | os.PathLike) -> dict:
     """The ``exact`` command's object: per loop the exact value of what the spec's
-    scheme samples (or null with a note) and the continuum value of the loop."""
+    scheme samples (or null with a note) and the continuum value of the loop.
+    ``spec`` is a :class:`Spec` or the path of a spec file."""
+    spec = spec_arg(spec, "exact")
     problem = geometry_problem(spec)
     rows = []
     for i, name in enumerate(spec.names):
@@ -55,8 +62,23 @@ def exact_results(spec: Spec) -> dict:
 RATIONAL_STEPS = 20
 
 
-SERIES_BUDGET = 60.0  # seconds per loop and kind of coefficient (WHITEGAUGE_SERIES_BUDGET)
+SERIES_BUDGET = 60.0  # seconds for one series command, all loops (WHITEGAUGE_SERIES_BUDGET)
 MAX_SERIES_ORDER = 20
+
+
+def _series_deadline() -> tuple[float, float]:
+    """``(budget, deadline)`` of a series command (``time.monotonic`` clock)."""
+    budget = float(os.environ.get("WHITEGAUGE_SERIES_BUDGET", SERIES_BUDGET))
+    return budget, time.monotonic() + budget
+
+
+def _order_iv(order) -> int:
+    rule = f"an integer from 0 to {MAX_SERIES_ORDER}"
+    if isinstance(order, bool) or not isinstance(order, int):
+        raise TypeError(f"`order` must be {rule}; got {order!r}.")
+    if not 0 <= order <= MAX_SERIES_ORDER:
+        raise ValueError(f"`order` must be {rule}; got {order!r}.")
+    return order
 
 
 class SeriesBudgetExceeded(ArithmeticError):
@@ -64,34 +86,42 @@ class SeriesBudgetExceeded(ArithmeticError):
 
 
 def _series_worker(conn, fn, args, kwargs):
+    worker_init(os.getppid())  # Ctrl-C is the parent's; end with the parent
     try:
-        conn.send((True, fn(*args, **kwargs)))
+        # an overflow shows as a non-finite coefficient, reported by the parent as a note
+        with np.errstate(over="ignore", invalid="ignore"):
+            conn.send((True, fn(*args, **kwargs)))
     except BaseException as exc:  # noqa: BLE001  (sent back to the parent)
         conn.send((False, exc))
     finally:
         conn.close()
 
 
-def _bounded(fn, *args, **kwargs):
-    """``fn(*args, **kwargs)`` in a child process, killed after the series budget.
+def _bounded(limit: tuple[float, float], fn, *args, **kwargs):
+    """``fn(*args, **kwargs)`` in a child process, killed at the series deadline.
 
     The Wick expansion's cost grows factorially with the order (the number of pairings
     of 2M factors is (2M - 1)!!), so no static size test is reliable: the limit is a
-    stated wall time per loop, ``SERIES_BUDGET`` seconds (overridden by the environment
-    variable ``WHITEGAUGE_SERIES_BUDGET``), after which the loop's coefficients are null
-    with a note instead of the command hanging.
+    stated wall time for the whole command, ``SERIES_BUDGET`` seconds (overridden by
+    the environment variable ``WHITEGAUGE_SERIES_BUDGET``), shared by its loops; past it
+    a loop's coefficients are null with a note instead of the command hanging.
+    ``limit`` is ``(budget, deadline)`` from :func:`_series_deadline`. A result with a
+    coefficient that overflowed double precision is an ArithmeticError.
     """
-    budget = float(os.environ.get("WHITEGAUGE_SERIES_BUDGET", SERIES_BUDGET))
+    budget, deadline = limit
+    exceeded = SeriesBudgetExceeded(
+        f"the series did not finish within the formal route's budget of {budget:g} s "
+        "for the command (WHITEGAUGE_SERIES_BUDGET); try a lower --order")
+    if deadline - time.monotonic() <= 0:
+        raise exceeded
     ctx = mp.get_context("fork" if "fork" in mp.get_all_start_methods() else "spawn")
     parent, child = ctx.Pipe(duplex=False)
     proc = ctx.Process(target=_series_worker, args=(child, fn, args, kwargs), daemon=True)
     proc.start()
     child.close()
     try:
-        if not parent.poll(budget):
-            raise SeriesBudgetExceeded(
-                f"the series did not finish within the formal route's budget of "
-                f"{budget:g} s (WHITEGAUGE_SERIES_BUDGET); try a lower --order")
+        if not parent.poll(max(0.0, deadline - time.monotonic())):
+            raise exceeded
         try:
             ok, value = parent.recv()
         except EOFError:
@@ -104,6 +134,11 @@ def _bounded(fn, *args, **kwargs):
         parent.close()
     if not ok:
         raise value
+    coefficients = getattr(value, "coefficients", None)
+    if coefficients is not None and not value.exact and not all(
+            math.isfinite(abs(complex(c))) for c in coefficients):
+        raise ArithmeticError("the coefficients overflow double precision at this "
+                              "coupling and density; rescale them")
     return value
 
 
@@ -116,14 +151,14 @@ def _factor_count(scheme: str, problem: LatticeProblem, i: int) -> int:
     return lattice_covariance(problem, i).shape[0]
 
 
-def _rationals(scheme, problem, i, order):
+def _rationals(limit, scheme, problem, i, order):
     """Exact coefficients of a lattice Wick series as strings, or (None, why not)."""
     m = _factor_count(scheme.name, problem, i)
     if m > RATIONAL_STEPS:
         return None, (f"exact coefficients skipped: {m} exponentials in the product (more "
                       f"than {RATIONAL_STEPS}); the floats are exact up to rounding")
     try:
-        res = _bounded(scheme.series, problem, i, order, exact=True)
+        res = _bounded(limit, scheme.series, problem, i, order, exact=True)
     except SeriesBudgetExceeded as exc:
         return None, f"exact coefficients skipped: {exc}"
     except NotImplementedError as exc:
@@ -142,10 +177,10 @@ def _floats(coefficients) -> tuple[list[float], list[float] | None]:
     return [v.real for v in vals], None
 
 
-def _expand(fn, *args, **kwargs):
+def _expand(limit, fn, *args, **kwargs):
     """``(SeriesResult or None, note)`` of a bounded series route."""
     try:
-        return _bounded(fn, *args, **kwargs), None
+        return _bounded(limit, fn, *args, **kwargs), None
     except SeriesBudgetExceeded as exc:
         return None, f"{NOT_AVAILABLE} ({exc})"
     except NotImplementedError as exc:
@@ -163,7 +198,7 @@ def _continuum_series(group, rep, loop, order, area):
     return res
 
 
-def series_results(spec: Spec, order: int, *, loops: Sequence[int] | None = None,
+def series_results(spec: Spec | str | os.PathLike, order: int, *, loops: Sequence[int] | None = None,
                    rationals: bool = True, progress=None) -> dict:
     """The ``series`` command's object: per loop the coefficients c_0..c_order of
     E[W](lambda) = sum_m c_m lambda^m of the quantity the spec's scheme names.
@@ -178,9 +213,19 @@ def series_results(spec: Spec, order: int, *, loops: Sequence[int] | None = None
     limit). A signed density makes every coefficient formal (``formal: true``).
 
     ``loops`` restricts the work to some loop indices; ``rationals=False`` skips the
-    exact (sympy) coefficients; ``progress`` is a :class:`Progress` to tick.
+    exact (sympy) coefficients; ``progress`` is a :class:`Progress` to tick. ``spec``
+    is a :class:`Spec` or the path of a spec file. The command has one time budget for
+    all its loops (:func:`_bounded`); exact rationals come after every loop's floats.
     """
     from holonomy._series import _key_graph
+
+    spec = spec_arg(spec, "series")
+    order = _order_iv(order)
+    if loops is not None and (isinstance(loops, (str, bytes)) or not all(
+            isinstance(i, int) and not isinstance(i, bool) for i in loops)):
+        raise TypeError(f"`loops` must be a sequence of loop indices or None; got "
+                        f"{loops!r}.")
+    limit = _series_deadline()
 
     scheme = get_scheme(spec.scheme)
     rows = []
@@ -198,6 +243,7 @@ def series_results(spec: Spec, order: int, *, loops: Sequence[int] | None = None
         # here and let the forked workers inherit it (seconds at order 6)
         _key_graph(order)
     expands = scheme.series_expands(problem) if problem is not None else None
+    want_rationals = []
     for i in todo:
         name = spec.names[i]
         row = {"loop": name, "rep": spec.rep, "kind": "series", "scheme": spec.scheme,
@@ -208,7 +254,7 @@ def series_results(spec: Spec, order: int, *, loops: Sequence[int] | None = None
         if problem is not None:
             if progress is not None:
                 progress.step(f"{spec.name}: {name}, {expands}")
-            res, row["note"] = _expand(scheme.series, problem, i, order, exact=False)
+            res, row["note"] = _expand(limit, scheme.series, problem, i, order, exact=False)
             if res is not None:
                 row["coefficients"], imag = _floats(res.coefficients)
                 if imag is not None:
@@ -218,13 +264,12 @@ def series_results(spec: Spec, order: int, *, loops: Sequence[int] | None = None
                 if res.exact:
                     row["rationals"] = [str(c) for c in res.coefficients]
                 elif rationals:
-                    row["rationals"], row["rationals_note"] = _rationals(
-                        scheme, problem, i, order)
+                    want_rationals.append((i, row))
             if progress is not None:
                 progress.update()
                 progress.step(f"{spec.name}: {name}, continuum")
             loop = spec.loops[i].build(spec.spacing)
-            cont, row["continuum_note"] = _expand(_continuum_series, problem.group,
+            cont, row["continuum_note"] = _expand(limit, _continuum_series, problem.group,
                                                   spec.rep, loop, order,
                                                   problem.field.area)
             if cont is not None:
@@ -235,6 +280,9 @@ def series_results(spec: Spec, order: int, *, loops: Sequence[int] | None = None
             if progress is not None:
                 progress.update()
         rows.append(row)
+    for i, row in want_rationals:  # after every loop's floats: they are never starved
+        row["rationals"], row["rationals_note"] = _rationals(limit, scheme, problem, i,
+                                                             order)
     return clean({"name": spec.name, "spec_sha256": spec.sha256,
                   "group": {"family": spec.family, "n": spec.n, "metric": spec.metric},
                   "scheme": spec.scheme, "spacing": spec.spacing, "order": order,

@@ -23,7 +23,6 @@ References
 
 from __future__ import annotations
 
-import concurrent.futures as cf
 import os
 import time
 from dataclasses import dataclass, field
@@ -41,7 +40,8 @@ from ._commands import series_results
 from ._progress import Progress
 from ._references import NOT_AVAILABLE
 from ._report import MISSING, _render, _write_text_atomic, clean, fmt_value, write_json_atomic
-from ._runner import _check_writable, run_spec
+from ._folder import claim_folder
+from ._runner import run_iv, run_spec, worker_pool
 from ._spec import SpecError, parse_spec
 from ._store import versions
 
@@ -215,19 +215,31 @@ def _z_plot(rows: list[dict], path: Path) -> str:
 
 
 def run_demo(out: str | Path = "whitegauge-demo", *, workers: int | None = None,
-             executor=None, progress: bool | Progress = False,
-             samples: int = 6000) -> DemoOutcome:
-    """Run the demo survey and write ``report.md``, PNG plots and ``results.json``."""
-    out = Path(out)
-    _check_writable(out)
+             executor=None, progress: bool | Progress = False, samples: int = 6000,
+             fresh: bool = False) -> DemoOutcome:
+    """Run the demo survey and write ``report.md``, PNG plots and ``results.json``.
+
+    ``out`` belongs to the demo (see :func:`run_spec`): a folder holding another
+    command's files is refused unless ``fresh``.
+    """
+    if out is None:
+        raise TypeError("`out` must be a folder path (str or os.PathLike); got None.")
+    out, executor, workers = run_iv(out=out, executor=executor, workers=workers,
+                                    flags={"fresh": fresh}, progress=progress)
+    if isinstance(samples, bool) or not isinstance(samples, int) or samples < 2:
+        raise ValueError(f"`samples` must be an integer >= 2; got {samples!r}.")
+    if workers is None:
+        workers = min(2, os.cpu_count() or 1)
+    with claim_folder(out, command="demo", identity=f"demo:{samples}",
+                      name="whitegauge-demo", fresh=fresh):
+        return _run_demo(out, workers, executor, progress, samples)
+
+
+def _run_demo(out: Path, workers: int, executor, progress: bool | Progress,
+              samples: int) -> DemoOutcome:
     (out / "specs").mkdir(exist_ok=True)
     start = datetime.now(timezone.utc)
     t0 = time.perf_counter()
-    if workers is None:
-        workers = min(2, os.cpu_count() or 1)
-    own = None
-    if executor is None and workers > 1:
-        executor = own = cf.ProcessPoolExecutor(max_workers=workers)
     rows, runs = [], []
     omitted = [(f"{family}({n})", s, _why_not(family, n, s)) for family, n, _, schemes
                in DEMO_GROUPS for s in SCHEMES if s not in schemes]
@@ -242,16 +254,13 @@ def run_demo(out: str | Path = "whitegauge-demo", *, workers: int | None = None,
     bar = progress if isinstance(progress, Progress) else Progress(enabled=bool(progress))
     bar.fixed, bar.total = True, bar.total + sum(-(-sp.samples // sp.block)
                                                  for _, _, sp in plan)
-    try:
+    with worker_pool(workers, executor) as pool:
         for label, metric, spec in plan:
-            res = run_spec(spec, out=out / "runs" / spec.name, executor=executor,
-                           progress=bar).results
+            res = run_spec(spec, out=out / "runs" / spec.name, executor=pool,
+                           progress=bar, fresh=True).results
             runs.append({"name": spec.name, "spec_sha256": res["spec_sha256"]})
             for r in res["results"]:
                 rows.append(dict(r, group=label, metric=metric))
-    finally:
-        if own is not None:
-            own.shutdown(cancel_futures=True)
     bar.step("demo: perturbative series and plots")
     series, series_plot = _series_part(out)
     plots = [_survey_plot(rows, f"{f}({n})", out / f"survey-{f}{n}.png")

@@ -25,6 +25,7 @@ N(0, 1) (central limit theorem), so |z| > 4 flags a problem.
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import io
 import json
@@ -37,8 +38,9 @@ from typing import Any, Sequence
 from ._faults import fault_point
 from ._references import loop_references
 
-__all__ = ["build_results", "write_results", "write_json_atomic", "format_table",
-           "format_exact_table", "format_series_table", "fmt_value", "clean", "MISSING"]
+__all__ = ["printable", "short_label", "quiet_plot_warnings", "build_results",
+           "write_results", "write_json_atomic", "format_table", "format_exact_table",
+           "format_series_table", "fmt_value", "clean", "MISSING"]
 
 
 def clean(obj: Any) -> Any:
@@ -251,7 +253,39 @@ def fmt_value(value: float | None, err: float | None, kind: str) -> str:
     return f"{value:.{d}f} ± {err:.{d}f}"
 
 
+def printable(text: str) -> str:
+    """``text`` with every non-printable character (controls such as ESC or BEL, bidi
+    overrides such as U+202E, line breaks) escaped as in a Python literal: names are
+    data, and a terminal must show them, not obey them."""
+    text = str(text)
+    if text.isprintable():
+        return text
+    return "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
+
+
+def short_label(text: str, limit: int = 40) -> str:
+    """A name for a plot: escaped, and shortened to ``limit`` characters with an
+    ellipsis (the files keep it in full)."""
+    text = printable(text)
+    return text if len(text) <= limit else text[: limit - 1] + "\u2026"
+
+
+@contextlib.contextmanager
+def quiet_plot_warnings():
+    """Plots carry user-chosen names: a glyph the font lacks is drawn as a box and a
+    layout that cannot be tightened is kept as is. Neither is worth a warning on stderr
+    (labels are shortened by :func:`short_label`; the files keep every name in full)."""
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message=r"Glyph \d+ .*missing from",
+                                category=UserWarning)
+        warnings.filterwarnings("ignore", message=r".*[Tt]ight.?layout", category=UserWarning)
+        yield
+
+
 def _render(rows: list[list[str]], header: list[str]) -> str:
+    rows = [[printable(c) for c in r] for r in rows]
     widths = [max(len(r[c]) for r in [header] + rows) for c in range(len(header))]
     line = lambda r: "  ".join(s.ljust(w) for s, w in zip(r, widths)).rstrip()
     return "\n".join([line(header), line(["-" * w for w in widths])] +

@@ -17,9 +17,13 @@ cores; a Dask ``distributed.Client(...).get_executor()`` runs them on a cluster.
 from __future__ import annotations
 
 import concurrent.futures as cf
+import contextlib
 import json
+import numbers
 import os
+import signal
 import sys
+import threading
 import time
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
@@ -33,13 +37,14 @@ from holonomy._kernels import kernel_path
 from ._faults import fault_point, maybe_fail_block
 from ._problems import build_lattice, build_problem
 from ._progress import Progress
+from ._folder import claim_folder
 from ._report import build_results, write_results
-from ._spec import Spec, SpecError
+from ._spec import Spec, spec_arg
 from ._store import STORE_NAME, RunStore, versions
 
 __all__ = ["Job", "ExecutionStats", "BlockFailed", "execute", "build_problem", "build_lattice",
-           "wilson_job",
-           "make_executor", "RunOutcome", "run_spec"]
+           "wilson_job", "make_executor", "worker_pool", "MAX_WORKERS", "RunOutcome",
+           "run_spec"]
 
 
 def _encode_sums(sums) -> str:
@@ -125,9 +130,10 @@ def execute(job: Job, *, store: RunStore | None = None, executor: cf.Executor | 
     stats = ExecutionStats(n_blocks=n)
     done: dict[int, Any] = {}
     if store is not None:
-        for b, text in store.blocks():
-            if 0 <= b < n:
-                done[b] = job.decode(text)
+        for row in store.blocks():  # each row checked before it is used
+            b, value = store.check_row(row, n, job.decode, job.count)
+            done[b] = value
+        store.start()
         stats.reused = len(done)
     todo = [b for b in range(n) if b not in done]
     seed = getattr(job.problem, "seed", None)
@@ -208,6 +214,11 @@ def execute(job: Job, *, store: RunStore | None = None, executor: cf.Executor | 
             if failure is not None:
                 raise BlockFailed(failure.block, seed, failure.cause, len(done)) \
                     from failure.cause
+    except BaseException:
+        if executor is not None:  # an interrupt: queued blocks are not started
+            for fut in locals().get("pending", {}):
+                fut.cancel()
+        raise
     finally:
         if own_bar is not None:
             own_bar.close()
@@ -221,11 +232,91 @@ def wilson_job(problem) -> Job:
     return Job(problem=problem, block_fn=run_block)
 
 
+#: most worker processes a command starts (far above the useful number of local cores)
+MAX_WORKERS = 256
+
+
+def _watch_parent(parent: int, interval: float = 0.1) -> None:
+    while os.getppid() == parent:
+        time.sleep(interval)
+    os._exit(3)  # the main process is gone (even by SIGKILL): do not linger
+
+
+def worker_init(parent: int) -> None:
+    """Initializer of every worker process the package starts.
+
+    Ctrl-C (SIGINT goes to the whole process group) and SIGTERM are the main process's
+    business: it stops the workers itself. A daemon thread polls ``os.getppid()`` and
+    ends the worker within ~0.1 s once the main process is gone, even after SIGKILL.
+    """
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    threading.Thread(target=_watch_parent, args=(parent,), daemon=True).start()
+
+
 def make_executor(workers: int):
-    """``None`` (inline) for one worker, else a process pool of ``workers``."""
+    """``None`` (inline) for one worker, else a process pool of ``workers`` whose
+    processes end with the main process (see :func:`worker_init`)."""
     if workers <= 1:
         return None
-    return cf.ProcessPoolExecutor(max_workers=workers)
+    return cf.ProcessPoolExecutor(max_workers=workers, initializer=worker_init,
+                                  initargs=(os.getpid(),))
+
+
+@contextlib.contextmanager
+def worker_pool(workers: int | None, executor: cf.Executor | None = None):
+    """The executor to use: ``executor`` if given (left running: it is the caller's),
+    else an own pool of ``workers`` (or ``None``: inline), shut down on exit. On an
+    exception (an interrupt, a failure) the own pool's processes are terminated at once:
+    no block keeps running, and nothing of theirs is stored."""
+    if executor is not None:
+        yield executor
+        return
+    own = make_executor(workers or 1)
+    try:
+        yield own
+    except BaseException:
+        if own is not None:
+            for proc in list((getattr(own, "_processes", None) or {}).values()):
+                proc.terminate()
+            own.shutdown(wait=True, cancel_futures=True)
+        raise
+    if own is not None:
+        own.shutdown(wait=True, cancel_futures=True)
+
+
+def workers_iv(workers: Any, *, allow_none: bool = True) -> int | None:
+    """``workers`` checked: an integer from 1 to :data:`MAX_WORKERS` (or None)."""
+    if workers is None and allow_none:
+        return None
+    rule = f"an integer from 1 to {MAX_WORKERS}" + (" or None" if allow_none else "")
+    if isinstance(workers, bool) or not isinstance(workers, numbers.Integral):
+        raise TypeError(f"`workers` must be {rule}; got {workers!r}.")
+    if not 1 <= workers <= MAX_WORKERS:
+        raise ValueError(f"`workers` must be {rule}; got {workers!r}.")
+    return int(workers)
+
+
+def run_iv(*, out: Any, executor: Any, workers: Any, flags: dict[str, Any],
+           progress: Any = False):
+    """Shared argument checks of the entry points that run blocks (``_iv`` pattern)."""
+    if not isinstance(progress, (bool, Progress)):
+        raise TypeError("`progress` must be True, False or a Progress; got "
+                        f"{type(progress).__name__}.")
+    if out is not None and not isinstance(out, (str, os.PathLike)):
+        raise TypeError(f"`out` must be a folder path (str or os.PathLike) or None; got "
+                        f"{type(out).__name__}.")
+    if executor is not None and not isinstance(executor, cf.Executor):
+        raise TypeError("`executor` must be a concurrent.futures.Executor or None; got "
+                        f"{type(executor).__name__}.")
+    workers = workers_iv(workers)
+    for key, value in flags.items():
+        if not isinstance(value, bool):
+            raise TypeError(f"`{key}` must be True or False; got {value!r}.")
+    if flags.get("resume") and flags.get("fresh"):
+        raise ValueError("`resume` and `fresh` exclude each other: resume keeps the "
+                         "stored blocks, fresh discards them.")
+    return (None if out is None else Path(out)), executor, workers
 
 
 @dataclass
@@ -239,79 +330,76 @@ class RunOutcome:
     files: dict[str, str] = field(default_factory=dict)
 
 
-def run_spec(spec: Spec, *, out: str | Path | None = None, executor: cf.Executor | None = None,
-             workers: int | None = None, resume: bool = False,
+def run_spec(spec: Spec | str | os.PathLike, *, out: str | Path | None = None,
+             executor: cf.Executor | None = None, workers: int | None = None,
+             resume: bool = False, fresh: bool = False,
              progress: bool | Progress = False, write: bool = True) -> RunOutcome:
     """Run ``spec`` and (with ``out``) write ``run.sqlite``, ``results.json``, ``results.csv``.
 
-    ``executor`` wins over ``workers``; with neither, the blocks run inline. The run
-    store lives in ``out``; without ``out`` nothing is stored (no resume). ``progress``
-    is True for a progress bar on stderr, or the :class:`Progress` of the command.
+    ``spec`` is a :class:`Spec` or the path of a spec file. ``executor`` wins over
+    ``workers``; with neither, the blocks run inline. The run store lives in ``out``;
+    without ``out`` nothing is stored (no resume). ``out`` belongs to one command and
+    one spec (see :func:`~holonomy.experiment._folder.claim_folder`): a folder of
+    another spec or command is refused unless ``fresh``, which discards its files.
+    ``progress`` is True for a progress bar on stderr, or the :class:`Progress` of the
+    command.
+
+    Raises
+    ------
+    TypeError, ValueError
+        An argument of the wrong type or value (the message names it).
+    SpecError
+        An invalid spec, or ``out`` unusable (key ``--out``).
     """
+    spec = spec_arg(spec, "run")
+    out, executor, workers = run_iv(out=out, executor=executor, workers=workers,
+                                    flags={"resume": resume, "fresh": fresh,
+                                           "write": write}, progress=progress)
     start = datetime.now(timezone.utc)
     t0 = time.perf_counter()
     # a signed density: the formal estimate by complex rotation (Gaussian schemes; the
     # spec refuses the others), with the sampler's blocks, seeds and store
     problem = build_problem(spec, formal=spec.signed)
     job = Job(problem=problem, block_fn=formal_block) if spec.signed else wilson_job(problem)
-    own_pool = None
-    if executor is None and workers is not None and workers > 1:
-        executor = own_pool = make_executor(workers)
     worker_label = workers if workers is not None else (
         1 if executor is None else type(executor).__name__)
-    store = None
     bar = Progress() if progress is True else (progress or None)
-    try:
-        if out is not None:
-            out = Path(out)
-            _check_writable(out)
-            store = RunStore(out / STORE_NAME, spec_text=spec.text,
-                             spec_sha256=spec.sha256, job_key="run", resume=resume,
-                             workers=worker_label)
-            store.set_meta("name", spec.name)
-            fault_point("store-open")
-        estimate, stats = execute(job, store=store, executor=executor,
-                                  progress=bar or False, name=spec.name)
-    except BaseException:
+    with contextlib.ExitStack() as stack:
         if progress is True:
-            bar.close()
-        raise
-    finally:
-        if own_pool is not None:
-            own_pool.shutdown(cancel_futures=True)
+            stack.callback(bar.close)
+        store = None
+        if out is not None:
+            stack.enter_context(claim_folder(out, command="run", identity=f"{spec.sha256}:run",
+                                             name=spec.name, fresh=fresh))
+            store = stack.enter_context(RunStore(
+                out / STORE_NAME, spec_text=spec.text, spec_sha256=spec.sha256,
+                job_key="run", resume=resume, workers=worker_label, name=spec.name))
+            fault_point("store-open")
+        with worker_pool(workers, executor) as pool:
+            estimate, stats = execute(job, store=store, executor=pool,
+                                      progress=bar or False, name=spec.name)
+            executor_name = "inline" if pool is None else type(pool).__name__
         if store is not None:
             store.close()
-    provenance = dict(versions())
-    provenance.update({
-        "start": start.isoformat(timespec="seconds"),
-        "wall_seconds": time.perf_counter() - t0,
-        "workers": worker_label,
-        "blocks": stats.n_blocks, "blocks_computed": stats.computed,
-        "blocks_reused": stats.reused, "resumed": bool(stats.reused),
-        "block_seconds": stats.block_seconds,
-        "executor": "inline" if executor is None else type(executor).__name__,
-        "platform": sys.platform,
-        # which sampler kernels ran: "numpy" (the reference) or "numba" (the `fast`
-        # extra); the two agree to rounding, not bit for bit
-        "kernel": kernel_path(),
-    })
-    if bar is not None:
-        bar.step(f"{spec.name}: exact values")
-    results = build_results(spec, problem, estimate, provenance)
-    if progress is True and bar is not None:
-        bar.close()
-    fault_point("results-ready")
-    files = write_results(results, out) if (out is not None and write) else {}
+        provenance = dict(versions())
+        provenance.update({
+            "start": start.isoformat(timespec="seconds"),
+            "wall_seconds": time.perf_counter() - t0,
+            "workers": worker_label,
+            "blocks": stats.n_blocks, "blocks_computed": stats.computed,
+            "blocks_reused": stats.reused, "resumed": bool(stats.reused),
+            "block_seconds": stats.block_seconds,
+            "executor": executor_name,
+            "platform": sys.platform,
+            # which sampler kernels ran: "numpy" (the reference) or "numba" (the `fast`
+            # extra); the two agree to rounding, not bit for bit
+            "kernel": kernel_path(),
+        })
+        if bar is not None:
+            bar.step(f"{spec.name}: exact values")
+        results = build_results(spec, problem, estimate, provenance)
+        if progress is True and bar is not None:
+            bar.close()
+        fault_point("results-ready")
+        files = write_results(results, out) if (out is not None and write) else {}
     return RunOutcome(results=results, estimate=estimate, stats=stats, files=files)
-
-
-def _check_writable(out: Path) -> None:
-    """Refuse an output folder that cannot be created or written (key ``--out``)."""
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-        probe = out / f".whitegauge-write-test-{os.getpid()}"
-        probe.write_bytes(b"")
-        probe.unlink()
-    except OSError as exc:
-        raise SpecError("--out", f"cannot write to {str(out)!r} "
-                        f"({exc.strerror or exc}); expected a writable folder") from None

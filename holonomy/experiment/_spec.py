@@ -38,6 +38,7 @@ import copy
 import hashlib
 import json
 import math
+import os
 import re
 import textwrap
 import tomllib
@@ -293,6 +294,9 @@ def load_spec(path: str | Path, *, purpose: str = "run", overrides=()) -> Spec:
         With the file name as key path if the file is missing, unreadable or not
         valid TOML (the message gives the line), else with the key path of the value.
     """
+    if not isinstance(path, (str, os.PathLike)):
+        raise TypeError(f"`path` must be the path of a spec file (str or os.PathLike); "
+                        f"got {type(path).__name__}.")
     p = Path(path)
     try:
         text = p.read_text(encoding="utf-8")
@@ -314,6 +318,12 @@ def parse_spec(text: str, *, name: str = "experiment", purpose: str = "run",
     is validated as if the file held them; its ``text`` (and so ``sha256``) is then the
     resulting TOML, headed by a comment naming the source and the overrides.
     """
+    if not isinstance(text, str):
+        raise TypeError(f"`text` must be the TOML text of a spec (str); got "
+                        f"{type(text).__name__} (load_spec reads a spec file).")
+    for key, value in (("name", name), ("source", source)):
+        if not isinstance(value, str):
+            raise TypeError(f"`{key}` must be a str; got {type(value).__name__}.")
     if purpose not in PURPOSES:
         raise ValueError(f"`purpose` must be one of {PURPOSES}; got {purpose!r}.")
     try:
@@ -329,6 +339,17 @@ def parse_spec(text: str, *, name: str = "experiment", purpose: str = "run",
         header = [f"# {source} with " + " ".join(f"--set {o}" for o in overrides)]
         text = "\n".join(header) + "\n" + _toml_text(data)
     return _spec_iv(data, text=text, default_name=name, purpose=purpose, source=source)
+
+
+def spec_arg(spec: Any, purpose: str) -> "Spec":
+    """The ``spec`` argument of an entry point: a :class:`Spec`, or the path of a spec
+    file (read with :func:`load_spec` for ``purpose``); a TypeError otherwise."""
+    if isinstance(spec, Spec):
+        return spec
+    if isinstance(spec, (str, os.PathLike)):
+        return load_spec(spec, purpose=purpose)
+    raise TypeError(f"`spec` must be a Spec (from load_spec or parse_spec) or the path "
+                    f"of a spec file; got {type(spec).__name__}.")
 
 
 # --------------------------------------------------------------------------- --set
@@ -602,9 +623,9 @@ def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
         raise SpecError(path, f"got {_describe(item)}; expected a table")
     _no_unknown(item, path, _LOOP_KEYS)
     name = item.get("name", f"loop{i}")
-    if not isinstance(name, str) or not name.strip():
+    if not isinstance(name, str) or not name.strip() or "\0" in name:
         raise SpecError(f"{path}.name", f"got {_describe(name)}; expected a non-empty "
-                        "string")
+                        "string without NUL characters")
     kinds = [k for k in _LOOP_KINDS if k in item]
     if len(kinds) != 1:
         got = "none" if not kinds else " and ".join(kinds)
@@ -769,8 +790,9 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
     """Validate the parsed TOML ``data``; the one place where spec rules live."""
     _no_unknown(data, "", _TOP_KEYS)
     name = data.get("name", default_name)
-    if not isinstance(name, str) or not name.strip():
-        raise SpecError("name", f"got {_describe(name)}; expected a non-empty string")
+    if not isinstance(name, str) or not name.strip() or "\0" in name:
+        raise SpecError("name", f"got {_describe(name)}; expected a non-empty string "
+                        "without NUL characters")
     family, n, metric = _group_iv(data)
 
     f = _table(data, "field", "field", _FIELD_KEYS)

@@ -80,6 +80,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Sequence
 
+import contextlib
 import csv
 import io
 import json
@@ -96,8 +97,9 @@ from ._problems import build_problem
 from ._progress import Progress
 from ._references import loop_references
 from ._report import MISSING, _render, _write_text_atomic, clean, fmt_value, write_json_atomic
-from ._runner import Job, _check_writable, execute, make_executor
-from ._spec import Spec, SpecError
+from ._folder import claim_folder
+from ._runner import Job, execute, run_iv, worker_pool
+from ._spec import Spec, SpecError, spec_arg
 from ._store import RunStore, versions
 
 __all__ = ["THEORY_RATES", "RateFit", "fit_rate", "fit_exact_rate", "fit_difference_rate",
@@ -338,10 +340,25 @@ def _references(spec: Spec, study, h: float, i: int) -> dict:
 
 def run_study(spec: Spec, *, spacings: Sequence[float], schemes: Sequence[str] | None = None,
               out: str | Path | None = None, executor=None, workers: int | None = None,
-              resume: bool = False, progress: bool | Progress = False) -> StudyOutcome:
+              resume: bool = False, fresh: bool = False,
+              progress: bool | Progress = False) -> StudyOutcome:
     """Run the study and (with ``out``) write ``study.json``, ``study.csv``,
     ``convergence.png`` and the store ``study.sqlite``; ``schemes`` defaults to the
-    registry's study schemes (:func:`holonomy.study_schemes`)."""
+    registry's study schemes (:func:`holonomy.study_schemes`).
+
+    ``spec`` is a :class:`Spec` or the path of a spec file; ``out``, ``executor``,
+    ``workers``, ``resume`` and ``fresh`` are as in :func:`run_spec`.
+    """
+    spec = spec_arg(spec, "study")
+    out, executor, workers = run_iv(out=out, executor=executor, workers=workers,
+                                    flags={"resume": resume, "fresh": fresh},
+                                    progress=progress)
+    if isinstance(spacings, (str, bytes)) or not isinstance(spacings, Sequence):
+        raise TypeError(f"`spacings` must be a sequence of numbers; got {spacings!r}.")
+    if schemes is not None and (isinstance(schemes, (str, bytes))
+                                or not isinstance(schemes, Sequence)):
+        raise TypeError(f"`schemes` must be a sequence of scheme names or None; got "
+                        f"{schemes!r}.")
     spacings = tuple(sorted((float(h) for h in spacings), reverse=True))
     schemes = study_schemes() if schemes is None else tuple(schemes)
     start = datetime.now(timezone.utc)
@@ -356,29 +373,30 @@ def run_study(spec: Spec, *, spacings: Sequence[float], schemes: Sequence[str] |
         key = {"spacings": "--spacings", "scheme": "--schemes", "schemes": "--schemes"}
         raise SpecError(key.get(exc.argument, "spec"), str(exc)) from None
     job = _study_job(study)
-    own = None
-    if executor is None and workers and workers > 1:
-        executor = own = make_executor(workers)
-    store = None
-    try:
+    job_key = f"study:{list(spacings)}:{list(schemes)}:block={block}"
+    with contextlib.ExitStack() as folder:
+        store = None
         if out is not None:
-            out = Path(out)
-            _check_writable(out)
-            store = RunStore(out / "study.sqlite", spec_text=spec.text,
-                             spec_sha256=spec.sha256,
-                             job_key=f"study:{list(spacings)}:{list(schemes)}:"
-                             f"block={block}",
-                             resume=resume, workers=workers or 1)
-        (estimates, blocks), stats = execute(job, store=store, executor=executor,
-                                             progress=progress, name=f"{spec.name} study")
+            folder.enter_context(claim_folder(out, command="study",
+                                              identity=f"{spec.sha256}:{job_key}",
+                                              name=spec.name, fresh=fresh))
+            store = folder.enter_context(RunStore(
+                out / "study.sqlite", spec_text=spec.text, spec_sha256=spec.sha256,
+                job_key=job_key, resume=resume, workers=workers or 1, name=spec.name))
+        with worker_pool(workers, executor) as pool:
+            (estimates, blocks), stats = execute(job, store=store, executor=pool,
+                                                 progress=progress, name=f"{spec.name} study")
         if isinstance(progress, Progress):
             progress.step(f"{spec.name} study: exact values and fits")
-    finally:
-        if own is not None:
-            own.shutdown(cancel_futures=True)
         if store is not None:
             store.close()
+        return _study_outcome(spec, study, job, estimates, blocks, stats, spacings,
+                              schemes, out, workers, start, t0, block_note)
 
+
+def _study_outcome(spec, study, job, estimates, blocks, stats, spacings, schemes, out,
+                   workers, start, t0, block_note) -> StudyOutcome:
+    """Rows, fits, table and files of a finished study (inside the claimed folder)."""
     spacings = tuple(study.spacings)
     refs = {h: [_references(spec, study, h, i) for i in range(len(spec.loops))]
             for h in spacings}
@@ -577,7 +595,15 @@ def plot_convergence(results: dict, path: str | Path) -> Path:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
+    from ._report import quiet_plot_warnings, short_label
+
     path = Path(path)
+    with quiet_plot_warnings():
+        _draw_convergence(results, path, plt, short_label)
+    return path
+
+
+def _draw_convergence(results: dict, path: Path, plt, short_label) -> None:
     fig, ax = plt.subplots(figsize=(6.4, 4.8))
     rates = {(r["loop"], r["scheme"]): r for r in results["rates"]}
     groups: dict[tuple, list] = {}
@@ -595,7 +621,7 @@ def plot_convergence(results: dict, path: str | Path) -> Path:
         se = np.array([r["scheme_error_stderr"] or 0.0 for r in rs])
         fit = rates.get((loop, scheme), {})
         exact = all(r["scheme_error_kind"] == "exact" for r in rs)
-        label = f"{loop} {scheme} ({rs[-1]['scheme_error_kind']})"
+        label = f"{short_label(loop)} {scheme} ({rs[-1]['scheme_error_kind']})"
         if fit.get("rate") is not None:
             label += f": rate {fit['rate']:.2f} ± {fit['rate_stderr']:.2f}"
         line = ax.errorbar(h, np.maximum(e, 1e-16), yerr=None if exact else se,
@@ -607,16 +633,15 @@ def plot_convergence(results: dict, path: str | Path) -> Path:
     for loop, pts in snapping.items():
         hs = sorted(pts)
         ax.plot(hs, [max(pts[h], 1e-16) for h in hs], "s--", color="0.5", ms=4, lw=0.8,
-                label=f"{loop}: snapping error (exact)")
+                label=f"{short_label(loop)}: snapping error (exact)")
     ax.set_xscale("log")
     ax.set_yscale("log")
     ax.set_xlabel("lattice spacing h")
     ax.set_ylabel("|error|")
-    ax.set_title(f"{results['name']}: each scheme against the loop as snapped at h "
-                 "(scheme error),\nthe loop as snapped against the loop as specified "
-                 "(snapping error, grey)", fontsize=9)
+    ax.set_title(f"{short_label(results['name'])}: each scheme against the loop as "
+                 "snapped at h (scheme error),\nthe loop as snapped against the loop as "
+                 "specified (snapping error, grey)", fontsize=9)
     ax.legend(fontsize=7)
     fig.tight_layout()
     fig.savefig(path, dpi=120)
     plt.close(fig)
-    return path

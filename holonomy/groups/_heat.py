@@ -401,7 +401,10 @@ def _accept_numerator(th, t):
     ``sinh(x) <= x cosh(x) <= x e^x``); they are evaluated only where that bound exceeds
     ``2^-60``, elsewhere the acceptance probability is exact to that relative error.
     """
-    need = (np.pi / t) * (np.pi - th) < np.log(4 * np.pi**2 / t) + _IMAGE_LOG_TOL
+    with np.errstate(over="ignore", divide="ignore"):
+        # pi / t = inf for a subnormal t (density ~1e-320): no images needed, as inf < x
+        # is False; the comparison is right without the overflow warning
+        need = (np.pi / t) * (np.pi - th) < np.log(4 * np.pi**2 / t) + _IMAGE_LOG_TOL
     rhs = th.copy()
     idx = np.flatnonzero(need)
     if idx.size:

@@ -193,8 +193,8 @@ FILE_CASES = [
 
 CLI_CASES = [
     # (id, args after SPEC, key, rule)
-    ("workers-zero", ["--workers", "0"], "--workers", "an integer >= 1"),
-    ("workers-text", ["--workers", "abc"], "--workers", "an integer >= 1"),
+    ("workers-zero", ["--workers", "0"], "--workers", "an integer from 1 to 256"),
+    ("workers-text", ["--workers", "abc"], "--workers", "an integer from 1 to 256"),
     ("out-under-a-file", ["--out", "{tmp}/afile/sub"], "--out", "expected a writable folder"),
     ("unknown-option", ["--fast"], "unrecognized arguments", "--fast"),
 ]

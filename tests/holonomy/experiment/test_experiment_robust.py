@@ -1,0 +1,488 @@
+"""Robustness of the pipeline (issue 17): names are data, stores cannot be fooled,
+folders belong to one command and spec, signals end the workers, entry points check
+their arguments, successful commands are quiet on stderr.
+
+These are checks of our own contract (exit codes, messages, files); the numbers they
+compare are the project's own bitwise reproducibility (blocks draw from
+``SeedSequence(seed, spawn_key=(b,))``: numpy/random parallel.rst). The kill and lock
+checks rely on SQLite's atomic commit (https://www.sqlite.org/atomiccommit.html) and
+POSIX record locks (fcntl, POSIX.1-2017), which the kernel drops when a process ends.
+"""
+
+import json
+import os
+import signal
+import sqlite3
+import subprocess
+import sys
+import time
+import warnings
+from pathlib import Path
+
+import pytest
+
+from holonomy.cli import main
+from holonomy.experiment import (RunStore, SpecError, StoreMismatch, StoreUnusable, claim_folder,
+                                 default_out, exact_results, load_spec, parse_spec,
+                                 run_spec, run_study, series_results)
+
+SPEC = '''name = "robust"
+[group]
+family = "SU"
+n = 2
+metric = "physics"
+[field]
+coupling = 1.0
+spacing = 0.25
+scheme = "heat"
+[[loops]]
+name = "box"
+vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
+[[loops]]
+name = "ell"
+moves = "R2 U1 L1 U1 L1 D2"
+start = [0.0, 0.0]
+[run]
+samples = 480
+block = 40
+seed = 7
+'''
+N_BLOCKS = 12
+
+
+def _numbers(results: dict) -> list:
+    return [(r["loop"], r["estimate"], r["estimate_imag"], r["stderr"], r["samples"])
+            for r in results["results"]]
+
+
+def _write(tmp_path, text=SPEC, name="spec.toml") -> Path:
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+def _one_line(err: str, *pieces: str) -> str:
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and "Traceback" not in err, err
+    for piece in pieces:
+        assert piece in lines[0], lines[0]
+    return lines[0]
+
+
+def _own_lines_only(err: str) -> None:
+    """stderr of a successful command: only its own lines (start, end), escaped."""
+    for line in err.splitlines():
+        assert line.startswith("whitegauge ") and line.isprintable(), err
+
+
+def _cli(*args, cwd=None, env=None, **kw):
+    return subprocess.Popen([sys.executable, "-m", "holonomy.cli", *map(str, args)],
+                            cwd=cwd, env=dict(os.environ, **(env or {})),
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, **kw)
+
+
+@pytest.fixture(scope="module")
+def reference(tmp_path_factory):
+    return _numbers(run_spec(parse_spec(SPEC)).results)
+
+
+# --------------------------------------------------------------------------- names
+
+@pytest.mark.parametrize("name", ["x/../../../../ESCAPED", "../up", "/abs/path", "a\\b",
+                                  "esc\x1b[31mred", "bidi\u202eevil", "tab\tand\nline",
+                                  "ü" * 300, "名前"])
+def test_default_folder_is_one_safe_component(name):
+    out = default_out(name)
+    assert out.startswith("whitegauge-") and len(out.encode()) < 255
+    assert Path(out).name == out and out not in (".", "..")
+    assert all(c.isprintable() and c not in "/\\" for c in out)
+
+
+@pytest.mark.parametrize("name", ["\x1b\x07", "///", "..", " - ", "\u202e"])
+def test_name_without_letters_refused_for_the_default_folder(name):
+    with pytest.raises(SpecError, match=r"^name: .*no output folder name"):
+        default_out(name)
+
+
+def test_traversal_name_writes_nowhere_but_the_working_folder(tmp_path):
+    work = tmp_path / "a" / "b" / "c" / "d" / "work"
+    work.mkdir(parents=True)
+    spec = _write(work, SPEC.replace('name = "robust"', 'name = "x/../../../../ESCAPED"'))
+    before = {p for p in tmp_path.rglob("*")}
+    p = _cli("run", spec, "--quiet", cwd=work)
+    _, err = p.communicate(timeout=120)
+    assert p.returncode == 0, err
+    new = {p for p in tmp_path.rglob("*")} - before
+    assert new and all(work in q.parents for q in new)
+    assert (work / "whitegauge-x-ESCAPED" / "results.json").exists()
+
+
+def test_nul_in_a_name_is_refused(tmp_path, capsys):
+    for text, key in ((SPEC.replace('name = "robust"', 'name = "a\\u0000b"'), "name"),
+                      (SPEC.replace('name = "box"', 'name = "b\\u0000x"'), "loops[0].name")):
+        assert main(["run", str(_write(tmp_path, text)), "--out", str(tmp_path / "o")]) == 2
+        _one_line(capsys.readouterr().err, f"error: {key}: ", "without NUL")
+
+
+def test_control_characters_are_escaped_in_tables_and_errors(tmp_path, capsys):
+    text = SPEC.replace('name = "robust"', 'name = "r\\u001b[2Jx\\u202e"').replace(
+        'name = "box"', 'name = "b\\u0007ox"')
+    spec = _write(tmp_path, text)
+    for cmd in (["run", str(spec), "--out", str(tmp_path / "o")], ["exact", str(spec)],
+                ["series", str(spec), "--order", "1"]):
+        assert main(cmd) == 0
+        out, err = capsys.readouterr()
+        _own_lines_only(err)
+        assert "\x1b" not in out and "\x07" not in out and "\u202e" not in out
+        assert "b\\x07ox" in out
+    # the files keep the names in full
+    obj = json.loads((tmp_path / "o" / "results.json").read_text())
+    assert obj["results"][0]["loop"] == "b\x07ox"
+    # and an error line escapes them too (a store of another spec named so)
+    other = _write(tmp_path, text.replace("seed = 7", "seed = 8"), "other.toml")
+    assert main(["run", str(other), "--out", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert "\x1b" not in err and "\\x1b" in err
+
+
+# --------------------------------------------------------------------------- stores
+
+def _sql(db, *statements):
+    con = sqlite3.connect(db)
+    for s in statements:
+        con.execute(*s) if isinstance(s, tuple) else con.execute(s)
+    con.commit()
+    con.close()
+
+
+def _drop_field(db):
+    con = sqlite3.connect(db)
+    d = json.loads(con.execute("SELECT data FROM blocks WHERE block=0").fetchone()[0])
+    del d["cross_re"]
+    con.execute("UPDATE blocks SET data=? WHERE block=0", (json.dumps(d),))
+    con.commit()
+    con.close()
+
+
+def _replace_file(db, data: bytes):
+    for side in ("-wal", "-shm"):
+        Path(str(db) + side).unlink(missing_ok=True)
+    Path(db).write_bytes(data)
+
+
+# (id, how the store is damaged, a piece of the refusal)
+STORE_CASES = [
+    ("truncated", lambda db: _replace_file(db, Path(db).read_bytes()[:3000]), "malformed"),
+    ("garbage", lambda db: _replace_file(db, os.urandom(8192)), "not a database"),
+    ("empty-tables", lambda db: (_replace_file(db, b""), _sql(db, "CREATE TABLE x(a)")),
+     "not a whitegauge run store"),
+    ("directory", lambda db: (_replace_file(db, b""), os.unlink(db), os.mkdir(db)),
+     "is not a file"),
+    ("not-json", lambda db: _sql(db, "UPDATE blocks SET data='{oops' WHERE block=3"),
+     "unreadable block row 3"),
+    ("lacks-fields", _drop_field, "unreadable block row 0"),
+    ("wrong-count", lambda db: _sql(db, "UPDATE blocks SET count=41 WHERE block=2"),
+     "unreadable block row 2"),
+    ("foreign-index", lambda db: _sql(db, "UPDATE blocks SET block=99 WHERE block=5"),
+     "unreadable block row 99"),
+    ("no-identity", lambda db: _sql(db, "DELETE FROM meta WHERE key='identity'"),
+     "no identity record"),
+    ("format-newer", lambda db: _sql(db, "UPDATE meta SET value='99' WHERE key='format'"),
+     "store format '99'"),
+    ("format-older", lambda db: _sql(db, "UPDATE meta SET value='0' WHERE key='format'"),
+     "store format '0'"),
+    ("no-format", lambda db: _sql(db, "DELETE FROM meta WHERE key='format'"),
+     "store format None"),
+    ("old-schema", lambda db: _sql(db, "ALTER TABLE blocks DROP COLUMN finished"),
+     "block columns"),
+]
+
+
+@pytest.mark.parametrize("damage,piece", [c[1:] for c in STORE_CASES],
+                         ids=[c[0] for c in STORE_CASES])
+def test_damaged_store_is_refused_then_fresh_recovers(damage, piece, tmp_path, capsys,
+                                                      reference):
+    spec = _write(tmp_path)
+    out = tmp_path / "out"
+    assert main(["run", str(spec), "--out", str(out), "--quiet"]) == 0
+    db = out / "run.sqlite"
+    damage(db)
+    snapshot = sorted((p.name, p.read_bytes() if p.is_file() else None)
+                      for p in out.iterdir())
+    # a damaged block row matters where blocks are read back (--resume); a file that is
+    # not a store of this format and job is refused by every run
+    row_case = "block row" in piece
+    for extra in ([["--resume"]] if row_case else [[], ["--resume"]]):
+        assert main(["run", str(spec), "--out", str(out), "--quiet", *extra]) == 2
+        _one_line(capsys.readouterr().err, "error: --out: run store", str(db), piece,
+                  "--fresh")
+    # never adopted, never repaired: the folder is as it was
+    assert sorted((p.name, p.read_bytes() if p.is_file() else None)
+                  for p in out.iterdir()) == snapshot
+    with pytest.raises(StoreUnusable, match=piece.replace("(", r"\(")):
+        run_spec(load_spec(spec), out=out, resume=True)
+    assert main(["run", str(spec), "--out", str(out), "--quiet", "--fresh"]) == 0
+    assert _numbers(json.loads((out / "results.json").read_text())) == reference
+
+
+def _store_for(spec, out, **kw):
+    return RunStore(out / "run.sqlite", spec_text=spec.text, spec_sha256=spec.sha256,
+                    job_key="run", **kw)
+
+
+def test_identity_less_store_is_not_adopted_by_another_spec(tmp_path):
+    """The case that gave silently wrong numbers: blocks of spec A reused for spec B.
+    (The folder's owner record refuses B first; the store refuses on its own too.)"""
+    a, b = parse_spec(SPEC), parse_spec(SPEC.replace("coupling = 1.0", "coupling = 2.0"))
+    out = tmp_path / "out"
+    run_spec(a, out=out)
+    _sql(out / "run.sqlite", "DELETE FROM meta WHERE key='identity'")
+    for spec in (a, b):
+        with pytest.raises(StoreUnusable, match="no identity record"):
+            _store_for(spec, out, resume=True)
+    with pytest.raises(SpecError, match="another spec"):
+        run_spec(b, out=out, resume=True)
+
+
+def test_store_of_another_spec_is_refused(tmp_path):
+    out = tmp_path / "out"
+    run_spec(parse_spec(SPEC), out=out)
+    with pytest.raises(StoreMismatch, match="another spec"):
+        _store_for(parse_spec(SPEC.replace("seed = 7", "seed = 8")), out, resume=True)
+
+
+# --------------------------------------------------------------------------- folders
+
+def _foreign_folder(tmp_path, command):
+    out = tmp_path / command
+    with claim_folder(out, command=command, identity=f"{command}:x", name=command):
+        (out / "results.json").write_text('{"owner": "%s"}' % command)
+        (out / "report.md").write_text("# " + command)
+    return out
+
+
+@pytest.mark.parametrize("command,owner", [("run", "demo"), ("study", "demo"),
+                                           ("demo", "run"), ("demo", "study"),
+                                           ("run", "study"), ("study", "run")])
+def test_folder_of_another_command_is_refused_unless_fresh(command, owner, tmp_path, capsys):
+    out = _foreign_folder(tmp_path, owner)
+    spec = str(_write(tmp_path))
+    args = {"run": ["run", spec], "study": ["study", spec, "--spacings", "0.25,0.125"],
+            "demo": ["demo"]}[command] + ["--out", str(out), "--quiet"]
+    before = (out / "results.json").read_bytes()
+    assert main(args) == 2
+    _one_line(capsys.readouterr().err, "error: --out: ", f"`whitegauge {owner}`",
+              f"not of `whitegauge {command}`", "--fresh")
+    assert (out / "results.json").read_bytes() == before
+    if command != "demo":  # the demo itself is run by tests/test_cli.py
+        assert main(args + ["--fresh"]) == 0
+        assert not (out / "report.md").exists()  # the other command's files are gone
+        capsys.readouterr()
+
+
+def test_folder_with_unowned_whitegauge_files_is_refused(tmp_path, capsys):
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "results.json").write_text("{}")
+    (out / "notes.txt").write_text("mine")
+    spec = str(_write(tmp_path))
+    assert main(["run", spec, "--out", str(out), "--quiet"]) == 2
+    _one_line(capsys.readouterr().err, "results.json", "without an owner record")
+    assert main(["run", spec, "--out", str(out), "--quiet", "--fresh"]) == 0
+    assert (out / "notes.txt").read_text() == "mine"  # --fresh touches only its own files
+
+
+def test_fresh_and_resume_exclude_each_other(tmp_path, capsys):
+    assert main(["run", str(_write(tmp_path)), "--out", str(tmp_path / "o"), "--resume",
+                 "--fresh"]) == 2
+    _one_line(capsys.readouterr().err, "error: --fresh: ")
+    assert not (tmp_path / "o").exists()
+
+
+# --------------------------------------------------------------------------- processes
+
+def _paused(spec, out, point, marker, *extra, **kw):
+    p = _cli("run", spec, "--out", out, "--quiet", *extra,
+             env={"WHITEGAUGE_TEST_PAUSE": point, "WHITEGAUGE_TEST_PAUSE_FILE": str(marker)},
+             **kw)
+    t0 = time.monotonic()
+    while not marker.exists():
+        assert p.poll() is None, p.communicate()
+        assert time.monotonic() - t0 < 90, "the run never reached the pause point"
+        time.sleep(0.02)
+    return p
+
+
+def test_second_command_on_a_busy_folder_is_refused(tmp_path, reference):
+    spec = _write(tmp_path)
+    out = tmp_path / "out"
+    first = _paused(spec, out, "block-stored:3", tmp_path / "m")
+    second = _cli("run", spec, "--out", out, "--quiet", "--resume")
+    _, err = second.communicate(timeout=120)
+    assert second.returncode == 2
+    _one_line(err, "error: --out: ", "in use by another whitegauge command",
+              f"pid {first.pid}")
+    first.kill()
+    first.communicate()
+    # the kernel dropped the lock with the process: the folder is usable again
+    again = _cli("run", spec, "--out", out, "--quiet", "--resume")
+    _, err = again.communicate(timeout=120)
+    assert again.returncode == 0, err
+    assert _numbers(json.loads((out / "results.json").read_text())) == reference
+
+
+@pytest.mark.parametrize("sig,code,word", [(signal.SIGINT, 130, "interrupted"),
+                                           (signal.SIGTERM, 143, "terminated")])
+def test_interrupt_exits_with_one_line_then_resume_is_bitwise(sig, code, word, tmp_path,
+                                                              reference):
+    spec = _write(tmp_path)
+    out = tmp_path / "out"
+    # a new session, signalled as a group: what a terminal does on Ctrl-C
+    p = _paused(spec, out, "block-stored:4", tmp_path / "m", "--workers", "2",
+                start_new_session=True)
+    os.killpg(p.pid, sig)
+    _, err = p.communicate(timeout=60)
+    assert p.returncode == code, err
+    _one_line(err, f"whitegauge: {word}", str(out / "run.sqlite"), "--resume")
+    assert not (out / "results.json").exists()
+    con = sqlite3.connect(out / "run.sqlite")
+    assert con.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    held = con.execute("SELECT COUNT(*) FROM blocks").fetchone()[0]
+    con.close()
+    assert 4 <= held < N_BLOCKS
+    r = _cli("run", spec, "--out", out, "--quiet", "--resume")
+    _, err = r.communicate(timeout=120)
+    assert r.returncode == 0 and err == "", err
+    obj = json.loads((out / "results.json").read_text())
+    assert _numbers(obj) == reference and obj["provenance"]["blocks_reused"] == held
+
+
+def _alive(pid: int) -> bool:
+    try:
+        status = Path(f"/proc/{pid}/status").read_text()
+    except FileNotFoundError:
+        return False
+    return "\nState:\tZ" not in status  # a zombie has ended; only its parent must reap it
+
+
+@pytest.mark.skipif(not Path("/proc").is_dir(), reason="reads /proc")
+def test_workers_exit_within_2_s_after_sigkill_of_the_main_process(tmp_path):
+    spec = _write(tmp_path, SPEC.replace("samples = 480", "samples = 4000000").replace(
+        "block = 40", "block = 4000"))
+    p = _paused(spec, tmp_path / "out", "block-stored:2", tmp_path / "m", "--workers", "2")
+    kids = [int(x) for x in subprocess.run(["pgrep", "-P", str(p.pid)], capture_output=True,
+                                           text=True).stdout.split()]
+    assert len(kids) >= 2
+    os.kill(p.pid, signal.SIGKILL)
+    p.communicate()
+    t0 = time.monotonic()
+    while any(_alive(k) for k in kids) and time.monotonic() - t0 < 2.0:
+        time.sleep(0.05)
+    assert not [k for k in kids if _alive(k)]
+
+
+# --------------------------------------------------------------------------- API
+
+SPEC_OBJ = parse_spec(SPEC)
+API_CASES = [
+    ("parse_spec-None", lambda: parse_spec(None), TypeError, "`text` must be the TOML text"),
+    ("parse_spec-dict", lambda: parse_spec({"name": "x"}), TypeError, "got dict"),
+    ("parse_spec-name", lambda: parse_spec(SPEC, name=3), TypeError, "`name` must be a str"),
+    ("load_spec-None", lambda: load_spec(None), TypeError, "`path` must be the path"),
+    ("run_spec-int", lambda: run_spec(3), TypeError, "`spec` must be a Spec"),
+    ("run_spec-executor", lambda: run_spec(SPEC_OBJ, executor="x"), TypeError,
+     "`executor` must be a concurrent.futures.Executor"),
+    ("run_spec-workers-str", lambda: run_spec(SPEC_OBJ, workers="2"), TypeError,
+     "`workers` must be an integer from 1 to 256"),
+    ("run_spec-workers-float", lambda: run_spec(SPEC_OBJ, workers=2.5), TypeError,
+     "`workers`"),
+    ("run_spec-workers-bool", lambda: run_spec(SPEC_OBJ, workers=True), TypeError,
+     "`workers`"),
+    ("run_spec-workers-neg", lambda: run_spec(SPEC_OBJ, workers=-1), ValueError,
+     "`workers` must be an integer from 1 to 256"),
+    ("run_spec-workers-huge", lambda: run_spec(SPEC_OBJ, workers=10**30), ValueError,
+     "`workers`"),
+    ("run_spec-out", lambda: run_spec(SPEC_OBJ, out=3), TypeError, "`out` must be a folder"),
+    ("run_spec-resume", lambda: run_spec(SPEC_OBJ, resume="yes"), TypeError,
+     "`resume` must be True or False"),
+    ("run_spec-missing-file", lambda: run_spec("no/such/spec.toml"), SpecError,
+     "no such file"),
+    ("exact-str", lambda: exact_results("x"), SpecError, "no such file"),
+    ("exact-int", lambda: exact_results(1), TypeError, "`spec` must be a Spec"),
+    ("series-order-neg", lambda: series_results(SPEC_OBJ, -1), ValueError,
+     "`order` must be an integer from 0 to 20"),
+    ("series-order-str", lambda: series_results(SPEC_OBJ, "3"), TypeError, "`order`"),
+    ("series-order-None", lambda: series_results(SPEC_OBJ, None), TypeError, "`order`"),
+    ("series-order-big", lambda: series_results(SPEC_OBJ, 21), ValueError, "`order`"),
+    ("series-loops", lambda: series_results(SPEC_OBJ, 1, loops="0"), TypeError, "`loops`"),
+    ("study-spacings", lambda: run_study(SPEC_OBJ, spacings="0.5,0.25"), TypeError,
+     "`spacings` must be a sequence"),
+    ("study-workers", lambda: run_study(SPEC_OBJ, spacings=[0.5, 0.25], workers=0),
+     ValueError, "`workers`"),
+]
+
+
+@pytest.mark.parametrize("call,exc,match", [c[1:] for c in API_CASES],
+                         ids=[c[0] for c in API_CASES])
+def test_api_checks_its_arguments_first(call, exc, match):
+    with pytest.raises(exc, match=match.replace("(", r"\(")):
+        call()
+
+
+def test_run_spec_accepts_a_path(tmp_path, reference):
+    assert _numbers(run_spec(_write(tmp_path)).results) == reference
+    assert _numbers(run_spec(str(_write(tmp_path))).results) == reference
+
+
+def test_cli_workers_beyond_the_limit(tmp_path, capsys):
+    assert main(["run", str(_write(tmp_path)), "--workers", str(10**30)]) == 2
+    _one_line(capsys.readouterr().err, "error: --workers: ", "from 1 to 256")
+
+
+def test_series_budget_is_shared_by_the_loops(monkeypatch):
+    """Order 20 on two loops used to take a budget per loop and kind; now the command
+    stops at its budget (plus start-up) with a note per loop."""
+    monkeypatch.setenv("WHITEGAUGE_SERIES_BUDGET", "3")
+    t0 = time.monotonic()
+    obj = series_results(SPEC_OBJ, 20)
+    assert time.monotonic() - t0 < 3 + 10
+    for row in obj["results"]:
+        assert row["coefficients"] is None and "budget of 3 s" in row["note"]
+
+
+# --------------------------------------------------------------------------- quiet
+
+@pytest.mark.parametrize("density,command", [
+    ("1e-320", "run"), ("1e-320", "exact"), ("1e-320", "series"),
+    ("1e300", "run"), ("1e300", "exact"), ("1e300", "series"),
+    pytest.param("1e300", "study", marks=pytest.mark.slow)])
+def test_extreme_densities_leave_stderr_empty(density, command, tmp_path, capfd):
+    spec = _write(tmp_path, SPEC.replace('scheme = "heat"', f'scheme = "heat"\ndensity = '
+                                         f'{density}'))
+    extra = {"run": ["--out", str(tmp_path / "o"), "--quiet"], "exact": [],
+             "series": ["--order", "2"],
+             "study": ["--spacings", "0.25,0.125", "--out", str(tmp_path / "s"),
+                       "--quiet"]}[command]
+    with warnings.catch_warnings():
+        warnings.simplefilter("always")  # a warning would now reach stderr
+        assert main([command, str(spec), *extra]) == 0
+    _own_lines_only(capfd.readouterr().err)
+
+
+def test_series_overflow_is_a_note(tmp_path):
+    obj = series_results(parse_spec(SPEC.replace('scheme = "heat"', 'scheme = "heat"\n'
+                                                 'density = 1e300')), 2)
+    for row in obj["results"]:
+        assert row["coefficients"] is None and "overflow" in row["note"]
+
+
+def test_long_and_unusual_loop_names_plot_quietly(tmp_path, capfd):
+    text = SPEC.replace('name = "box"', 'name = "\u3042\u6f22\\u001b' + "L" * 10000 + '"')
+    spec = _write(tmp_path, text)
+    with warnings.catch_warnings():
+        warnings.simplefilter("always")
+        assert main(["study", str(spec), "--spacings", "0.25,0.125", "--schemes", "heat",
+                     "--out", str(tmp_path / "s"), "--quiet"]) == 0
+    _own_lines_only(capfd.readouterr().err)
+    obj = json.loads((tmp_path / "s" / "study.json").read_text())
+    assert any(len(r["loop"]) > 10000 for r in obj["results"])  # in full in the file
