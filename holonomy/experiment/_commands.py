@@ -257,6 +257,9 @@ def series_results(spec: Spec | str | os.PathLike, order: int, *, loops: Sequenc
             res, row["note"] = _expand(limit, scheme.series, problem, i, order, exact=False)
             if res is not None:
                 row["coefficients"], imag = _floats(res.coefficients)
+                if not all(map(math.isfinite, row["coefficients"])):
+                    row["note"] = ("coefficients beyond double precision are null; the "
+                                   "exact rationals hold them")
                 if imag is not None:
                     row["coefficients_imag"] = imag
                 row["asymptotic"] = bool(res.asymptotic)

@@ -360,6 +360,12 @@ def format_exact_table(obj: dict) -> str:
     return _render(rows, ["loop", "kind", "value", "method"])
 
 
+def _coef(values, m: int) -> str:
+    """One float coefficient, or the missing mark (none, or beyond double precision:
+    the exact rationals beside it hold it)."""
+    return MISSING if not values or values[m] is None else f"{values[m]:.12g}"
+
+
 def format_series_table(obj: dict) -> str:
     """The coefficients of the scheme's series and of the continuum series side by
     side, each column saying what it expands; notes for what is missing."""
@@ -377,8 +383,7 @@ def format_series_table(obj: dict) -> str:
         crats = r.get("continuum_rationals") or [None] * n
         for m in range(n):
             rows.append([r["loop"] if m == 0 else "", f"c_{m}" if (coef or cont) else "",
-                         f"{coef[m]:.12g}" if coef else MISSING, rats[m] or "",
-                         f"{cont[m]:.12g}" if cont else MISSING, crats[m] or ""])
+                         _coef(coef, m), rats[m] or "", _coef(cont, m), crats[m] or ""])
         if coef is None:
             notes.append(f"{r['loop']}: series: {r.get('note') or 'not available'}")
         elif r.get("rationals") is None and r.get("rationals_note"):

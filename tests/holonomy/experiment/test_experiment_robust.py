@@ -443,8 +443,9 @@ def test_series_budget_is_shared_by_the_loops(monkeypatch):
     """Order 20 on two loops used to take a budget per loop and kind; now the command
     stops at its budget (plus start-up) with a note per loop."""
     monkeypatch.setenv("WHITEGAUGE_SERIES_BUDGET", "3")
+    spec = parse_spec(SPEC.replace('scheme = "heat"', 'scheme = "linear"'))  # Wick route
     t0 = time.monotonic()
-    obj = series_results(SPEC_OBJ, 20)
+    obj = series_results(spec, 20)
     assert time.monotonic() - t0 < 3 + 10
     for row in obj["results"]:
         assert row["coefficients"] is None and "budget of 3 s" in row["note"]
@@ -470,10 +471,15 @@ def test_extreme_densities_leave_stderr_empty(density, command, tmp_path, capfd)
 
 
 def test_series_overflow_is_a_note(tmp_path):
-    obj = series_results(parse_spec(SPEC.replace('scheme = "heat"', 'scheme = "heat"\n'
-                                                 'density = 1e300')), 2)
-    for row in obj["results"]:
+    """Floats beyond double precision: null with a note, never inf or a crash; exact
+    rationals, where the route gives them, keep the value."""
+    big = SPEC.replace('scheme = "heat"', 'scheme = "linear"\ndensity = 1e300')
+    for row in series_results(parse_spec(big), 2, rationals=False)["results"]:
         assert row["coefficients"] is None and "overflow" in row["note"]
+    heat = big.replace('scheme = "linear"', 'scheme = "heat"')
+    for row in series_results(parse_spec(heat), 2)["results"]:
+        assert row["coefficients"][2] is None and "double precision" in row["note"]
+        assert int(row["rationals"][2]) > 10**590  # c_2 ~ (c A / 2)^2 / 2 with A ~ 1e300
 
 
 def test_long_and_unusual_loop_names_plot_quietly(tmp_path, capfd):
