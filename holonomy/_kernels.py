@@ -207,7 +207,8 @@ class FastQuaternionKernel(QuaternionKernel):
         flat = np.tile(col, size)
         if small.size:
             # per-column constants, computed as the numpy path computes them per entry
-            with np.errstate(divide="ignore"):
+            # (pi / t = inf for a subnormal t is right: no images; no warning for it)
+            with np.errstate(divide="ignore", over="ignore"):
                 consts = (np.sqrt(2.0 * col), np.pi / col, 2 * np.pi / col,
                           np.log(4 * np.pi**2 / col) + _IMAGE_LOG_TOL)
             self._fast.su2_heat_small(small, m, *consts, out, rng)

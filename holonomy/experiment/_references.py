@@ -38,7 +38,11 @@ def gaussian_matrix_field(group, rep, loop, coupling, area, order: int = GAUSSIA
     if ev is None or ev.method != "simple-loop":
         return None, (NOT_AVAILABLE + " (the Gaussian-matrix prescription is a closed form "
                       "for simple loops only)")
-    g = gaussian_matrix(group, rep, ev.details["measure"], coupling, order)
+    try:
+        g = gaussian_matrix(group, rep, ev.details["measure"], coupling, order)
+    except OverflowError:  # lambda * area beyond double precision (density ~1e300)
+        return None, (f"{NOT_AVAILABLE} (its coefficients overflow double precision at "
+                      "this coupling and density)")
     return {"value": None if g.value is None else complex(g.value).real,
             "order": order, "coefficients": g.coefficients, "rationals": g.rationals,
             "first_difference": g.first_difference,

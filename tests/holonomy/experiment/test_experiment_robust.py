@@ -465,7 +465,7 @@ def test_extreme_densities_leave_stderr_empty(density, command, tmp_path, capfd)
              "study": ["--spacings", "0.25,0.125", "--out", str(tmp_path / "s"),
                        "--quiet"]}[command]
     with warnings.catch_warnings():
-        warnings.simplefilter("always")  # a warning would now reach stderr
+        warnings.simplefilter("error")  # a warning would reach stderr: now it fails
         assert main([command, str(spec), *extra]) == 0
     _own_lines_only(capfd.readouterr().err)
 
@@ -486,7 +486,7 @@ def test_long_and_unusual_loop_names_plot_quietly(tmp_path, capfd):
     text = SPEC.replace('name = "box"', 'name = "\u3042\u6f22\\u001b' + "L" * 10000 + '"')
     spec = _write(tmp_path, text)
     with warnings.catch_warnings():
-        warnings.simplefilter("always")
+        warnings.simplefilter("error")
         assert main(["study", str(spec), "--spacings", "0.25,0.125", "--schemes", "heat",
                      "--out", str(tmp_path / "s"), "--quiet"]) == 0
     _own_lines_only(capfd.readouterr().err)
