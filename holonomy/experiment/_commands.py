@@ -10,7 +10,9 @@ import multiprocessing as mp
 import os
 from typing import Sequence
 
-from holonomy import LatticeProblem, get_scheme, lattice_covariance
+from holonomy import LatticeProblem, exact_series, get_scheme, lattice_covariance
+from holonomy._lattice_series import gauss_loadings
+from holonomy._series import _key_graph
 
 from ._problems import build_lattice
 from ._references import NOT_AVAILABLE, loop_references
@@ -110,8 +112,6 @@ def _bounded(fn, *args, **kwargs):
 def _factor_count(scheme: str, problem: LatticeProblem, i: int) -> int:
     """Exponentials in the Wick expansion of loop ``i`` (what the exact route pays for)."""
     if scheme == "gauss":
-        from holonomy._lattice_series import gauss_loadings
-
         return gauss_loadings(problem, i)[0].shape[0]
     return lattice_covariance(problem, i).shape[0]
 
@@ -155,8 +155,6 @@ def _expand(fn, *args, **kwargs):
 
 
 def _continuum_series(group, rep, loop, order, area):
-    from holonomy import exact_series
-
     res = exact_series(group, rep, loop, order, area=area)
     if res is None:
         raise NotImplementedError("no exact route applies to the loop as specified")
@@ -180,8 +178,6 @@ def series_results(spec: Spec, order: int, *, loops: Sequence[int] | None = None
     ``loops`` restricts the work to some loop indices; ``rationals=False`` skips the
     exact (sympy) coefficients; ``progress`` is a :class:`Progress` to tick.
     """
-    from holonomy._series import _key_graph
-
     scheme = get_scheme(spec.scheme)
     rows = []
     problem = None
