@@ -37,7 +37,11 @@ from typing import Any
 import numpy as np
 import sympy
 
-from .exact import evaluate_polygon
+from discretize import AreaForm, LatticeLoop
+
+from .exact import evaluate_polygon, exact_wilson_loop, unitary_casimir, unitary_dimension
+from .exact._dispatch import _lattice_shape, _polygon_shape
+from .exact._unitary import _hooks
 from ._series import SeriesResult
 
 __all__ = ["continuum_series", "exact_series"]
@@ -225,10 +229,6 @@ def exact_series(group: Any, rep: Any, loop: Any, order: int, *,
        heat-kernel measure).
     .. [2] E. M. Rains, J. Theoret. Probab. 10 (1997) 659-679 (loops wound n times).
     """
-    from .exact import exact_wilson_loop, unitary_casimir, unitary_dimension
-    from .exact._dispatch import _lattice_shape, _polygon_shape
-    from .exact._unitary import _hooks
-
     if isinstance(order, (bool, np.bool_)) or not isinstance(order, numbers.Integral) \
             or order < 0:
         raise ValueError(f"`order` must be an integer >= 0; got {order!r}.")
@@ -250,8 +250,6 @@ def exact_series(group: Any, rep: Any, loop: Any, order: int, *,
                   -unitary_casimir(lam, N, k=group.k, special=special) * mu / 2)
                  for sign, lam in _hooks(n, N)]
     else:
-        from discretize import AreaForm, LatticeLoop
-
         shape = (_lattice_shape if isinstance(loop, LatticeLoop) else _polygon_shape)(
             loop, area if area is not None else AreaForm())
         res = continuum_series(group, shape.vertices, shape.periods, M, rep=rep_name,

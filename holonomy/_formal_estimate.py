@@ -35,7 +35,9 @@ import numpy as np
 from noise import block_rng
 
 from ._estimate import BlockSums, EstimateResult
+from ._lattice_series import gauss_axial_factors, lattice_loadings
 from ._sampling import WilsonProblem
+from ._schemes import SCHEMES
 from ._solver import ordered_product
 
 __all__ = ["formal_schemes", "formal_block", "formal_estimate", "check_formal_scheme"]
@@ -44,8 +46,6 @@ __all__ = ["formal_schemes", "formal_block", "formal_estimate", "check_formal_sc
 def formal_schemes() -> tuple[str, ...]:
     """The registered schemes with a formal sampler (``Scheme.formal``): their links
     are exponentials of the Gaussian noise, which continue to signed variances."""
-    from ._schemes import SCHEMES
-
     return tuple(name for name, cls in SCHEMES.items() if cls.formal)
 
 
@@ -60,8 +60,6 @@ def check_formal_scheme(scheme: str) -> None:
 
 def _factors(problem: WilsonProblem):
     """Per loop ``(labels, signs or loadings)`` and the shared labels' measures."""
-    from ._lattice_series import gauss_axial_factors, lattice_loadings
-
     if problem.scheme.kind == "algebra":   # links exp(-S): interval noises
         per_loop = [lattice_loadings(problem, i, merge=False)[0]
                     for i in range(len(problem.loops))]

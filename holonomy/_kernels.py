@@ -23,6 +23,7 @@ import numpy as np
 
 from ._solver import MatrixStorage, QuaternionStorage
 from .groups import su2_heat_quaternions
+from .groups._heat import _IMAGE_LOG_TOL, _TAU_REJECT, sample_su2_angle
 
 __all__ = ["MatrixKernel", "QuaternionKernel", "FastMatrixKernel", "FastQuaternionKernel",
            "kernel_for", "kernel_path", "fast_available", "KERNEL_ENV"]
@@ -190,8 +191,6 @@ class FastQuaternionKernel(QuaternionKernel):
         return [out[:, j] for j in range(out.shape[1])]
 
     def heat(self, t, size, rng):
-        from .groups._heat import _IMAGE_LOG_TOL, _TAU_REJECT, sample_su2_angle
-
         t = np.asarray(t, float)
         col = (t / (4.0 * self.group.k)).reshape(-1)  # tau per column
         m = col.size

@@ -24,17 +24,22 @@ References
 from __future__ import annotations
 
 import numbers
+from typing import TYPE_CHECKING
 
 import numpy as np
+import sympy
 
-from ._sampling import LatticeProblem
+from discretize import AreaForm
+
+if TYPE_CHECKING:  # annotations only: the problem classes import the schemes
+    from ._sampling import LatticeProblem
 from ._series import SeriesResult, exp_product_series, factor_product_series
 
 __all__ = ["lattice_covariance", "lattice_loadings", "lattice_series", "gauss_loadings",
            "gauss_series", "wilson_series"]
 
 
-def lattice_loadings(problem: LatticeProblem, loop_index: int = 0, *, merge: bool = True
+def lattice_loadings(problem: "LatticeProblem", loop_index: int = 0, *, merge: bool = True
                      ) -> tuple[np.ndarray, np.ndarray]:
     """The step exponents as sums of independent interval noises: ``(U, mu)``.
 
@@ -70,7 +75,7 @@ def lattice_loadings(problem: LatticeProblem, loop_index: int = 0, *, merge: boo
     return patterns, merged
 
 
-def lattice_covariance(problem: LatticeProblem, loop_index: int = 0) -> np.ndarray:
+def lattice_covariance(problem: "LatticeProblem", loop_index: int = 0) -> np.ndarray:
     """The matrix C (per unit coupling) of the loop's step exponents A_e.
 
     Steps on the reference line (identity links) are left out. Returns an (m, m)
@@ -81,7 +86,7 @@ def lattice_covariance(problem: LatticeProblem, loop_index: int = 0) -> np.ndarr
     return (U * mu) @ U.T
 
 
-def lattice_series(problem: LatticeProblem, loop_index: int = 0, order: int = 4, *,
+def lattice_series(problem: "LatticeProblem", loop_index: int = 0, order: int = 4, *,
                    exact: bool = False) -> SeriesResult:
     """Coefficients c_0..c_order of the ``linear`` scheme's Wilson loop in lambda.
 
@@ -107,8 +112,6 @@ def lattice_series(problem: LatticeProblem, loop_index: int = 0, order: int = 4,
         raise ValueError(f"`loop_index` must be in [0, {len(problem.loops)}), got {loop_index!r}.")
     U, mu = lattice_loadings(problem, loop_index)
     if exact:
-        import sympy
-
         h = problem.field.spacing
         # interval measures are integer multiples of h^2 for a constant density
         mu = np.array([sympy.nsimplify(v, rational=True, tolerance=1e-12 * max(1.0, h * h))
@@ -141,7 +144,7 @@ def _wound_simple(lattice_loop) -> tuple[np.ndarray, int] | None:
     return np.sign(w), turns
 
 
-def gauss_axial_factors(problem: LatticeProblem, loop_index: int = 0
+def gauss_axial_factors(problem: "LatticeProblem", loop_index: int = 0
                         ) -> list[tuple[int, float]]:
     """The ``gauss`` holonomy in axial gauge as one-cell factors ``(cell, sign)``.
 
@@ -169,7 +172,7 @@ def gauss_axial_factors(problem: LatticeProblem, loop_index: int = 0
     return out
 
 
-def gauss_loadings(problem: LatticeProblem, loop_index: int = 0
+def gauss_loadings(problem: "LatticeProblem", loop_index: int = 0
                    ) -> tuple[np.ndarray, np.ndarray, int, str]:
     """The ``gauss`` scheme's holonomy as a product of one-cell exponentials.
 
@@ -207,7 +210,7 @@ def gauss_loadings(problem: LatticeProblem, loop_index: int = 0
     return U, mu, 1, "axial gauge"
 
 
-def gauss_series(problem: LatticeProblem, loop_index: int = 0, order: int = 4, *,
+def gauss_series(problem: "LatticeProblem", loop_index: int = 0, order: int = 4, *,
                  exact: bool = False) -> SeriesResult:
     """Coefficients c_0..c_order of the ``gauss`` scheme's Wilson loop in lambda.
 
@@ -232,8 +235,6 @@ def gauss_series(problem: LatticeProblem, loop_index: int = 0, order: int = 4, *
                                  rep=problem.rep, exact=exact)
     else:
         if exact:
-            import sympy
-
             h = problem.field.spacing
             mu = np.array([sympy.nsimplify(v, rational=True, tolerance=1e-12 * max(1.0, h * h))
                            for v in mu], dtype=object)
@@ -247,8 +248,6 @@ def _bessel_asymptotic(nu: int, order: int):
     """Coefficients of ``I_nu(x) sqrt(2 pi x) e^{-x} ~ sum_k (-1)^k a_k(nu) y^k``,
     ``y = 1/x``, ``a_k = prod_{i<=k} (4 nu^2 - (2i - 1)^2) / (k! 8^k)`` (Abramowitz and
     Stegun 9.7.1), as sympy Rationals up to ``y^order``."""
-    import sympy
-
     out, a = [], sympy.Integer(1)
     for k in range(order + 1):
         if k:
@@ -266,7 +265,7 @@ def _ratio_series(num: list, den: list, order: int) -> list:
     return q
 
 
-def wilson_series(problem: LatticeProblem, loop_index: int = 0, order: int = 4
+def wilson_series(problem: "LatticeProblem", loop_index: int = 0, order: int = 4
                   ) -> SeriesResult:
     """Weak-coupling expansion of the ``wilson`` scheme's lattice Wilson loop.
 
@@ -286,10 +285,6 @@ def wilson_series(problem: LatticeProblem, loop_index: int = 0, order: int = 4
     .. [2] D. J. Gross and E. Witten, Phys. Rev. D 21 (1980) 446-453 (independent
        plaquettes in axial gauge on the plane).
     """
-    import sympy
-
-    from discretize import AreaForm
-
     if isinstance(order, bool) or not isinstance(order, numbers.Integral) or order < 0:
         raise ValueError(f"`order` must be an integer >= 0, got {order!r}.")
     g = problem.group

@@ -54,6 +54,8 @@ import numpy as np
 
 from noise import ArgumentError
 
+from ._continuum_series import exact_series
+from ._lattice_series import gauss_series, lattice_series, wilson_series
 from .exact import (NOT_AVAILABLE, LatticeValue, gaussian_scheme_value, heat_lattice_value,
                     wilson_action_value)
 
@@ -183,8 +185,6 @@ class LinearScheme(Scheme):
         return _abelian_or(problem, i, "linear")
 
     def series(self, problem, i: int, order: int, *, exact: bool = False):
-        from ._lattice_series import lattice_series
-
         return lattice_series(problem, i, order, exact=exact)
 
 
@@ -203,8 +203,6 @@ class GaussScheme(Scheme):
         return _abelian_or(problem, i, "gauss")
 
     def series(self, problem, i: int, order: int, *, exact: bool = False):
-        from ._lattice_series import gauss_series
-
         return gauss_series(problem, i, order, exact=exact)
 
     def _plaquettes_impl(self, kernel, noise, variances, rng, size):
@@ -235,8 +233,6 @@ class HeatScheme(Scheme):
     def series(self, problem, i: int, order: int, *, exact: bool = False):
         """The continuum series of the loop as snapped (exact for lattice loops): the
         Taylor coefficients of the exact evaluation (:func:`holonomy.exact_series`)."""
-        from ._continuum_series import exact_series
-
         res = exact_series(problem.group, problem.rep, problem.lattice_loops[i], order,
                            area=problem.field.area)
         if res is None:
@@ -329,8 +325,6 @@ class WilsonScheme(Scheme):
     def series(self, problem, i: int, order: int, *, exact: bool = False):
         """The weak-coupling expansion of the lattice value (asymptotic;
         :func:`holonomy.wilson_series`)."""
-        from ._lattice_series import wilson_series
-
         return wilson_series(problem, i, order)
 
     def series_expands(self, problem) -> str:

@@ -14,7 +14,9 @@ from typing import Sequence
 
 import numpy as np
 
-from holonomy import LatticeProblem, get_scheme, lattice_covariance
+from holonomy import LatticeProblem, exact_series, get_scheme, lattice_covariance
+from holonomy._lattice_series import gauss_loadings
+from holonomy._series import _key_graph
 
 from ._problems import build_lattice
 from ._references import NOT_AVAILABLE, loop_references
@@ -145,8 +147,6 @@ def _bounded(limit: tuple[float, float], fn, *args, **kwargs):
 def _factor_count(scheme: str, problem: LatticeProblem, i: int) -> int:
     """Exponentials in the Wick expansion of loop ``i`` (what the exact route pays for)."""
     if scheme == "gauss":
-        from holonomy._lattice_series import gauss_loadings
-
         return gauss_loadings(problem, i)[0].shape[0]
     return lattice_covariance(problem, i).shape[0]
 
@@ -190,8 +190,6 @@ def _expand(limit, fn, *args, **kwargs):
 
 
 def _continuum_series(group, rep, loop, order, area):
-    from holonomy import exact_series
-
     res = exact_series(group, rep, loop, order, area=area)
     if res is None:
         raise NotImplementedError("no exact route applies to the loop as specified")
@@ -217,8 +215,6 @@ def series_results(spec: Spec | str | os.PathLike, order: int, *, loops: Sequenc
     is a :class:`Spec` or the path of a spec file. The command has one time budget for
     all its loops (:func:`_bounded`); exact rationals come after every loop's floats.
     """
-    from holonomy._series import _key_graph
-
     spec = spec_arg(spec, "series")
     order = _order_iv(order)
     if loops is not None and (isinstance(loops, (str, bytes)) or not all(

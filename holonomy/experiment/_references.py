@@ -15,7 +15,8 @@ from dataclasses import dataclass
 
 from discretize import Loop
 from holonomy import LatticeProblem, get_scheme
-from holonomy.exact import NOT_AVAILABLE, heat_lattice_value, loop_value
+from holonomy.exact import (NOT_AVAILABLE, exact_wilson_loop, gaussian_matrix, heat_lattice_value,
+                            loop_value)
 
 __all__ = ["LoopReference", "lattice_references", "loop_references", "NOT_AVAILABLE",
            "gaussian_matrix_field", "GAUSSIAN_MATRIX_ORDER"]
@@ -29,8 +30,6 @@ def gaussian_matrix_field(group, rep, loop, coupling, area, order: int = GAUSSIA
     """The ``gaussian_matrix`` field of a loop: the Gaussian-matrix prescription
     (:func:`holonomy.exact.gaussian_matrix`) for a simple loop, with its series and the
     first order at which it differs from the exact value; ``(None, note)`` otherwise."""
-    from holonomy.exact import exact_wilson_loop, gaussian_matrix
-
     try:
         ev = exact_wilson_loop(group, rep, loop, coupling=1.0, area=area)
     except (ValueError, NotImplementedError, ArithmeticError) as exc:
