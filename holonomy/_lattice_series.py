@@ -188,7 +188,6 @@ def gauss_loadings(problem: "LatticeProblem", loop_index: int = 0
     - ``"axial gauge"``: any other loop: each horizontal step's link written as the
       ordered product of the plaquettes of its column (`gauss_axial_factors`).
     """
-    cm = np.asarray(problem.plan.cell_measures, dtype=float)
     lat = problem.lattice_loops[loop_index]
     wound = _wound_simple(lat)  # the law of a loop does not depend on the gauge
     if wound is not None:
@@ -206,7 +205,7 @@ def gauss_loadings(problem: "LatticeProblem", loop_index: int = 0
     U = np.zeros((len(rows_out), len(labels)))
     for r, (c, v) in enumerate(rows_out):
         U[r, where[c]] = v
-    mu = cm.ravel()[labels]
+    mu = np.asarray(problem.plan.cell_measures, dtype=float).ravel()[labels]
     return U, mu, 1, "axial gauge"
 
 

@@ -691,9 +691,6 @@ def factor_product_series(group: Any, loadings: Any, variances: Any, order: int,
     w = int(turns)
     if w < 1:
         raise ValueError(f"`turns` must be an integer >= 1; got {turns!r}.")
-    if w > 1 and exact:  # exact group factors need the defining representation
-        U = np.concatenate([U] * w, axis=0)
-        w = 1
     mu = np.asarray(variances, dtype=object if np.asarray(variances).dtype == object
                     else None)
     if U.ndim != 2 or mu.shape != (U.shape[1],):
@@ -713,6 +710,11 @@ def factor_product_series(group: Any, loadings: Any, variances: Any, order: int,
         cov = (U * mu) @ U.T
     C, M, rep_name, B, D, exact, c_exact = _exp_product_series_iv(group, cov, order, rep,
                                                                   exact)
+    if w > 1 and (exact or c_exact or D ** w > 64):
+        # the tensor-power route needs float group factors of a small pi^{(x)w}: else
+        # the product is written out w times
+        return factor_product_series(group, np.concatenate([U] * w, axis=0), variances,
+                                     order, rep=rep, exact=exact)
     if c_exact:
         conv = np.vectorize(_to_exact, otypes=[object])
         # float loadings (+-1, 0) are exact binary numbers: keep them rational
@@ -725,9 +727,6 @@ def factor_product_series(group: Any, loadings: Any, variances: Any, order: int,
         closing = U.astype(C.dtype)
     twist = None
     if w > 1:
-        if c_exact or B.shape[1] ** w > 64:
-            U = np.concatenate([U] * w, axis=0)
-            return factor_product_series(group, U, variances, order, rep=rep, exact=exact)
         B, twist = _power_basis(B, w)
         B = B.astype(complex)
     states = _transfer(opening, closing, np.diagonal(C).copy(), M, c_exact)
