@@ -100,10 +100,12 @@ def _weyl(family, m):
     return out
 
 
-def _class_law(G, t, M=240):
+def _class_law(G, t, M=None):
     """Grid points of the torus, their weights (the heat-kernel eigenangle density) and
-    Re tr U there, from the Weyl character formula."""
+    Re tr U there, from the Weyl character formula. The default grid resolves the
+    density's width sqrt(t / k) (a coarser one biases the reference CDF at small t)."""
     fam, n, k = G.family, G.n, G.k
+    M = M or max(240, int(180 / np.sqrt(t / k)))
     if fam == "SU":
         m, kind, c = n, "SU", k
         rho = np.arange(n - 1, -1, -1, dtype=float)
@@ -115,7 +117,7 @@ def _class_law(G, t, M=240):
         kind = "SO_even" if n % 2 == 0 else "SO_odd"
         rho = np.arange(m - 1, -1, -1, dtype=float) + (0.0 if n % 2 == 0 else 0.5)
     W = _weyl(kind, m)
-    L = 40
+    L = max(40, int(12 / np.sqrt(t / k)))  # e^{-c t / 2} below ~1e-20 beyond
     lams = []
     for lam in itertools.product(range(L), repeat=m):
         if any(lam[i] < lam[i + 1] for i in range(m - 1)):
