@@ -5,8 +5,10 @@ loop, star polygons {5/2}, {7/2}), the script times ``evaluate_polygon`` cold (m
 tensors not cached) and warm, and prints the ratio of the cold time to the 1-second
 target and to a baseline measured in the same run: one ``scipy.linalg.expm`` of a
 64 x 64 matrix (a unit of machine speed). It then shows where the route stops being
-practical: a loop wound n times (the reduced word is X^n, the moment matrix is
-N^n x N^n) for SU(2) and U(3), and the exact (sympy) route.
+practical: a loop wound n times through the tensor route (SO(3): no closed form, the
+moment matrix is N^n x N^n), the same loops for SU(2) and U(3) through the Adams
+closed form, U(N) on a loop with a nested lobe for N = 2 .. 32 (the reduced word X^2 has
+a closed form, so N = 32 should cost about what N = 2 costs), and the exact (sympy) route.
 
 Run ``python3 benchmarks/bench_exact.py``; ``main()`` returns the table (list of dicts).
 On a loaded machine, set ``OPENBLAS_NUM_THREADS=1``: the eigen-decompositions are small
@@ -75,9 +77,11 @@ def main():
         rows.append(row)
         print(f"{name:<14}{arr.n_crossings:>6}{arr.n_faces:>6}{len(r.word):>6}"
               f"{len(r.reduced.word):>8}{tc:>9.4f}{tw:>9.4f}{tc:>9.4f}{tc / base:>10.1f}")
-    print("\nwound loops (reduced word X^n, moment matrix N^n x N^n), cold:")
+    print("\nwound loops (reduced word X^n), cold: SO(3) tensor route (N^n x N^n), "
+          "SU(2) and U(3) Adams closed form:")
     sq = LOOPS["square"]
-    for fam, n_, metric, turns in (("SU", 2, "physics", (4, 8, 10, 11)),
+    for fam, n_, metric, turns in (("SO", 3, "trace", (3, 5, 6)),
+                                   ("SU", 2, "physics", (4, 8, 10, 11)),
                                    ("U", 3, "large-n", (3, 5, 6, 7))):
         G = make_group(fam, n_, metric)
         for n in turns:
@@ -86,6 +90,17 @@ def main():
             rows.append(dict(group=f"{fam}({n_})", loop=f"square x{n}", dim=D, cold=tc,
                              ratio_base=tc / base))
             print(f"  {fam}({n_}) n={n:<3} N^n={D:<6} cold {tc:8.3f} s  ({tc / base:9.1f} x base)")
+    print("\nU(N) on a loop with one nested lobe (reduced word X^2), cold (the group and "
+          "its representation built beforehand):")
+    nested = [(2, 0), (4, 0), (4, 4), (0, 4), (0, 1), (3, 1), (3, 3), (2, 3)]
+    t2 = None
+    for N in (2, 8, 16, 32):
+        G = make_group("U", N, "large-n")
+        G.rep("fundamental")
+        tc, r = _cold(lambda: evaluate_polygon(G, nested, coupling=0.5))
+        t2 = tc if t2 is None else t2
+        rows.append(dict(group=f"U({N})", loop="nested", cold=tc, ratio_n2=tc / t2))
+        print(f"  U({N:<2}) {tc:8.4f} s  ({tc / t2:6.2f} x U(2); route {r.method})")
     print("\nexact (sympy) route, cold:")
     G = make_group("SU", 2, "physics")
     for name in ("figure-eight", "lattice-6x", "star-5/2"):

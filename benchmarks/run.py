@@ -355,6 +355,14 @@ def fig_exact_and_series(quick: bool) -> None:
     crossings = len(arrangement(six).crossings)
     t = best_time(lambda: evaluate_polygon(su2, six, turns=1, coupling=1.0), repeat=1)
     record(f"7 exact: SU(2) loop with {crossings} crossings, seconds", t, "< 1 s", t < 1.0, "s")
+    # a reduced word with a closed form (X^2, nested lobe): U(32) as fast as U(2)
+    nested = np.array([(2, 0), (4, 0), (4, 4), (0, 4), (0, 1), (3, 1), (3, 3), (2, 3)], float)
+    t_small = best_time(lambda: evaluate_polygon(make_group("U", 2, "large-n"), nested,
+                                                 coupling=0.5), repeat=3)
+    t_big = best_time(lambda: evaluate_polygon(make_group("U", 32, "large-n"), nested,
+                                               coupling=0.5), repeat=3)
+    record("7 exact: U(32) / U(2) time on a nested lobe", t_big / t_small, "< 3",
+           t_big / t_small < 3.0)
     from holonomy import lattice_series
     moves = "R2 U1 R2 U1 R2 U1 R2 U3 L2 D1 L2 D1 L2 D1 L2 D3"  # 16 horizontal unit edges
     loop = Loop.from_moves(moves, start=(0.0, 0.0), spacing=0.25)

@@ -15,7 +15,8 @@ surface_partition_function, outer_face_kernel
 
 Dispatcher
 ----------
-ExactValue, exact_wilson_loop
+ExactValue, exact_wilson_loop, exact_correlator (several loops), exact_master_field
+(U(N), N -> infinity)
 
 Exact values of lattice problems (what each scheme samples)
 -----------------------------------------------------------

@@ -92,7 +92,7 @@ def adams_decomposition(weights, n: int = 1) -> dict[tuple[int, ...], int]:
             continue
         order = np.argsort(-v, kind="stable")
         # sign of the sorting permutation: parity of its inversions
-        inv = sum(1 for i in range(N) for j in range(i + 1, N) if order[i] > order[j])
+        inv = int(np.count_nonzero(np.triu(order[:, None] > order[None, :], 1)))
         lam = tuple((v[order] - rho).tolist())
         out[lam] += -1 if inv % 2 else 1
     return {lam: a for lam, a in out.items() if a}

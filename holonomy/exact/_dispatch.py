@@ -38,7 +38,8 @@ from ._simple import simple_loop
 from ._unitary import unitary_wound_loop
 from ._word import lasso_word
 
-__all__ = ["ExactValue", "exact_wilson_loop", "lattice_polygon"]
+__all__ = ["ExactValue", "exact_wilson_loop", "exact_correlator", "exact_master_field",
+           "lattice_polygon"]
 
 
 @dataclass(frozen=True)
@@ -251,3 +252,152 @@ def _general_route(group, rep, shape: _Shape, lam: float) -> ExactValue:
     return ExactValue(complex(out.value), "polygon-evaluation",
                       details={"turns": shape.periods, "route": out.method,
                                "evaluation": out})
+
+
+def _curve_of(loop):
+    """``(vertices, turns)`` of a Loop or a LatticeLoop (its corners)."""
+    if isinstance(loop, LatticeLoop):
+        return lattice_polygon(loop)
+    return loop.vertices, loop.turns
+
+
+def _scalar_iv(coupling, area):
+    if isinstance(coupling, bool) or not isinstance(coupling, numbers.Real):
+        raise TypeError(f"`coupling` must be a real number > 0, got {coupling!r}.")
+    if not (np.isfinite(coupling) and coupling > 0):
+        raise ValueError(f"`coupling` must be a finite number > 0, got {coupling!r}.")
+    if area is None:
+        area = AreaForm()
+    elif not isinstance(area, AreaForm):
+        raise TypeError(f"`area` must be a discretize AreaForm or None, got {type(area).__name__}.")
+    return float(coupling), area
+
+
+def exact_correlator(group, rep, loops, *, coupling: float, area=None) -> ExactValue:
+    r"""Exact correlator ``E[prod_i chi_pi(H_i) / d_pi]`` of several loops.
+
+    The loops (polygons or lattice loops, drawn together) are words in the same
+    independent face variables of their joint arrangement
+    (:func:`discretize.joint_arrangement`); the expectation is one evaluation
+    (:func:`holonomy.exact.evaluate_polygons`). Routes:
+
+    1. ``u1-windings``: U(1) with a charge q (``fundamental``: q = 1, ``power:p``: p):
+       ``exp(-lambda c sum_F (sum_i n_{i,F})^2 mu(F) / 2)``, ``c = q^2 / k``;
+    2. ``polygon-evaluation``: otherwise (any representation with matrices).
+
+    Parameters
+    ----------
+    group : Group or None
+        None: the U(N) master field (N -> infinity, ``large-n``), where the correlator
+        is the product of the loops' master fields.
+    rep : str
+    loops : sequence of Loop or LatticeLoop
+    coupling : float
+    area : discretize.AreaForm, optional
+
+    Returns
+    -------
+    ExactValue
+
+    Raises
+    ------
+    ExactRouteError
+        Naming the limit hit.
+
+    References
+    ----------
+    .. [1] T. Levy, Mem. Amer. Math. Soc. 166 (2003), ch. 2 (joint law of the lassos of
+       a graph).
+    .. [2] A. Sengupta, Mem. Amer. Math. Soc. 126 (1997), no. 600 (the abelian case).
+    """
+    from discretize import joint_arrangement
+
+    from ._evaluate import evaluate_polygons, face_measures
+
+    lam, area = _scalar_iv(coupling, area)
+    loops = list(loops)
+    if len(loops) < 1 or not all(isinstance(lp, (Loop, LatticeLoop)) for lp in loops):
+        raise TypeError("`loops` must be a sequence of discretize Loop or LatticeLoop.")
+    curves, turns = zip(*(_curve_of(lp) for lp in loops))
+    try:
+        if group is not None and group.family == "U" and group.n == 1:
+            rep_obj = group.rep(rep) if isinstance(rep, str) else rep
+            q = _power_of(rep_obj)
+            if q is not None:
+                arr = joint_arrangement([np.asarray(c, float) for c in curves], list(turns))
+                n = arr.winding.astype(float)
+                mu = np.asarray(face_measures(arr, area), dtype=float)
+                total = float(np.sum(n * n * mu))
+                c = q * q / group.k
+                return ExactValue(complex(np.exp(-lam * c * total / 2)), "u1-windings",
+                                  details={"casimir": c, "sum_n2_mu": total})
+        out = evaluate_polygons(group, [np.asarray(c, float) for c in curves], list(turns),
+                                coupling=lam, rep=rep, area_density=area)
+    except ExactRouteError:
+        raise
+    except ValueError as exc:
+        raise ExactRouteError("geometry", str(exc)) from None
+    return ExactValue(complex(out.value), "polygon-evaluation",
+                      details={"route": out.method, "evaluation": out})
+
+
+def exact_master_field(loop, *, coupling: float, area=None, rep="fundamental") -> ExactValue:
+    r"""The U(N) master field ``lim_{N -> infinity} E[tr_N H]`` (metric ``large-n``).
+
+    Wound loops (a simple loop wound n times) are Biane's moments of the free unitary
+    Brownian motion (``free-unitary``); any other planar loop is its lasso word
+    evaluated with free unitary Brownian motions (``master-field``;
+    :func:`holonomy.exact.master_field_word`), which satisfies the Makeenko-Migdal
+    equations with no area on the unbounded face.
+
+    Parameters
+    ----------
+    loop : discretize.Loop or discretize.LatticeLoop
+    coupling : float
+        lambda > 0.
+    area : discretize.AreaForm, optional
+    rep : {"fundamental", "power:p"}
+        The normalized trace of H, or of H^p.
+
+    References
+    ----------
+    .. [1] P. Biane, Fields Inst. Commun. 12 (1997) 1-19.
+    .. [2] T. Levy, "The master field on the plane", arXiv:1112.2452 (2011).
+    .. [3] V. A. Kazakov, I. K. Kostov, Nucl. Phys. B 176 (1980) 199-215.
+
+    Examples
+    --------
+    >>> from discretize import Loop
+    >>> r = exact_master_field(Loop.polygon([(0, 0), (1, 0), (1, 1), (0, 1)], turns=2),
+    ...                        coupling=1.0)
+    >>> r.method, round(r.value.real, 12)  # nu_2(1) = e^{-1} (1 - 1)
+    ('free-unitary', 0.0)
+    """
+    from ._evaluate import _large_n_setup, evaluate_polygon, evaluate_words
+    from ._unitary import free_unitary_moment
+    from ._word import lasso_words
+
+    lam, area = _scalar_iv(coupling, area)
+    if not isinstance(loop, (LatticeLoop, Loop)):
+        raise TypeError(
+            f"`loop` must be a discretize LatticeLoop or Loop, got {type(loop).__name__}.")
+    setup = _large_n_setup(rep)
+    shape = (_lattice_shape if isinstance(loop, LatticeLoop) else _polygon_shape)(loop, area)
+    if shape.measures is not None and shape.turns >= 1:
+        enclosed = float(np.sum(np.abs(shape.windings) * shape.measures)) / shape.turns
+        n = setup.power * shape.turns
+        return ExactValue(complex(free_unitary_moment(n, lam * enclosed)), "free-unitary",
+                          details={"turns": n, "measure": enclosed})
+    try:
+        if shape.arrangement is not None:  # a curve: its exact face areas
+            out = evaluate_words(None, lasso_words(shape.arrangement),
+                                 [lam * m for m in shape.measures], rep=rep, large_n=True)
+        else:
+            out = evaluate_polygon(None, shape.vertices, shape.periods, coupling=lam,
+                                   rep=rep, area_density=shape.area)
+    except ExactRouteError:
+        raise
+    except ValueError as exc:
+        raise ExactRouteError("geometry", str(exc)) from None
+    return ExactValue(complex(out.value), "master-field",
+                      details={"route": out.method, "evaluation": out})

@@ -230,9 +230,9 @@ def _group_iv(group, rep):
         mats = np.asarray(rep_obj.algebra_matrix(np.asarray(group.basis)))
     except ValueError as exc:
         raise ExactRouteError("representation", f"{name!r} has no matrices ({exc})") from None
-    C = np.einsum("aij,ajk->ik", mats, mats)
-    c = float(-np.trace(C).real / C.shape[0])
-
+    c = rep_obj.casimir
+    if c is None:  # a reducible representation: the mean Casimir (dropping is off)
+        c = float(-np.einsum("aij,aji->", mats, mats).real / mats.shape[-1])
     weights = class_weights(group, rep_obj)
     highest = None
     if weights is not None:

@@ -115,3 +115,20 @@ class TestCorrelatorsSU2:
         tx, ty = self.lam * 1.0, self.lam * 3.0
         ref = np.exp(-ty) * (5 * np.exp(-3 * tx) + 3 * np.exp(-tx) + 1) / 9
         assert r.value == pytest.approx(ref, abs=1e-12)
+
+
+class TestDispatcher:
+    def test_u1_route_and_lattice_loops(self):
+        from holonomy.exact import exact_correlator
+
+        g = Grid((0.0, 0.0), 0.5, (12, 12))
+        a, b = Loop.polygon(A), Loop.polygon(CROSSING)
+        r = exact_correlator(U1, "fundamental", [a, b], coupling=0.5)
+        # faces: A only (3), B only (3), both (1, winding 2): sum n^2 |F| = 10
+        assert r.method == "u1-windings"
+        assert r.value == pytest.approx(np.exp(-0.5 * 10 / 2), abs=1e-12)
+        lat = exact_correlator(SU2, "fundamental", [a.snap(g), b.snap(g)], coupling=0.5)
+        cont = exact_correlator(SU2, "fundamental", [a, b], coupling=0.5)
+        ref = np.exp(-3 * 0.5 * 6 / 8) * (3 * np.exp(-0.5) + 1) / 4
+        assert lat.value == pytest.approx(ref, abs=1e-12)
+        assert cont.value == pytest.approx(ref, abs=1e-12)

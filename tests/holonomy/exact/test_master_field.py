@@ -112,3 +112,19 @@ def test_makeenko_migdal(poly):
         w1, w2 = _split_words(arr, v)
         rhs = -phi(times, w1) * phi(times, w2)
         assert lhs == pytest.approx(rhs, abs=1e-7)
+
+
+def test_dispatcher_master_field():
+    from discretize import Grid, Loop
+
+    from holonomy.exact import exact_master_field
+
+    r = exact_master_field(Loop.polygon(SQUARE, turns=3), coupling=0.8)
+    assert r.method == "free-unitary" and r.value == pytest.approx(biane(3, 0.8), abs=1e-12)
+    lat = Loop.polygon(NESTED).snap(Grid((0.0, 0.0), 1.0, (6, 6)))
+    r = exact_master_field(lat, coupling=0.5)
+    # Kazakov and Kostov 1980: a loop with one nested lobe of area A2 (winding 2) and
+    # the rest A1 (winding 1): (1 - A2) exp(-A1 / 2 - A2) (lambda = 1 units)
+    a2, a1 = 0.5 * 2.0, 0.5 * 10.0
+    assert r.method == "master-field"
+    assert r.value == pytest.approx((1 - a2) * np.exp(-a1 / 2 - a2), abs=1e-12)
