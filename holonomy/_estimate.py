@@ -25,7 +25,8 @@ from typing import Sequence
 
 import numpy as np
 
-__all__ = ["BlockSums", "LoopEstimate", "EstimateResult", "combine_blocks"]
+__all__ = ["BlockSums", "LoopEstimate", "EstimateResult", "CorrelatorEstimate",
+           "combine_blocks", "correlator_subsets", "estimate_correlators"]
 
 
 @dataclass
@@ -49,14 +50,29 @@ class BlockSums:
     m2_re: np.ndarray
     m2_im: np.ndarray
     reprojected: bool = False
+    # products prod_{i in S} W[s, i] over the loop sets S of the spec's correlators
+    # (all their subsets, :func:`correlator_subsets`): complex sums and the centred sums
+    # of outer products of the vector [Re P_S, Im P_S] (for the delta method)
+    subsets: tuple = ()
+    sub_sum: np.ndarray = field(default_factory=lambda: np.zeros(0, complex))
+    sub_m2: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
 
     @classmethod
     def from_values(cls, block: int, values: np.ndarray, drift: float,
-                    reprojected: bool = False) -> "BlockSums":
-        """Build the sums from per-sample values of shape (count, loops)."""
+                    reprojected: bool = False, subsets=()) -> "BlockSums":
+        """Build the sums from per-sample values of shape (count, loops); ``subsets``
+        lists the loop-index sets whose products are summed (correlators)."""
         values = np.asarray(values, dtype=complex)
         re, im = values.real, values.imag
         prod_re = (values[:, :, None] * values[:, None, :]).real
+        subsets = tuple(tuple(int(i) for i in S) for S in subsets)
+        if subsets:
+            prods = np.stack([np.prod(values[:, list(S)], axis=1) for S in subsets], axis=1)
+            x = np.concatenate([prods.real, prods.imag], axis=1)
+            x = x - x.mean(axis=0)
+            sub_sum, sub_m2 = prods.sum(axis=0), x.T @ x
+        else:
+            sub_sum, sub_m2 = np.zeros(0, complex), np.zeros((0, 0))
         return cls(
             block=int(block),
             count=int(values.shape[0]),
@@ -68,6 +84,7 @@ class BlockSums:
             m2_re=((re - re.mean(axis=0)) ** 2).sum(axis=0),
             m2_im=((im - im.mean(axis=0)) ** 2).sum(axis=0),
             reprojected=bool(reprojected),
+            subsets=subsets, sub_sum=sub_sum, sub_m2=sub_m2,
         )
 
     def to_dict(self) -> dict:
@@ -84,6 +101,10 @@ class BlockSums:
             "reprojected": self.reprojected,
             "m2_re": self.m2_re.tolist(),
             "m2_im": self.m2_im.tolist(),
+            "subsets": [list(S) for S in self.subsets],
+            "sub_re": self.sub_sum.real.tolist(),
+            "sub_im": self.sub_sum.imag.tolist(),
+            "sub_m2": self.sub_m2.tolist(),
         }
 
     @classmethod
@@ -108,6 +129,11 @@ class BlockSums:
             m2_re=np.asarray(data["m2_re"], float),
             m2_im=np.asarray(data["m2_im"], float),
             reprojected=bool(data.get("reprojected", False)),
+            subsets=tuple(tuple(int(i) for i in S) for S in data.get("subsets", ())),
+            sub_sum=(np.asarray(data.get("sub_re", []), float)
+                     + 1j * np.asarray(data.get("sub_im", []), float)),
+            sub_m2=np.asarray(data.get("sub_m2", []), float).reshape(
+                2 * len(data.get("sub_re", [])), -1),
         )
         n_loops = out.sum_re.shape
         if (len(n_loops) != 1 or out.count < 1
@@ -138,6 +164,26 @@ class LoopEstimate:
 
 
 @dataclass
+class CorrelatorEstimate:
+    """The Monte Carlo estimate of a correlator ``E[prod_i W(i)]`` of several loops and
+    of its connected part (the joint cumulant; for two loops
+    ``E[W1 W2] - E[W1] E[W2]``), with standard errors of the real parts."""
+
+    loops: tuple
+    estimate: float
+    estimate_imag: float
+    stderr: float
+    connected: float
+    connected_imag: float
+    connected_stderr: float
+    samples: int
+
+    @property
+    def value(self) -> complex:
+        return complex(self.estimate, self.estimate_imag)
+
+
+@dataclass
 class EstimateResult:
     """All loops of one run, their correlators, and the seed record.
 
@@ -155,6 +201,7 @@ class EstimateResult:
     scheme: str
     path: str
     seed_record: dict = field(default_factory=dict)
+    correlator_estimates: list = field(default_factory=list)
 
     def __getitem__(self, name: str) -> LoopEstimate:
         for loop in self.loops:
@@ -182,7 +229,7 @@ def _stderr_centred(blocks, part: str, n: int) -> np.ndarray:
 
 def combine_blocks(blocks: Sequence[BlockSums], *, names: Sequence[str],
                    areas: Sequence[float], seed: int, block: int, scheme: str,
-                   path: str) -> EstimateResult:
+                   path: str, correlators: Sequence[Sequence[int]] = ()) -> EstimateResult:
     """Add per-block sums in block order and form estimates and standard errors.
 
     The blocks are sorted by index before adding, so the result does not depend on the
@@ -224,4 +271,101 @@ def combine_blocks(blocks: Sequence[BlockSums], *, names: Sequence[str],
         loops=loops, correlators=cross, correlator_stderr=cross_se, seed=int(seed),
         samples=n, block=int(block), n_blocks=len(blocks), scheme=scheme, path=path,
         seed_record={"entropy": int(seed), "spawn_keys": [[b.block] for b in blocks]},
+        correlator_estimates=estimate_correlators(blocks, correlators, names),
     )
+
+
+def correlator_subsets(correlators: Sequence[Sequence[int]]) -> tuple:
+    """Every non-empty subset of every correlator's loop indices, sorted: the products
+    a block sums so that correlators and their connected parts can be estimated."""
+    from itertools import combinations
+
+    out = set()
+    for c in correlators:
+        idx = sorted(set(int(i) for i in c))
+        for r in range(1, len(idx) + 1):
+            out.update(combinations(idx, r))
+    return tuple(sorted(out, key=lambda S: (len(S), S)))
+
+
+def _set_partitions(items):
+    if not items:
+        yield []
+        return
+    first, rest = items[0], items[1:]
+    for part in _set_partitions(rest):
+        yield [(first,)] + part
+        for k in range(len(part)):
+            yield part[:k] + [tuple(sorted((first,) + part[k]))] + part[k + 1:]
+
+
+def _cumulant(S, moment):
+    """Joint cumulant ``kappa(W_i, i in S)`` from the moments ``moment[T]`` of subsets T
+    (moment-cumulant formula: sum over set partitions pi of
+    ``(-1)^{|pi|-1} (|pi| - 1)! prod_B M_B``) and its gradient ``{T: d kappa / d M_T}``."""
+    from math import factorial
+
+    value = 0j
+    grad: dict = {}
+    for part in _set_partitions(list(S)):
+        coef = (-1) ** (len(part) - 1) * factorial(len(part) - 1)
+        blocks = [tuple(sorted(B)) for B in part]
+        value += coef * np.prod([moment[B] for B in blocks])
+        for k, B in enumerate(blocks):
+            others = np.prod([moment[C] for j, C in enumerate(blocks) if j != k])
+            grad[B] = grad.get(B, 0j) + coef * others
+    return value, grad
+
+
+def estimate_correlators(blocks: Sequence[BlockSums], correlators: Sequence[Sequence[int]],
+                         names: Sequence[str]) -> list:
+    """Correlators and their connected parts from the blocks' subset sums.
+
+    The means of the products over all samples give ``E[prod_{i in S} W(i)]`` for every
+    subset S; the connected part is their joint cumulant. Standard errors (of the real
+    parts) by the delta method: the gradient of the cumulant in the real and imaginary
+    parts of the subset means, against their per-sample covariance accumulated block by
+    block (centred sums combined pairwise [2]).
+
+    References
+    ----------
+    .. [1] L. Wasserman, "All of Statistics", Springer (2004), Thm. 5.15 (the delta
+       method).
+    .. [2] Chan, Golub and LeVeque (1979), STAN-CS-79-773 (pairwise combination of
+       centred sums).
+    """
+    if not correlators:
+        return []
+    blocks = sorted(blocks, key=lambda b: b.block)
+    subsets = correlator_subsets(correlators)
+    if any(tuple(b.subsets) != subsets for b in blocks):
+        raise ValueError("`blocks` were not summed for these correlators (their product "
+                         "sets differ); recompute the blocks")
+    n = sum(b.count for b in blocks)
+    total = np.sum([b.sub_sum for b in blocks], axis=0)
+    mean = total / n
+    x_mean = np.concatenate([mean.real, mean.imag])
+    m2 = np.zeros((2 * len(subsets),) * 2)
+    for b in blocks:
+        bm = b.sub_sum / b.count
+        d = np.concatenate([bm.real, bm.imag]) - x_mean
+        m2 += b.sub_m2 + b.count * np.outer(d, d)
+    cov = m2 / max(n - 1, 1)
+    index = {S: k for k, S in enumerate(subsets)}
+    moment = {S: mean[k] for S, k in index.items()}
+    S_n = len(subsets)
+    out = []
+    for c in correlators:
+        S = tuple(sorted(set(int(i) for i in c)))
+        k = index[S]
+        kappa, grad = _cumulant(S, moment)
+        g = np.zeros(2 * S_n)
+        for T, gt in grad.items():
+            g[index[T]] += gt.real
+            g[S_n + index[T]] -= gt.imag
+        out.append(CorrelatorEstimate(
+            loops=tuple(names[i] for i in c), estimate=float(mean[k].real),
+            estimate_imag=float(mean[k].imag), stderr=float(np.sqrt(cov[k, k] / n)),
+            connected=float(kappa.real), connected_imag=float(kappa.imag),
+            connected_stderr=float(np.sqrt(max(g @ cov @ g, 0.0) / n)), samples=n))
+    return out
