@@ -26,7 +26,7 @@ from typing import Sequence
 import numpy as np
 
 __all__ = ["BlockSums", "LoopEstimate", "EstimateResult", "CorrelatorEstimate",
-           "combine_blocks", "correlator_subsets", "estimate_correlators"]
+           "combine_blocks", "correlator_subsets", "estimate_correlators", "joint_cumulant"]
 
 
 @dataclass
@@ -133,7 +133,7 @@ class BlockSums:
             sub_sum=(np.asarray(data.get("sub_re", []), float)
                      + 1j * np.asarray(data.get("sub_im", []), float)),
             sub_m2=np.asarray(data.get("sub_m2", []), float).reshape(
-                2 * len(data.get("sub_re", [])), -1),
+                (2 * len(data.get("sub_re", [])),) * 2),
         )
         n_loops = out.sum_re.shape
         if (len(n_loops) != 1 or out.count < 1
@@ -299,7 +299,7 @@ def _set_partitions(items):
             yield part[:k] + [tuple(sorted((first,) + part[k]))] + part[k + 1:]
 
 
-def _cumulant(S, moment):
+def joint_cumulant(S, moment):
     """Joint cumulant ``kappa(W_i, i in S)`` from the moments ``moment[T]`` of subsets T
     (moment-cumulant formula: sum over set partitions pi of
     ``(-1)^{|pi|-1} (|pi| - 1)! prod_B M_B``) and its gradient ``{T: d kappa / d M_T}``."""
@@ -358,7 +358,7 @@ def estimate_correlators(blocks: Sequence[BlockSums], correlators: Sequence[Sequ
     for c in correlators:
         S = tuple(sorted(set(int(i) for i in c)))
         k = index[S]
-        kappa, grad = _cumulant(S, moment)
+        kappa, grad = joint_cumulant(S, moment)
         g = np.zeros(2 * S_n)
         for T, gt in grad.items():
             g[index[T]] += gt.real

@@ -39,7 +39,7 @@ from ._unitary import unitary_wound_loop
 from ._word import lasso_word
 
 __all__ = ["ExactValue", "exact_wilson_loop", "exact_correlator", "exact_master_field",
-           "lattice_polygon"]
+           "master_field_series", "lattice_polygon"]
 
 
 @dataclass(frozen=True)
@@ -373,21 +373,27 @@ def exact_master_field(loop, *, coupling: float, area=None, rep="fundamental") -
     >>> r.method, round(r.value.real, 12)  # nu_2(1) = e^{-1} (1 - 1)
     ('free-unitary', 0.0)
     """
-    from ._evaluate import _large_n_setup, evaluate_polygon, evaluate_words
-    from ._unitary import free_unitary_moment
-    from ._word import lasso_words
-
     lam, area = _scalar_iv(coupling, area)
     if not isinstance(loop, (LatticeLoop, Loop)):
         raise TypeError(
             f"`loop` must be a discretize LatticeLoop or Loop, got {type(loop).__name__}.")
+    value, method, details = _master_value(loop, lam, area, rep)
+    return ExactValue(value, method, details=details)
+
+
+def _master_value(loop, lam, area, rep):
+    """``(value, method, details)`` of the master field at a real or complex coupling."""
+    from ._evaluate import _large_n_setup, evaluate_polygon, evaluate_words
+    from ._unitary import free_unitary_moment
+    from ._word import lasso_words
+
     setup = _large_n_setup(rep)
     shape = (_lattice_shape if isinstance(loop, LatticeLoop) else _polygon_shape)(loop, area)
     if shape.measures is not None and shape.turns >= 1:
         enclosed = float(np.sum(np.abs(shape.windings) * shape.measures)) / shape.turns
         n = setup.power * shape.turns
-        return ExactValue(complex(free_unitary_moment(n, lam * enclosed)), "free-unitary",
-                          details={"turns": n, "measure": enclosed})
+        return (complex(free_unitary_moment(n, lam * enclosed)), "free-unitary",
+                {"turns": n, "measure": enclosed})
     try:
         if shape.arrangement is not None:  # a curve: its exact face areas
             out = evaluate_words(None, lasso_words(shape.arrangement),
@@ -399,5 +405,63 @@ def exact_master_field(loop, *, coupling: float, area=None, rep="fundamental") -
         raise
     except ValueError as exc:
         raise ExactRouteError("geometry", str(exc)) from None
-    return ExactValue(complex(out.value), "master-field",
-                      details={"route": out.method, "evaluation": out})
+    return complex(out.value), "master-field", {"route": out.method, "evaluation": out}
+
+
+def master_field_series(loop, order: int, *, area=None, rep="fundamental",
+                        radius: float | None = None, points: int = 64) -> np.ndarray:
+    r"""Taylor coefficients ``c_0 .. c_order`` of the master field in the coupling,
+    ``Phi(lambda) = sum_m c_m lambda^m``.
+
+    The master field is an entire function of lambda (a finite sum of exponentials
+    times polynomials in the face times), so Cauchy's integral formula on the circle
+    ``|lambda| = r``, computed by the trapezoid rule with ``points`` nodes (a discrete
+    Fourier transform), gives ``c_m r^m`` up to the aliased terms
+    ``c_{m + points} r^{m + points}``, which decay faster than geometrically
+    (Trefethen and Weideman 2014, sec. 3). The default radius is one over the loop's
+    enclosed measure (its face measures times the absolute windings).
+
+    Parameters
+    ----------
+    loop : discretize.Loop or discretize.LatticeLoop
+    order : int
+        Highest power, ``0 <= order < points / 2``.
+    area : discretize.AreaForm, optional
+    rep : {"fundamental", "power:p"}
+    radius : float, optional
+    points : int, optional
+
+    Returns
+    -------
+    ndarray of float
+
+    References
+    ----------
+    .. [1] L. N. Trefethen, J. A. C. Weideman, "The exponentially convergent trapezoidal
+       rule", SIAM Review 56 (2014) 385-458.
+    .. [2] T. Levy, "The master field on the plane", arXiv:1112.2452 (2011).
+
+    Examples
+    --------
+    A simple loop of area 1: ``exp(-lambda / 2) = 1 - lambda / 2 + lambda^2 / 8 - ...``
+
+    >>> from discretize import Loop
+    >>> c = master_field_series(Loop.polygon([(0, 0), (1, 0), (1, 1), (0, 1)]), 2)
+    >>> [round(float(x), 12) for x in c]
+    [1.0, -0.5, 0.125]
+    """
+    if isinstance(order, bool) or not isinstance(order, numbers.Integral) or order < 0 \
+            or 2 * order >= points:
+        raise ValueError(f"`order` must be an integer in [0, {points // 2}), got {order!r}.")
+    if not isinstance(loop, (LatticeLoop, Loop)):
+        raise TypeError(
+            f"`loop` must be a discretize LatticeLoop or Loop, got {type(loop).__name__}.")
+    area = AreaForm() if area is None else area
+    if radius is None:
+        shape = (_lattice_shape if isinstance(loop, LatticeLoop) else _polygon_shape)(loop, area)
+        enclosed = float(np.sum(np.abs(shape.windings) * np.abs(shape.measures)))
+        radius = 1.0 / max(enclosed, 1e-12)
+    nodes = radius * np.exp(2j * np.pi * np.arange(points) / points)
+    values = np.array([_master_value(loop, lam, area, rep)[0] for lam in nodes])
+    coeffs = np.fft.fft(values) / points
+    return (coeffs[:order + 1] / radius ** np.arange(order + 1)).real.copy()

@@ -5,6 +5,7 @@ import dataclasses
 
 import numpy as np
 import pytest
+import sympy
 from scipy import special
 
 from discretize import arrangement
@@ -122,9 +123,27 @@ def test_dispatcher_master_field():
     r = exact_master_field(Loop.polygon(SQUARE, turns=3), coupling=0.8)
     assert r.method == "free-unitary" and r.value == pytest.approx(biane(3, 0.8), abs=1e-12)
     lat = Loop.polygon(NESTED).snap(Grid((0.0, 0.0), 1.0, (6, 6)))
-    r = exact_master_field(lat, coupling=0.5)
+    r = exact_master_field(lat, coupling=0.3)
     # Kazakov and Kostov 1980: a loop with one nested lobe of area A2 (winding 2) and
     # the rest A1 (winding 1): (1 - A2) exp(-A1 / 2 - A2) (lambda = 1 units)
-    a2, a1 = 0.5 * 2.0, 0.5 * 10.0
+    a2, a1 = 0.3 * 2.0, 0.3 * 12.0
     assert r.method == "master-field"
     assert r.value == pytest.approx((1 - a2) * np.exp(-a1 / 2 - a2), abs=1e-12)
+
+
+@pytest.mark.parametrize("poly, turns, closed", [
+    # Biane 1997: nu_2(t) = e^{-t} (1 - t), area 1
+    (SQUARE, 2, lambda l: sympy.exp(-l) * (1 - l)),
+    # Kazakov and Kostov 1980: one nested lobe, A2 = 2 (winding 2), A1 = 12
+    (NESTED, 1, lambda l: (1 - 2 * l) * sympy.exp(-l * (12 / sympy.Integer(2) + 2))),
+])
+def test_master_field_series(poly, turns, closed):
+    from discretize import Loop
+
+    from holonomy.exact import master_field_series
+
+    lam = sympy.Symbol("lambda")
+    ref = sympy.series(closed(lam), lam, 0, 7).removeO()
+    coeffs = master_field_series(Loop.polygon(poly, turns=turns), 6)
+    for m, c in enumerate(coeffs):
+        assert c == pytest.approx(float(ref.coeff(lam, m)), abs=1e-10 * max(1, 10 ** m))
