@@ -35,7 +35,7 @@ from discretize import AreaForm, Grid, LatticeLoop, axial_plan
 from discretize._axial import GAUGES, frame_cells
 from noise import ArgumentError, block_rng, cell_noise, interval_sums
 
-from ._estimate import BlockSums, EstimateResult, combine_blocks
+from ._estimate import BlockSums, EstimateResult, combine_blocks, correlator_subsets
 from ._kernels import kernel_for
 from ._schemes import get_scheme
 from .groups import make_group
@@ -271,8 +271,20 @@ class WilsonProblem(LatticeProblem):
     seed: int = 0
     path: str = "auto"
     formal: bool = False
+    correlators: tuple = ()  # loop-index tuples whose E[prod W] the blocks also sum
 
     def _check_run(self) -> None:
+        corr = []
+        for c in self.correlators:
+            idx = tuple(int(i) for i in c)
+            if len(idx) < 2 or len(set(idx)) != len(idx) or \
+                    not all(0 <= i < len(self.loops) for i in idx):
+                raise ArgumentError(
+                    "correlators", f"got {c!r}; expected two or more distinct loop indices",
+                    f"`correlators` entries must be two or more distinct loop indices in "
+                    f"[0, {len(self.loops)}), got {c!r}.")
+            corr.append(idx)
+        object.__setattr__(self, "correlators", tuple(corr))
         settings = RunSettings(self.samples, self.block, self.seed, self.path)
         object.__setattr__(self, "samples", settings.samples)
         object.__setattr__(self, "block", settings.block)
@@ -321,7 +333,7 @@ class WilsonProblem(LatticeProblem):
         """Combine finished blocks (in block order) into the run's estimates."""
         return combine_blocks(blocks, names=self.names, areas=self.areas, seed=self.seed,
                               block=self.block, scheme=self.scheme.name,
-                              path=self.resolved_path)
+                              path=self.resolved_path, correlators=self.correlators)
 
 
 # -- the sampler ------------------------------------------------------------------------
@@ -473,12 +485,14 @@ def _block_sums(problem: WilsonProblem, block: int, size: int, rng,
         hol = _holonomies(problem, variables, kernel)
         values.append(np.stack([kernel.character(rep, h) for h in hol], axis=1))
         drift = max(drift, max(kernel.drift(h) for h in hol))
-    return BlockSums.from_values(block, np.concatenate(values), drift)
+    return BlockSums.from_values(block, np.concatenate(values), drift,
+                                 subsets=correlator_subsets(problem.correlators))
 
 
 def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fundamental", *,
                           samples: int, block: int = 4096, seed: int, names: Sequence[str] = (),
-                          path: str = "auto", executor: Executor | None = None) -> EstimateResult:
+                          path: str = "auto", executor: Executor | None = None,
+                          correlators: Sequence[Sequence[int]] = ()) -> EstimateResult:
     """Estimate normalized Wilson loops E[chi_rep(H)] / dim with standard errors.
 
     Parameters
@@ -495,6 +509,9 @@ def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fund
     path : {"auto", "perimeter", "dense"}
     executor : concurrent.futures.Executor, optional
         Runs the blocks (a process pool, or a Dask client's executor); inline if None.
+    correlators : sequence of sequence of int, optional
+        Loop-index sets (two or more loops each) whose correlators ``E[prod_i W(i)]``
+        and connected parts are estimated (``EstimateResult.correlator_estimates``).
 
     Returns
     -------
@@ -506,7 +523,7 @@ def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fund
         family, n, metric = group.family, group.n, group.metric
     problem = WilsonProblem(family=family, n=n, metric=metric, field=field, loops=tuple(loops),
                             names=tuple(names), rep=rep, samples=samples, block=block,
-                            seed=seed, path=path)
+                            seed=seed, path=path, correlators=tuple(correlators))
     if executor is None:
         blocks = [run_block(problem, b) for b in range(problem.n_blocks)]
     else:

@@ -56,8 +56,8 @@ from noise import ArgumentError
 
 from ._continuum_series import exact_series
 from ._lattice_series import gauss_series, lattice_series, wilson_series
-from .exact import (NOT_AVAILABLE, LatticeValue, gaussian_scheme_value, heat_lattice_value,
-                    wilson_action_value)
+from .exact import (NOT_AVAILABLE, LatticeValue, gaussian_scheme_value, heat_correlator_value,
+                    heat_lattice_value, wilson_action_value, wilson_correlator_value)
 
 __all__ = ["Scheme", "SCHEMES", "register_scheme", "get_scheme", "study_schemes",
            "EXPECTED_RATES", "LinearScheme", "GaussScheme", "HeatScheme", "WilsonScheme"]
@@ -104,6 +104,9 @@ class Scheme:
         noise (per interval for ``kind == "algebra"``, per cell otherwise), so its
         expectations continue to signed variances and a signed density has a formal
         Monte Carlo estimate by complex rotation (:mod:`holonomy._formal_estimate`).
+    12. ``correlator_value(problem, indices)`` is the exact ``E[prod_i W(i)]`` of the
+        loops ``indices`` (two or more) under what the scheme samples, like
+        ``lattice_value``; None with a note by default.
     """
 
     name: str = ""
@@ -129,6 +132,10 @@ class Scheme:
 
     def series_expands(self, problem) -> str:
         return f"{self.name} lattice, spacing {problem.field.spacing:g}"
+
+    def correlator_value(self, problem, indices) -> LatticeValue:
+        return LatticeValue(None, None, f"{NOT_AVAILABLE} (no exact correlator is known "
+                            f"for the scheme {self.name!r})")
 
     def reads_noise(self, group) -> bool:
         return True
@@ -163,6 +170,14 @@ def _abelian_or(problem, i: int, closed_form: str) -> LatticeValue:
     return gaussian_scheme_value(problem, i, closed_form)
 
 
+def _abelian_correlator(problem, indices, name: str) -> LatticeValue:
+    """U(1): the heat kernel's correlator (every scheme is exact in law); else none."""
+    if _is_u1(problem.group):
+        return heat_correlator_value(problem, indices)
+    return LatticeValue(None, None, f"{NOT_AVAILABLE} (no exact correlator is known for "
+                        f"the scheme {name!r} beyond U(1))")
+
+
 class LinearScheme(Scheme):
     """Links exp(-S(y)) of the continuum axial connection (exact Wick expansion).
 
@@ -187,6 +202,9 @@ class LinearScheme(Scheme):
     def series(self, problem, i: int, order: int, *, exact: bool = False):
         return lattice_series(problem, i, order, exact=exact)
 
+    def correlator_value(self, problem, indices) -> LatticeValue:
+        return _abelian_correlator(problem, indices, self.name)
+
 
 class GaussScheme(Scheme):
     """Plaquettes Q = exp(X): one Gaussian exponential per cell."""
@@ -204,6 +222,9 @@ class GaussScheme(Scheme):
 
     def series(self, problem, i: int, order: int, *, exact: bool = False):
         return gauss_series(problem, i, order, exact=exact)
+
+    def correlator_value(self, problem, indices) -> LatticeValue:
+        return _abelian_correlator(problem, indices, self.name)
 
     def _plaquettes_impl(self, kernel, noise, variances, rng, size):
         return kernel.exp(noise)
@@ -241,6 +262,14 @@ class HeatScheme(Scheme):
 
     def series_expands(self, problem) -> str:
         return "heat (continuum, as snapped)"
+
+    def correlator_value(self, problem, indices) -> LatticeValue:
+        G = problem.group
+        if not G.exact_heat_kernel:  # sampled by sub-stepping: see lattice_value
+            return LatticeValue(None, None, (
+                f"{NOT_AVAILABLE} (the heat kernel of {G.family}({G.n}) is drawn by "
+                "Brownian sub-stepping; exact kernels: holonomy.groups.exact_heat_route)"))
+        return heat_correlator_value(problem, indices)
 
     def reads_noise(self, group) -> bool:
         return _is_u1(group)
@@ -330,6 +359,9 @@ class WilsonScheme(Scheme):
     def series_expands(self, problem) -> str:
         return (f"wilson lattice, spacing {problem.field.spacing:g} (weak-coupling "
                 "expansion, asymptotic)")
+
+    def correlator_value(self, problem, indices) -> LatticeValue:
+        return wilson_correlator_value(problem, indices)
 
     def _plaquettes_impl(self, kernel, noise, variances, rng, size):
         m = variances.size

@@ -8,9 +8,12 @@ saying which limit was hit -- never a made-up number. The schemes
 
 - :func:`heat_lattice_value`: plaquettes are exact heat-kernel draws, so the lattice
   loop's value is the *continuum* Wilson loop of the loop as snapped to the lattice [1]_.
-- :func:`wilson_action_value`: the lattice value of the Wilson action where a closed
-  form is known (a simple loop enclosing A cells: ``w^A`` with ``w`` the one-plaquette
-  value; U(1): any loop through its winding numbers) at constant density [2]_.
+- :func:`wilson_action_value`: the lattice value of the Wilson action: independent
+  plaquettes on the plane, so the lasso words of the loops with Bessel face laws
+  (:func:`holonomy.exact.wilson_lattice_exact`) at constant density [2]_.
+- :func:`heat_correlator_value`, :func:`wilson_correlator_value`: the same for the
+  correlator ``E[prod_i W(i)]`` of several loops (one evaluation of their joint
+  arrangement).
 - :func:`gaussian_scheme_value`: the closed forms of the ``gauss`` and ``linear``
   schemes for simple loops (``linear``: when every column starts on the reference line).
 
@@ -32,12 +35,14 @@ import numpy as np
 
 from discretize import Loop
 
-from ._dispatch import exact_wilson_loop, lattice_polygon
+from ._dispatch import exact_correlator, exact_wilson_loop, lattice_polygon
+from ._laws import ExactRouteError
 from ._gaussian_step import gaussian_step
-from ._wilson_action import wilson_lattice_loop
+from ._wilson_action import wilson_lattice_exact
 
 __all__ = ["LatticeValue", "NOT_AVAILABLE", "loop_value", "simple_cells", "heat_lattice_value",
-           "wilson_action_value", "gaussian_scheme_value"]
+           "wilson_action_value", "gaussian_scheme_value", "heat_correlator_value",
+           "wilson_correlator_value"]
 
 NOT_AVAILABLE = "not available for this loop"
 #: what an exact route raises for a loop or group it does not cover
@@ -112,27 +117,49 @@ def heat_lattice_value(problem, i: int) -> LatticeValue:
 
 
 def wilson_action_value(problem, i: int) -> LatticeValue:
-    """The Wilson-action lattice value of loop ``i`` (fundamental rep, constant density)."""
-    field, group = problem.field, problem.group
-    if problem.rep != "fundamental":
-        return _missing(" (Wilson action: fundamental rep only)")
-    if not field.area.is_constant:
-        return _missing(" (Wilson action: constant density only)")
-    s = field.coupling * field.area.base * field.spacing ** 2
-    lat = problem.lattice_loops[i]
+    """The Wilson-action lattice value of loop ``i``: any lattice loop (crossings,
+    windings, touching points, retraced edges) and any representation for U(1) and
+    SU(2), closed-form routes for U(N) and SU(N), at constant density
+    (:func:`holonomy.exact.wilson_lattice_exact`)."""
+    return wilson_correlator_value(problem, (i,))
+
+
+def _lattice_value(fn, *args) -> LatticeValue:
     try:
-        if group.family == "U" and group.n == 1:
-            value = wilson_lattice_loop("U", 1, s, group.k, windings=lat.winding_numbers())
-            return LatticeValue(complex(value), "Wilson action, U(1) Bessel product")
-        w = simple_cells(lat)
-        if w is None:
-            return _missing(" (Wilson action: simple loops only)")
-        # independent plaquettes: a simple loop of A cells has w^A (the value is real)
-        value = wilson_lattice_loop(group.family, group.n, s, group.k,
-                                    cells=int((w != 0).sum()))
-        return LatticeValue(complex(value), "Wilson action, simple loop w^A")
-    except _NOT_COVERED as exc:
+        out = fn(*args)
+    except ExactRouteError as exc:
         return _missing(f" ({exc})")
+    value = complex(out.value)
+    if not (math.isfinite(value.real) and math.isfinite(value.imag)):
+        return _missing(" (the value is not finite)")
+    return LatticeValue(value, str(out.method))
+
+
+def wilson_correlator_value(problem, indices) -> LatticeValue:
+    """``E[prod_i W(i)]`` of the lattice loops ``indices`` under the Wilson action."""
+    field = problem.field
+    loops = [problem.lattice_loops[i] for i in indices]
+    out = _lattice_value(lambda: wilson_lattice_exact(
+        problem.group, problem.rep, loops if len(loops) > 1 else loops[0],
+        coupling=field.coupling, area=field.area))
+    if out.value is None:
+        return out
+    return LatticeValue(out.value, f"Wilson action, {out.method} (Bessel face laws)")
+
+
+def heat_correlator_value(problem, indices) -> LatticeValue:
+    """``E[prod_i W(i)]`` of the lattice loops ``indices`` in the continuum (what
+    ``heat`` samples), one evaluation of their joint arrangement."""
+    if len(indices) == 1:
+        return heat_lattice_value(problem, indices[0])
+    field = problem.field
+    loops = [problem.lattice_loops[i] for i in indices]
+    out = _lattice_value(lambda: exact_correlator(problem.group, problem.rep, loops,
+                                                  coupling=field.coupling,
+                                                  area=field.area))
+    if out.value is None:
+        return out
+    return LatticeValue(out.value, f"{out.method} (lattice loops)")
 
 
 def gaussian_scheme_value(problem, i: int, scheme: str) -> LatticeValue:

@@ -20,7 +20,7 @@ from holonomy._series import _key_graph
 
 from ._problems import build_lattice
 from ._references import NOT_AVAILABLE, loop_references
-from ._report import clean
+from ._report import clean, correlator_rows
 from ._runner import worker_init
 from ._spec import Spec, SpecError, spec_arg
 
@@ -55,7 +55,8 @@ def exact_results(spec: Spec | str | os.PathLike) -> dict:
     return clean({"name": spec.name, "spec_sha256": spec.sha256,
                   "group": {"family": spec.family, "n": spec.n, "metric": spec.metric},
                   "coupling": spec.coupling, "spacing": spec.spacing,
-                  "formal": bool(spec.signed), "results": rows})
+                  "formal": bool(spec.signed), "results": rows,
+                  "correlators": correlator_rows(spec, problem)})
 
 
 #: exact (sympy) series only for loops with at most this many non-trivial horizontal

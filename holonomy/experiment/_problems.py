@@ -22,7 +22,8 @@ ARGUMENT_KEYS = {"rep": "observable.rep", "scheme": "field.scheme", "gauge": "fi
                  "family": "group.family", "metric": "group.metric", "n": "group.n",
                  "samples": "run.samples", "block": "run.block", "seed": "run.seed",
                  "area": "field.density", "reference": "field.reference",
-                 "loops": "loops", "coupling": "field.coupling", "spacing": "field.spacing"}
+                 "loops": "loops", "coupling": "field.coupling", "spacing": "field.spacing",
+                 "correlators": "correlators"}
 
 
 def _loops(spec: Spec, h: float) -> tuple[Loop, ...]:
@@ -76,6 +77,7 @@ def build_problem(spec: Spec, *, scheme: str | None = None, spacing: float | Non
         return WilsonProblem(
             family=spec.family, n=spec.n, metric=spec.metric, field=fld, loops=loops,
             names=spec.names, rep=spec.rep, samples=spec.samples, block=spec.block,
-            seed=spec.seed, path="auto", formal=formal)
+            seed=spec.seed, path="auto", formal=formal,
+            correlators=spec.correlator_indices)
     except ArgumentError as exc:
         raise _refused(exc) from None

@@ -12,14 +12,17 @@ specified, before snapping, and ``snapped`` that of the loop as snapped to the l
 from __future__ import annotations
 
 from dataclasses import dataclass
+from itertools import combinations
 
 from discretize import Loop
 from holonomy import LatticeProblem, get_scheme
+from holonomy._estimate import joint_cumulant
 from holonomy.exact import (NOT_AVAILABLE, exact_wilson_loop, gaussian_matrix, heat_lattice_value,
                             loop_value)
 
-__all__ = ["LoopReference", "lattice_references", "loop_references", "NOT_AVAILABLE",
-           "gaussian_matrix_field", "GAUSSIAN_MATRIX_ORDER"]
+__all__ = ["LoopReference", "CorrelatorReference", "lattice_references", "loop_references",
+           "correlator_references", "NOT_AVAILABLE", "gaussian_matrix_field",
+           "GAUSSIAN_MATRIX_ORDER"]
 
 #: the order of the Gaussian-matrix series printed beside exact values
 GAUSSIAN_MATRIX_ORDER = 4
@@ -108,3 +111,41 @@ def loop_references(spec, problem: LatticeProblem, i: int, *,
     """
     return lattice_references(problem, i, continuum=spec.loops[i].build(spec.spacing),
                               scheme=scheme or spec.scheme)
+
+
+@dataclass
+class CorrelatorReference:
+    """The exact correlator ``E[prod_i W(i)]`` of what the scheme samples and its
+    connected part (joint cumulant), or None with a note."""
+
+    exact: float | None = None
+    exact_imag: float | None = None
+    exact_connected: float | None = None
+    exact_method: str | None = None
+    exact_note: str | None = None
+
+
+def correlator_references(problem: LatticeProblem, indices, *,
+                          scheme: str | None = None) -> CorrelatorReference:
+    """Exact references of the correlator of loops ``indices`` of ``problem``: the
+    scheme's :meth:`~holonomy.Scheme.correlator_value` for every subset of two or more
+    loops and its ``lattice_value`` for each loop, then the joint cumulant (moment-
+    cumulant formula) for the connected part."""
+    sch = get_scheme(scheme or problem.field.scheme)
+    S = tuple(sorted(indices))
+    full = sch.correlator_value(problem, S)
+    ref = CorrelatorReference(exact_note=full.note)
+    if full.value is None:
+        return ref
+    ref.exact, ref.exact_imag, ref.exact_method = full.value.real, full.value.imag, full.method
+    moments = {S: full.value}
+    for r in range(1, len(S)):
+        for T in combinations(S, r):
+            v = (sch.lattice_value(problem, T[0]) if r == 1
+                 else sch.correlator_value(problem, T))
+            if v.value is None:
+                ref.exact_note = f"connected part: {v.note}"
+                return ref
+            moments[T] = v.value
+    ref.exact_connected = joint_cumulant(S, moments)[0].real
+    return ref

@@ -21,6 +21,14 @@ why a reference is null. Non-finite numbers are written as null.
 
 ``z = (estimate - exact) / stderr``: with a correct sampler it is a draw from about
 N(0, 1) (central limit theorem), so |z| > 4 flags a problem.
+
+``correlators`` (one entry per ``[[correlators]]`` of the spec): ``loops`` (names),
+``kind`` (``"correlator"``), ``estimate``, ``estimate_imag``, ``stderr`` of
+``E[prod_i W(i)]``; ``connected``, ``connected_imag``, ``connected_stderr`` of its
+connected part (the joint cumulant; ``E[W1 W2] - E[W1] E[W2]`` for two loops; error by
+the delta method); ``exact``, ``exact_imag``, ``exact_connected``, ``exact_method``,
+``exact_note`` (what the scheme samples, or null with the reason); ``z`` and
+``z_connected`` against them; ``samples``.
 """
 
 from __future__ import annotations
@@ -36,11 +44,11 @@ from pathlib import Path
 from typing import Any, Sequence
 
 from ._faults import fault_point
-from ._references import loop_references
+from ._references import correlator_references, loop_references
 
 __all__ = ["printable", "short_label", "quiet_plot_warnings", "build_results",
-           "write_results", "write_json_atomic", "format_table", "format_exact_table",
-           "format_series_table", "fmt_value", "clean", "MISSING"]
+           "correlator_rows", "write_results", "write_json_atomic", "format_table",
+           "format_exact_table", "format_series_table", "fmt_value", "clean", "MISSING"]
 
 
 def clean(obj: Any) -> Any:
@@ -131,10 +139,36 @@ def build_results(spec, problem, estimate, provenance: dict, *,
                   "gauge": spec.gauge, "reference": spec.reference,
                   "scheme": spec.scheme, "path": estimate.path},
         "results": rows,
+        "correlators": correlator_rows(spec, problem, estimate),
         "seed_record": {"entropy": spec.seed, "spawn_key": "(block,)",
                         "blocks": estimate.n_blocks},
         "provenance": provenance,
     })
+
+
+def correlator_rows(spec, problem, estimate=None) -> list[dict]:
+    """One entry per ``[[correlators]]`` of ``spec``: the estimates (when ``estimate``
+    is given) and the exact values with their ``z``."""
+    rows = []
+    ests = list(getattr(estimate, "correlator_estimates", []) or [])
+    for k, idx in enumerate(spec.correlator_indices):
+        ref = correlator_references(problem, idx, scheme=spec.scheme)
+        row = {"loops": list(spec.correlators[k]), "kind": "correlator",
+               "scheme": spec.scheme, "exact": ref.exact, "exact_imag": ref.exact_imag,
+               "exact_connected": ref.exact_connected, "exact_method": ref.exact_method,
+               "exact_note": ref.exact_note}
+        if k < len(ests):
+            ce = ests[k]
+            row.update({"estimate": ce.estimate, "estimate_imag": ce.estimate_imag,
+                        "stderr": ce.stderr, "connected": ce.connected,
+                        "connected_imag": ce.connected_imag,
+                        "connected_stderr": ce.connected_stderr,
+                        "z": _z(ce.estimate, ref.exact, ce.stderr),
+                        "z_connected": _z(ce.connected, ref.exact_connected,
+                                          ce.connected_stderr),
+                        "samples": ce.samples})
+        rows.append(row)
+    return rows
 
 
 def _file_mode() -> int:
@@ -181,7 +215,8 @@ def write_json_atomic(obj: Any, path: str | Path) -> Path:
 _CSV_FIELDS = ("loop", "rep", "kind", "scheme", "estimate", "estimate_imag", "stderr",
                "stderr_batch", "exact", "exact_method", "z", "continuum", "area",
                "area_error", "samples", "drift", "group", "metric", "spacing", "snapped",
-               "snapping_error", "max_face_area_error", "warning")
+               "snapping_error", "max_face_area_error", "warning", "connected",
+               "connected_stderr", "exact_connected", "z_connected")
 
 
 def _write_text_atomic(text: str, path: Path) -> Path:
@@ -215,6 +250,11 @@ def results_csv(results: dict) -> str:
     w.writeheader()
     for row in results["results"]:
         full = {**common, **{k: v for k, v in row.items() if v is not None}}
+        w.writerow({k: _csv_cell(full.get(k)) for k in _CSV_FIELDS})
+    # correlators after the loops: ``loop`` names the loops joined by "*"
+    for row in results.get("correlators") or []:
+        full = {**common, **{k: v for k, v in row.items() if v is not None},
+                "loop": "*".join(row["loops"]), "rep": None}
         w.writerow({k: _csv_cell(full.get(k)) for k in _CSV_FIELDS})
     return buf.getvalue()
 
@@ -304,7 +344,36 @@ def format_table(results: dict) -> str:
         rows.extend(_reference_rows(r))
         if r.get("warning"):
             rows.append(["", "warning", "", r["warning"]])
+    rows.extend(_correlator_table_rows(results.get("correlators") or []))
     return _render(rows, ["loop", "kind", "value ± error", "note"])
+
+
+def _correlator_table_rows(entries: list[dict]) -> list[list[str]]:
+    """Per correlator: the estimate and its connected part (when sampled), then the
+    exact values or why they are missing."""
+    rows = []
+    for c in entries:
+        name = "*".join(c["loops"])
+        first = True
+        if c.get("estimate") is not None:
+            z = "" if c.get("z") is None else f"; z = {c['z']:+.2f} vs exact"
+            rows.append([name, "correlator estimate",
+                         fmt_value(c["estimate"], c["stderr"], "est"),
+                         f"E[prod W], {c.get('samples')} samples{z}"])
+            zc = "" if c.get("z_connected") is None else \
+                f"; z = {c['z_connected']:+.2f} vs exact"
+            rows.append(["", "connected estimate",
+                         fmt_value(c["connected"], c["connected_stderr"], "est"),
+                         f"joint cumulant, delta-method error{zc}"])
+            first = False
+        why = c.get("exact_note") or "not available for these loops"
+        rows.append([name if first else "", "correlator exact",
+                     fmt_value(c.get("exact"), 0.0, "exact"),
+                     c.get("exact_method") if c.get("exact") is not None else why])
+        rows.append(["", "connected exact", fmt_value(c.get("exact_connected"), 0.0, "exact"),
+                     "joint cumulant of the exact moments" if
+                     c.get("exact_connected") is not None else why])
+    return rows
 
 
 def _area_note(r: dict) -> str:
@@ -357,6 +426,7 @@ def format_exact_table(obj: dict) -> str:
         first, *rest = _reference_rows(r)
         rows.append([r["loop"]] + first[1:])
         rows.extend(rest)
+    rows.extend(_correlator_table_rows(obj.get("correlators") or []))
     return _render(rows, ["loop", "kind", "value", "method"])
 
 

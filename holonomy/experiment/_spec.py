@@ -136,6 +136,9 @@ SPEC_KEYS: tuple[tuple[str, str, str], ...] = (
      "a count >= 1) in units of the spacing; must close", "one loop kind is required"),
     ("loops[i].start", "[x, y] where the moves begin (moves only)", "required with moves"),
     ("loops[i].turns", "times the loop is traversed, an integer >= 1", "1"),
+    ("correlators", "an array of tables [[correlators]], one per correlator E[W(a) W(b) "
+     "...] to estimate with its connected part and compare with its exact value", "none"),
+    ("correlators[i].loops", "names of two or more distinct loops of the spec", "required"),
     ("observable.rep", "`fundamental`, `adjoint`, `trivial`, `spin:j` (SU(2), j = 0, "
      f"1/2, 1, ...) or `power:k` (1 <= k <= {MAX_POWER})", "`fundamental`"),
     ("run.samples", f"number of samples, 1 to {MAX_SAMPLES:.0e}",
@@ -166,6 +169,7 @@ _LOOP_KINDS = ("vertices", "circle", "ellipse", "curve", "moves")
 _LOOP_KEYS = _children("loops[i]")
 _CIRCLE_KEYS = _children("loops[i].circle")
 _ELLIPSE_KEYS = _children("loops[i].ellipse")
+_CORRELATOR_KEYS = _children("correlators[i]")
 _OBS_KEYS = _children("observable")
 _RUN_KEYS = _children("run")
 
@@ -258,6 +262,13 @@ class Spec:
     block: int
     seed: int | None
     source: str = "<string>"
+    correlators: tuple[tuple[str, ...], ...] = ()  # loop names of each [[correlators]]
+
+    @property
+    def correlator_indices(self) -> tuple[tuple[int, ...], ...]:
+        """The correlators as loop-index tuples."""
+        index = {name: i for i, name in enumerate(self.names)}
+        return tuple(tuple(index[n] for n in c) for c in self.correlators)
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -832,6 +843,8 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
 
     _extent_iv(loops, spacing, reference, gauge)
 
+    correlators = _correlators_iv(data, tuple(loop.name for loop in loops))
+
     obs = _table(data, "observable", "observable", _OBS_KEYS, required=False)
     rep = _rep_iv(obs, family, n)
 
@@ -851,4 +864,38 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
         family=family, n=n, metric=metric, coupling=coupling, spacing=spacing,
         gauge=gauge, reference=reference, scheme=scheme, density=density, loops=loops,
         rep=rep, samples=samples, block=block, seed=seed, source=source,
+        correlators=correlators,
     )
+
+
+def _correlators_iv(data: dict, names: tuple[str, ...]) -> tuple[tuple[str, ...], ...]:
+    """``[[correlators]]`` tables: ``loops`` = two or more distinct names of loops."""
+    raw = data.get("correlators")
+    if raw is None:
+        return ()
+    if not isinstance(raw, list):
+        raise SpecError("correlators", f"got {_describe(raw)}; expected [[correlators]] "
+                        "tables with loops = [\"a\", \"b\", ...]")
+    out = []
+    for i, item in enumerate(raw):
+        path = f"correlators[{i}]"
+        if not isinstance(item, dict):
+            raise SpecError(path, f"got {_describe(item)}; expected a table with loops = "
+                            "[names]")
+        _no_unknown(item, path, _CORRELATOR_KEYS)
+        loops = item.get("loops")
+        rule = (f"a list of two or more distinct names of the spec's loops "
+                f"({', '.join(repr(n) for n in names)})")
+        if isinstance(loops, list) and len(loops) < 2:
+            raise SpecError(f"{path}.loops", f"got {len(loops)} name(s); expected {rule}")
+        if not isinstance(loops, list) or not all(isinstance(x, str) for x in loops):
+            raise SpecError(f"{path}.loops", f"got {_describe(loops)}; expected {rule}")
+        unknown = [x for x in loops if x not in names]
+        if unknown:
+            raise SpecError(f"{path}.loops", f"got the unknown loop name {unknown[0]!r}; "
+                            f"expected {rule}")
+        if len(set(loops)) != len(loops):
+            raise SpecError(f"{path}.loops", f"got a repeated name in {loops!r}; expected "
+                            f"{rule}")
+        out.append(tuple(loops))
+    return tuple(out)

@@ -55,3 +55,25 @@ def test_wilson_correlator_su2():
                                 loops, samples=12000, block=4000, seed=11)
     est, se = res.correlators[0, 1].real, res.correlator_stderr[0, 1]
     assert abs(est - exact.real) <= 4 * se, (est, se, exact)
+
+
+@pytest.mark.parametrize("gname", list(GROUPS))
+def test_engine_correlators_and_connected(gname):
+    # estimate_wilson_loops(correlators=...): E[W(A) W(B)] for a nested pair against the
+    # exact value, and the connected part of a disjoint pair consistent with 0
+    # (independent faces; Levy 2003)
+    family, n, metric, lam = GROUPS[gname]
+    group = make_group(family, n, metric)
+    loops = [A, PAIRS["nested"], PAIRS["disjoint"]]
+    res = estimate_wilson_loops(group, Field(coupling=lam, spacing=H, scheme="heat"),
+                                [Loop.polygon(v) for v in loops], samples=12000,
+                                block=4000, seed=3, names=["a", "b", "c"],
+                                correlators=[(0, 1), (0, 2), (0, 1, 2)])
+    nested, disjoint, triple = res.correlator_estimates
+    exact = evaluate_polygons(group, [A, PAIRS["nested"]], coupling=lam).value.real
+    assert nested.loops == ("a", "b")
+    assert abs(nested.estimate - exact) <= 4 * nested.stderr
+    assert abs(disjoint.connected) <= 4 * disjoint.connected_stderr
+    assert disjoint.connected_stderr > 0
+    ex3 = evaluate_polygons(group, loops, coupling=lam).value.real
+    assert abs(triple.estimate - ex3) <= 4 * triple.stderr
