@@ -92,7 +92,8 @@ _EPILOG = ("Exit codes: 0 success; 2 invalid input (one line on stderr naming th
 
 _FRESH = ("discard the whitegauge files already in DIR (its store, results, report) "
           "and start over; nothing else in DIR is touched. Without it, a DIR holding "
-          "another command's or spec's files is refused")
+          "another command's or spec's files is refused, and the stored blocks of the "
+          "same spec are reused (default: reuse)")
 
 
 def _sub(sub, name: str, summary: str, description: str):
@@ -156,7 +157,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--resume", action="store_true",
                    help="keep the finished blocks of an interrupted run of the same spec "
                    "in DIR and compute only the missing ones (the numbers are bitwise the "
-                   "same)")
+                   "same); a rerun into DIR does this by default too")
     p.add_argument("--fresh", action="store_true", help=_FRESH)
     _json_arg(p)
     p.add_argument("--quiet", action="store_true",
@@ -208,7 +209,7 @@ def build_parser() -> argparse.ArgumentParser:
     _workers_arg(p, "1")
     p.add_argument("--resume", action="store_true",
                    help="keep the finished blocks of an interrupted study of the same spec "
-                   "in DIR")
+                   "in DIR; a rerun into DIR does this by default too")
     p.add_argument("--fresh", action="store_true", help=_FRESH)
     _json_arg(p)
     p.add_argument("--quiet", action="store_true",

@@ -340,7 +340,9 @@ def run_spec(spec: Spec | str | os.PathLike, *, out: str | Path | None = None,
     ``workers``; with neither, the blocks run inline. The run store lives in ``out``;
     without ``out`` nothing is stored (no resume). ``out`` belongs to one command and
     one spec (see :func:`~holonomy.experiment._folder.claim_folder`): a folder of
-    another spec or command is refused unless ``fresh``, which discards its files.
+    another spec or command is refused unless ``fresh``, which discards its files. The
+    finished blocks of the same spec in ``out`` are reused, with or without ``resume``
+    (they are bitwise what a new computation would give); ``fresh`` discards them.
     ``progress`` is True for a progress bar on stderr, or the :class:`Progress` of the
     command.
 
@@ -373,7 +375,9 @@ def run_spec(spec: Spec | str | os.PathLike, *, out: str | Path | None = None,
                                              name=spec.name, fresh=fresh))
             store = stack.enter_context(RunStore(
                 out / STORE_NAME, spec_text=spec.text, spec_sha256=spec.sha256,
-                job_key="run", resume=resume, workers=worker_label, name=spec.name))
+                # blocks are pure functions of the spec and their index: a rerun of the
+                # same spec reuses the stored ones, bitwise (`fresh` discarded them above)
+                job_key="run", resume=True, workers=worker_label, name=spec.name))
             fault_point("store-open")
         with worker_pool(workers, executor) as pool:
             estimate, stats = execute(job, store=store, executor=pool,

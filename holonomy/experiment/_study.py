@@ -382,7 +382,7 @@ def run_study(spec: Spec, *, spacings: Sequence[float], schemes: Sequence[str] |
                                               name=spec.name, fresh=fresh))
             store = folder.enter_context(RunStore(
                 out / "study.sqlite", spec_text=spec.text, spec_sha256=spec.sha256,
-                job_key=job_key, resume=resume, workers=workers or 1, name=spec.name))
+                job_key=job_key, resume=True, workers=workers or 1, name=spec.name))
         with worker_pool(workers, executor) as pool:
             (estimates, blocks), stats = execute(job, store=store, executor=pool,
                                                  progress=progress, name=f"{spec.name} study")

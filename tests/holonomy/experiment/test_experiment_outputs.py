@@ -141,3 +141,25 @@ def test_readme_defines_every_results_field_and_csv_column(tmp_path):
     assert not missing, missing
     header = open(outcome.files["results.csv"]).readline().strip().split(",")
     assert all(col in section for col in header)
+
+
+def test_rerun_reuses_the_same_specs_blocks_and_fresh_discards_them(tmp_path):
+    """Blocks are pure functions of the spec and their index: a rerun into the folder
+    reuses them without --resume, bitwise; --fresh computes them again (the same
+    numbers); another spec is refused."""
+    from holonomy.experiment import SpecError as Refused
+
+    spec = parse_spec(SPEC)
+    first = run_spec(spec, out=tmp_path / "r")
+    again = run_spec(spec, out=tmp_path / "r")
+    assert (again.stats.reused, again.stats.computed) == (3, 0)
+    assert again.results["results"] == first.results["results"]
+    assert again.results["provenance"]["blocks_reused"] == 3
+    fresh = run_spec(spec, out=tmp_path / "r", fresh=True)
+    assert (fresh.stats.reused, fresh.stats.computed) == (0, 3)
+    assert fresh.results["results"] == first.results["results"]
+    with pytest.raises(ValueError, match="exclude each other"):
+        run_spec(spec, out=tmp_path / "r", fresh=True, resume=True)
+    other = parse_spec(SPEC.replace("seed = 3", "seed = 4"))
+    with pytest.raises(Refused):
+        run_spec(other, out=tmp_path / "r")
