@@ -75,7 +75,8 @@ from discretize import LatticeLoop, Loop
 from holonomy.groups import rep_weights, weight_system
 
 __all__ = ["SurfaceValue", "surface_partition_function", "surface_simple_loop",
-           "surface_abelian_loop", "outer_face_kernel", "exact_surface_wilson_loop"]
+           "surface_abelian_loop", "outer_face_kernel", "exact_surface_wilson_loop",
+           "drawn_measure"]
 
 _REL = 1e-16  # omitted terms below this fraction of the sum
 _MAX_TERMS = 400_000  # irreducibles (or dual lattice points) a route may sum over
@@ -709,6 +710,27 @@ def outer_face_kernel(group, genus: int, time: float, U) -> np.ndarray:
 
 
 # --------------------------------------------------------------- loops
+def _shape(loop, area):
+    from ._dispatch import _lattice_shape, _polygon_shape
+
+    return (_lattice_shape if isinstance(loop, LatticeLoop) else _polygon_shape)(loop, area)
+
+
+def drawn_measure(loop, area=None) -> float:
+    """The measure of a loop's drawn region: the faces (or cells) of nonzero winding.
+
+    On a closed surface of total measure T the loop's unbounded face has ``T`` minus
+    this measure.
+    """
+    from discretize import AreaForm
+
+    shape = _shape(loop, AreaForm() if area is None else area)
+    if shape.measures is None:
+        raise ValueError("`area` density cannot be integrated over the loop's faces.")
+    n = np.asarray(shape.windings).ravel()
+    return float(np.asarray(shape.measures, float).ravel()[n != 0].sum())
+
+
 def exact_surface_wilson_loop(group, rep, loop, *, coupling: float, genus: int,
                               total_area: float, area=None,
                               route: str = "auto") -> SurfaceValue:
@@ -755,12 +777,12 @@ def exact_surface_wilson_loop(group, rep, loop, *, coupling: float, genus: int,
     >>> r.method, round(r.value.real, 12)
     ('surface-character-sum', 0.661872996076)
     """
-    from ._dispatch import _exact_wilson_loop_iv, _lattice_shape, _polygon_shape
+    from ._dispatch import _exact_wilson_loop_iv
 
     g = _genus_iv(genus)
     T = _nonneg_iv(total_area, "total_area", positive=True)
     group, rep, loop, lam, area = _exact_wilson_loop_iv(group, rep, loop, coupling, area)
-    shape = (_lattice_shape if isinstance(loop, LatticeLoop) else _polygon_shape)(loop, area)
+    shape = _shape(loop, area)
     if shape.measures is None or np.any(np.asarray(shape.measures) < 0):
         return SurfaceValue(None, None, None, 0.0, g, T,
                             note="the area density must be non-negative and integrable "
@@ -788,5 +810,4 @@ def exact_surface_wilson_loop(group, rep, loop, *, coupling: float, genus: int,
         None, None, None, 0.0, g, T,
         note="no exact route for a non-simple loop of a non-abelian group on a closed "
              "surface: the outer face's character expansion needs the plane's joint law of "
-             "the loop and of the drawn region's boundary in every irreducible (use Monte "
-             "Carlo)")
+             "the loop and of the drawn region's boundary in every irreducible")

@@ -52,7 +52,11 @@ def exact_results(spec: Spec | str | os.PathLike) -> dict:
                      "gaussian_matrix": ref.gaussian_matrix,
                      "gaussian_matrix_note": ref.gaussian_matrix_note,
                      "formal": bool(spec.signed)})
-    return clean({"name": spec.name, "spec_sha256": spec.sha256,
+        if spec.closed:
+            rows[-1].update(zero_instanton=ref.zero_instanton,
+                            truncation_bound=ref.truncation_bound)
+    surface = {"kind": spec.surface, "genus": spec.genus, "area": spec.total_area}
+    return clean({"name": spec.name, "spec_sha256": spec.sha256, "surface": surface,
                   "group": {"family": spec.family, "n": spec.n, "metric": spec.metric},
                   "coupling": spec.coupling, "spacing": spec.spacing,
                   "formal": bool(spec.signed), "results": rows,

@@ -17,12 +17,12 @@ from itertools import combinations
 from discretize import Loop
 from holonomy import LatticeProblem, get_scheme
 from holonomy._estimate import joint_cumulant
-from holonomy.exact import (NOT_AVAILABLE, exact_wilson_loop, gaussian_matrix, heat_lattice_value,
-                            loop_value)
+from holonomy.exact import (NOT_AVAILABLE, exact_surface_wilson_loop, exact_wilson_loop,
+                            gaussian_matrix, heat_lattice_value, loop_value)
 
 __all__ = ["LoopReference", "CorrelatorReference", "lattice_references", "loop_references",
-           "correlator_references", "NOT_AVAILABLE", "gaussian_matrix_field",
-           "GAUSSIAN_MATRIX_ORDER"]
+           "correlator_references", "surface_references", "NOT_AVAILABLE",
+           "gaussian_matrix_field", "GAUSSIAN_MATRIX_ORDER"]
 
 #: the order of the Gaussian-matrix series printed beside exact values
 GAUSSIAN_MATRIX_ORDER = 4
@@ -65,6 +65,8 @@ class LoopReference:
     snapped: float | None = None          # the continuum value of the loop as snapped
     gaussian_matrix: dict | None = None   # the Gaussian-matrix prescription (simple loops)
     gaussian_matrix_note: str | None = None
+    zero_instanton: float | None = None   # closed surfaces: the zero-instanton sector
+    truncation_bound: float | None = None  # closed surfaces: bound on the omitted terms
 
 
 def lattice_references(problem: LatticeProblem, i: int, *, continuum: Loop | None = None,
@@ -109,6 +111,8 @@ def loop_references(spec, problem: LatticeProblem, i: int, *,
     ``problem`` supplies the group, the grid and the lattice loops (at its own spacing,
     which may differ from the spec's in a study); the continuum loop is the spec's.
     """
+    if spec.closed:
+        return surface_references(spec, problem, i, scheme=scheme or spec.scheme)
     return lattice_references(problem, i, continuum=spec.loops[i].build(spec.spacing),
                               scheme=scheme or spec.scheme)
 
@@ -148,4 +152,41 @@ def correlator_references(problem: LatticeProblem, indices, *,
                 return ref
             moments[T] = v.value
     ref.exact_connected = joint_cumulant(S, moments)[0].real
+    return ref
+
+
+def surface_references(spec, problem: LatticeProblem, i: int, *, scheme: str) -> LoopReference:
+    """Exact references of loop ``i`` on the spec's closed surface
+    (:func:`holonomy.exact.exact_surface_wilson_loop`). ``exact`` is the value of the loop
+    as snapped for ``heat`` (the heat-kernel lattice measure on the surface is exact for
+    lattice loops, its conditioning on the drawn region's boundary included); the other
+    schemes have no known lattice value on a closed surface. ``continuum`` is the value
+    of the loop as specified."""
+    ref = LoopReference()
+    field = problem.field
+    kw = dict(coupling=field.coupling, genus=spec.genus, total_area=spec.total_area,
+              area=field.area)
+    cont = exact_surface_wilson_loop(problem.group, problem.rep,
+                                     spec.loops[i].build(spec.spacing), **kw)
+    if cont.value is not None:
+        ref.continuum, ref.continuum_method = cont.value.real, cont.method
+        if cont.zero_instanton is not None:
+            ref.zero_instanton = cont.zero_instanton.real
+        ref.truncation_bound = cont.truncation_bound
+    else:
+        ref.continuum_note = f"{NOT_AVAILABLE} ({cont.note})"
+    ref.gaussian_matrix_note = NOT_AVAILABLE + " (the Gaussian-matrix field is for the plane)"
+    if scheme != "heat":
+        ref.exact_note = (f"{NOT_AVAILABLE} (on a closed surface only the heat scheme's "
+                          "lattice value is known)")
+        return ref
+    lat = exact_surface_wilson_loop(problem.group, problem.rep, problem.loops[i], **kw)
+    if lat.value is None:
+        ref.exact_note = f"{NOT_AVAILABLE} ({lat.note})"
+    else:
+        ref.exact, ref.exact_imag, ref.exact_method = lat.value.real, lat.value.imag, lat.method
+        ref.snapped = lat.value.real
+        if lat.zero_instanton is not None:
+            ref.zero_instanton = lat.zero_instanton.real
+        ref.truncation_bound = lat.truncation_bound
     return ref

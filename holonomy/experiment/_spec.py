@@ -52,6 +52,7 @@ from noise import ArgumentError
 
 from .._formal_estimate import formal_schemes
 from .._schemes import SCHEMES
+from ..exact import drawn_measure
 from ..groups import FAMILIES, METRICS, MIN_N, matrix_size, parse_metric, parse_n, parse_rep, \
     rep_name
 
@@ -146,6 +147,13 @@ SPEC_KEYS: tuple[tuple[str, str, str], ...] = (
     ("run.block", f"samples per block, 1 to {MAX_BLOCK:.0e} (part of the spec: it fixes "
      "the random streams; a study lowers it to have 8 blocks)", f"{DEFAULT_BLOCK}"),
     ("run.seed", "an integer >= 0", "required for run and study"),
+    ("surface.kind", "`plane`, `sphere`, `torus` or `closed` (genus g): loops are drawn in "
+     "a chart of the plane; on a closed surface the unbounded face has the area T minus "
+     "the loop's drawn measure and carries the g handles", "`plane`"),
+    ("surface.genus", "g, an integer >= 0 (`closed` only; sphere 0, torus 1)",
+     "required with `closed`"),
+    ("surface.area", "T, the total area: larger than each loop's drawn measure (not with "
+     "`plane`)", "required unless `plane`"),
 )
 
 
@@ -172,6 +180,8 @@ _ELLIPSE_KEYS = _children("loops[i].ellipse")
 _CORRELATOR_KEYS = _children("correlators[i]")
 _OBS_KEYS = _children("observable")
 _RUN_KEYS = _children("run")
+_SURFACE_KEYS = _children("surface")
+SURFACE_KINDS = ("plane", "sphere", "torus", "closed")
 
 
 def format_spec_keys(*, markdown: bool = False) -> str:
@@ -263,12 +273,20 @@ class Spec:
     seed: int | None
     source: str = "<string>"
     correlators: tuple[tuple[str, ...], ...] = ()  # loop names of each [[correlators]]
+    surface: str = "plane"          # plane | sphere | torus | closed
+    genus: int | None = None        # None on the plane
+    total_area: float | None = None  # T, None on the plane
 
     @property
     def correlator_indices(self) -> tuple[tuple[int, ...], ...]:
         """The correlators as loop-index tuples."""
         index = {name: i for i, name in enumerate(self.names)}
         return tuple(tuple(index[n] for n in c) for c in self.correlators)
+
+    @property
+    def closed(self) -> bool:
+        """True on a closed surface (sphere, torus, any genus)."""
+        return self.surface != "plane"
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -796,6 +814,46 @@ def _rep_iv(obs: dict, family: str, n: int) -> str:
     return rep_name(kind, arg)
 
 
+def _surface_iv(data: dict, loops, spacing: float, density, purpose: str):
+    """``(kind, genus, T)`` of the ``[surface]`` table (README.md, Closed surfaces)."""
+    t = _table(data, "surface", "surface", _SURFACE_KEYS, required=False)
+    kind = _choice(t, "kind", "surface.kind", SURFACE_KINDS, default="plane")
+    if kind == "plane":
+        for key in ("genus", "area"):
+            if key in t:
+                raise SpecError(f"surface.{key}", f"got {_describe(t[key])} on the plane; "
+                                'expected no surface.' + key + ' unless kind is "sphere", '
+                                '"torus" or "closed"')
+        return "plane", None, None
+    if data.get("correlators"):
+        raise SpecError("correlators", f"got correlators with surface kind {kind!r}; "
+                        "expected none: correlators on closed surfaces are not available "
+                        "in this version")
+    fixed = {"sphere": 0, "torus": 1}.get(kind)
+    genus = _integer(t, "genus", "surface.genus", rule="an integer >= 0",
+                     check=lambda v: v >= 0, required=fixed is None, default=fixed)
+    if fixed is not None and genus != fixed:
+        raise SpecError("surface.genus", f"got {genus!r} with kind {kind!r}; expected "
+                        f"{fixed} (or kind \"closed\")")
+    T = _number(t, "area", "surface.area", rule="a number > 0, the total area T",
+                check=lambda v: 0 < v <= 1e100)
+    if purpose in ("run", "study", "series"):
+        raise SpecError("surface.kind", f"got {kind!r}; expected \"plane\" for `{purpose}`: "
+                        "sampling and series on closed surfaces are not available in this "
+                        "version (use `whitegauge exact` for exact surface values)")
+    if (density < 0) if isinstance(density, float) else any(r[4] < 0 for r in density):
+        raise SpecError("surface.kind", f"got {kind!r} with a density that changes sign; "
+                        "expected a non-negative density on a closed surface")
+    area = AreaForm(base=density) if isinstance(density, float) else \
+        AreaForm(base=1.0, rects=density)
+    for i, loop in enumerate(loops):
+        drawn = drawn_measure(loop.build(spacing), area)
+        if not T > drawn:
+            raise SpecError("surface.area", f"got {T!r}; expected a total area larger than "
+                            f"the drawn measure {drawn:.6g} of loops[{i}] ({loop.name!r})")
+    return kind, genus, T
+
+
 def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
              source: str) -> Spec:
     """Validate the parsed TOML ``data``; the one place where spec rules live."""
@@ -859,7 +917,10 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
     seed = _integer(r, "seed", "run.seed", rule="an integer >= 0",
                     check=lambda v: v >= 0, required=sampling)
 
+    surface, genus, total_area = _surface_iv(data, loops, spacing, density, purpose)
+
     return Spec(
+        surface=surface, genus=genus, total_area=total_area,
         name=name, text=text, sha256=hashlib.sha256(text.encode("utf-8")).hexdigest(),
         family=family, n=n, metric=metric, coupling=coupling, spacing=spacing,
         gauge=gauge, reference=reference, scheme=scheme, density=density, loops=loops,
