@@ -75,6 +75,17 @@ def _spacings(text: str) -> tuple[float, ...]:
     return tuple(sorted(vals, reverse=True))
 
 
+def _areas(text: str) -> tuple[float, ...]:
+    rule = "a comma-separated list of distinct total areas > 0, like 2,4,8,16"
+    try:
+        vals = tuple(float(t) for t in text.split(","))
+    except ValueError:
+        vals = ()
+    if not vals or any(not (0 < v < float("inf")) for v in vals) or len(set(vals)) != len(vals):
+        raise argparse.ArgumentTypeError(f"got {text!r}; expected {rule}")
+    return tuple(sorted(vals))
+
+
 def _schemes(text: str) -> tuple[str, ...]:
     vals = tuple(t.strip() for t in text.split(",") if t.strip())
     if not vals or any(v not in SCHEMES for v in vals) or len(set(vals)) != len(vals):
@@ -185,6 +196,26 @@ def build_parser() -> argparse.ArgumentParser:
     _spec_arg(p, "[run] is not needed")
     p.add_argument("--order", type=_order, required=True, metavar="M",
                    help="the highest order M, an integer from 0 to 20 (required)")
+    _json_arg(p)
+
+    p = _sub(sub, "decompactify", "a closed-surface spec's loops on spheres of growing "
+             "area against the plane: the two orders of limits",
+             "For a sphere spec ([surface] kind sphere, or closed with genus 0): per loop "
+             "and per total area T of --areas, the exact value on the sphere, its "
+             "zero-instanton sector and that sector's Taylor coefficients c_0..c_M in the "
+             "coupling (the whole small-coupling series: the other sectors are "
+             "O(exp(-const/lambda))); the plane's exact value and coefficients; and the "
+             "coefficients as T -> infinity (extrapolated in 1/T, with an error) with "
+             "their differences from the plane's. With --out, a plot of the values "
+             "against the coupling for each T, the plane and the zero-instanton curves.")
+    _spec_arg(p, "a sphere: [surface] kind sphere; surface.area is replaced by --areas")
+    p.add_argument("--areas", type=_areas, required=True, metavar="T1,T2,...",
+                   help="total areas, each larger than every loop's drawn measure "
+                   "(required)")
+    p.add_argument("--order", type=_order, required=True, metavar="M",
+                   help="the highest order M, an integer from 0 to 20 (required)")
+    p.add_argument("--out", metavar="DIR", help="folder for decompactify.png and "
+                   "decompactify.json (default: no files)")
     _json_arg(p)
 
     p = _sub(sub, "study", "the loops at several spacings and schemes, "
@@ -398,8 +429,34 @@ def _cmd_demo(args) -> int:
     return 0
 
 
+def _cmd_decompactify(args) -> int:
+    from holonomy.exact import drawn_measure
+    from holonomy.experiment._decompactify import (decompactify_results,
+                                                   format_decompactify_table,
+                                                   plot_decompactify)
+
+    spec = load_spec(args.spec, purpose="exact", overrides=args.overrides)
+    for i, loop in enumerate(spec.loops):
+        drawn = drawn_measure(loop.build(spec.spacing), spec.area_form())
+        if min(args.areas) <= drawn:
+            raise _UsageError(f"--areas: got {min(args.areas)!r}; expected total areas "
+                              f"larger than the drawn measure {drawn:.6g} of loops[{i}]")
+    obj = decompactify_results(spec, args.areas, args.order)
+    if args.out:
+        os.makedirs(args.out, exist_ok=True)
+        plot_decompactify(spec, obj, args.out)
+        with open(os.path.join(args.out, "decompactify.json"), "w") as fh:
+            json.dump(obj, fh, indent=2)
+    if args.json:
+        print(json.dumps(obj, indent=2))
+    else:
+        print(format_decompactify_table(obj))
+    return 0
+
+
 _COMMANDS = {"run": _cmd_run, "exact": _cmd_exact, "series": _cmd_series,
-             "study": _cmd_study, "spec": _cmd_spec, "demo": _cmd_demo}
+             "study": _cmd_study, "spec": _cmd_spec, "demo": _cmd_demo,
+             "decompactify": _cmd_decompactify}
 
 
 class _Terminated(KeyboardInterrupt):

@@ -76,7 +76,7 @@ from holonomy.groups import rep_weights, weight_system
 
 __all__ = ["SurfaceValue", "surface_partition_function", "surface_simple_loop",
            "surface_abelian_loop", "outer_face_kernel", "exact_surface_wilson_loop",
-           "drawn_measure"]
+           "drawn_measure", "zero_instanton_series"]
 
 _REL = 1e-16  # omitted terms below this fraction of the sum
 _MAX_TERMS = 400_000  # irreducibles (or dual lattice points) a route may sum over
@@ -707,6 +707,76 @@ def outer_face_kernel(group, genus: int, time: float, U) -> np.ndarray:
         raise ValueError(f"`U` must have shape (..., {group.N}, {group.N}), got {U.shape}.")
     values, _ = _Characters(group, g).kernel(t, U)
     return values
+
+
+def zero_instanton_series(group, rep, inside: float, total_area: float, order: int, *,
+                          turns: int = 1) -> np.ndarray:
+    r"""Taylor coefficients in the coupling of the zero-instanton sector of a simple loop
+    on the sphere: ``W_0(lambda) = sum_m c_m lambda^m``, m = 0..order.
+
+    The zero sector is ``sum_mu e^{-lambda kappa_mu} p_mu(lambda) / (z dim V)`` with
+    ``kappa_mu = s A (T - A) Q(mu) / (2 T)`` and ``p_mu`` a polynomial of degree P (the
+    number of positive roots): the Gaussian expectations of the Weyl dimension polynomial
+    are polynomials in the variance ``1/lambda`` and the normalization is homogeneous of
+    degree P. The polynomials are recovered exactly (up to rounding) from P + 1 values;
+    the exponentials are expanded. It carries the whole small-coupling series of the
+    sphere's value: the other sectors are ``O(exp(-const / lambda))`` and have no series.
+    As T grows the coefficients tend to those of the Gaussian-matrix value of area A,
+    not to the plane's ``exp(-c lambda A / 2)`` (for SU(2), k = 2: 5/128 against 9/128 at
+    order 2).
+
+    Parameters
+    ----------
+    group : Group
+    rep : str or Representation
+    inside, total_area : float
+        A and T (0 <= A <= T, T > 0).
+    order : int
+        Highest power of the coupling.
+    turns : int, optional
+
+    Returns
+    -------
+    ndarray (order + 1,)
+
+    References
+    ----------
+    .. [1] J. A. Minahan and A. P. Polychronakos, Nucl. Phys. B 422 (1994) 172-186
+       (instanton sectors on the sphere; from memory).
+    .. [2] D. J. Gross and A. Matytsin, "Instanton induced large N phase transitions in
+       two-dimensional and four-dimensional QCD", Nucl. Phys. B 429 (1994) 50-74
+       (from memory).
+
+    Examples
+    --------
+    >>> from holonomy.groups import make_group
+    >>> from holonomy.exact import zero_instanton_series
+    >>> c = zero_instanton_series(make_group("SU", 2, "physics"), "fundamental", 1.0, 1e9, 2)
+    >>> round(c[2] * 128, 6)   # the Gaussian-matrix coefficient 5/128 as T -> infinity
+    5.0
+    """
+    group, rep, A, T, _, _, p, _ = _simple_iv(group, rep, inside, total_area, 1.0, 0, turns, "auto")
+    if isinstance(order, bool) or not isinstance(order, numbers.Integral) or order < 0:
+        raise ValueError(f"`order` must be an integer >= 0, got {order!r}.")
+    weights = rep_weights(group, rep, p)
+    dual = _Dual(group)
+    W = dual.W
+    P = W.n_positive_roots
+    lams = np.arange(1, P + 2, dtype=float)
+    V = np.vander(lams, P + 1, increasing=True)
+    zw = np.zeros((1, W.r))
+    # z lambda^-P = E[d(Y)^2] at lambda (variance G^-1 / (s lambda T))
+    z = np.mean([dual.zero_sector(lam * T, 0.0, zw).real * lam**P for lam in lams])
+    out = np.zeros(order + 1)
+    fact = np.array([math.factorial(m) for m in range(order + 1)], float)
+    for mu in weights:
+        kappa = W.s * A * (T - A) / (2 * T) * float(mu @ W.G @ mu)
+        vals = [dual.zero_sector(lam * A, lam * (T - A), mu[None, :]).real
+                * math.exp(lam * kappa) * lam**P for lam in lams]
+        poly = np.linalg.solve(V, vals)  # p_mu(lambda) = sum_j poly_j lambda^j
+        expo = (-kappa) ** np.arange(order + 1) / fact
+        out += np.convolve(poly, expo)[: order + 1]
+    return out / (z * rep.dim)
 
 
 # --------------------------------------------------------------- loops

@@ -24,6 +24,7 @@ from scipy import integrate
 
 from discretize import Grid, LatticeLoop, Loop
 from holonomy.exact import (exact_surface_wilson_loop, outer_face_kernel, simple_loop,
+                            zero_instanton_series,
                             surface_abelian_loop, surface_partition_function,
                             surface_simple_loop)
 from holonomy.groups import make_group
@@ -464,3 +465,35 @@ class TestBadInput:
         with pytest.raises(ValueError, match="irreducibles"):
             surface_simple_loop(make_group("U", 4, "trace"), "fundamental", 1e-6, 2e-6,
                                 coupling=1.0, genus=2)
+
+
+class TestZeroInstantonSeries:
+    def test_su2_against_closed_form(self):
+        # Taylor coefficients of (1 - tau/4) e^{-tau/8}, tau = lambda a (T - a)/T (sympy)
+        import sympy as sp
+        a, T = 1.0, 3.0
+        x = sp.symbols("x")
+        tau = sp.Rational(2, 3) * x
+        ref = sp.series((1 - tau / 4) * sp.exp(-tau / 8), x, 0, 6).removeO()
+        got = zero_instanton_series(make_group("SU", 2, "physics"), "fundamental", a, T, 5)
+        np.testing.assert_allclose(got, [float(ref.coeff(x, m)) for m in range(6)], atol=1e-12)
+
+    def test_two_orders_of_limits(self):
+        # T -> infinity: 5/128 at order 2 (the Gaussian matrix E[tr exp X]/2), against the
+        # plane's 9/128 = (3/8)^2 / 2 (Taylor coefficient of exp(-3 lambda A / 8))
+        G = make_group("SU", 2, "physics")
+        c = [zero_instanton_series(G, "fundamental", 1.0, T, 2)[2] for T in (1e3, 1e4, 1e5)]
+        assert c[-1] == pytest.approx(5 / 128, abs=1e-5)
+        assert abs(c[0] - 5 / 128) > abs(c[1] - 5 / 128) > abs(c[2] - 5 / 128)
+
+    @pytest.mark.parametrize("fam, n", [("SU", 3), ("U", 2), ("Sp", 2), ("SO", 3)])
+    def test_series_matches_the_zero_sector(self, fam, n):
+        # the truncated series differs from the zero sector by O(lambda^(M+1))
+        G = make_group(fam, n, "physics")
+        c = zero_instanton_series(G, "fundamental", 0.7, 2.0, 3)
+        assert c[0] == pytest.approx(1.0, abs=1e-12)
+        errs = []
+        for lam in (0.1, 0.05):
+            w0 = surface_simple_loop(G, "fundamental", 0.7, 2.0, coupling=lam).zero_instanton.real
+            errs.append(abs(w0 - np.polyval(c[::-1], lam)))
+        assert errs[1] < errs[0] / 10  # fourth order: a factor 16
