@@ -187,8 +187,14 @@ class LatticeProblem:
 
     @cached_property
     def lattice_loops(self) -> tuple:
-        return tuple(lp if isinstance(lp, LatticeLoop) else lp.snap(self.grid)
-                     for lp in self.loops)
+        out = []
+        for i, lp in enumerate(self.loops):
+            try:
+                out.append(lp if isinstance(lp, LatticeLoop) else lp.snap(self.grid))
+            except ValueError as exc:  # snaps to nothing: name the loop by its index
+                raise ArgumentError(f"loops[{i}]", str(exc).removeprefix("`loop` ")) \
+                    from None
+        return tuple(out)
 
     @cached_property
     def plan(self):

@@ -22,7 +22,7 @@ from ._problems import build_lattice
 from ._references import NOT_AVAILABLE, loop_references
 from ._report import clean, correlator_rows
 from ._runner import worker_init
-from ._spec import Spec, SpecError, spec_arg
+from ._spec import Spec, spec_arg
 
 __all__ = ["exact_results", "series_results", "geometry_problem", "MAX_SERIES_ORDER",
            "SERIES_BUDGET", "RATIONAL_STEPS", "SeriesBudgetExceeded", "budget_limited"]
@@ -232,10 +232,9 @@ def series_results(spec: Spec | str | os.PathLike, order: int, *, loops: Sequenc
     rows = []
     problem = None
     note = None
-    try:
-        problem = build_lattice(spec)
-    except SpecError as exc:
-        note = f"{NOT_AVAILABLE} ({exc})"
+    # refused exactly as `run` and `exact` refuse it (a SpecError on its key), before
+    # any work
+    problem = build_lattice(spec)
     todo = [i for i in range(len(spec.names)) if loops is None or i in loops]
     if progress is not None:
         progress.stage(f"{spec.name}: series", 2 * len(todo))

@@ -46,6 +46,8 @@ def _field(spec: Spec, scheme: str | None, spacing: float) -> Field:
 
 
 def _refused(exc: ArgumentError) -> SpecError:
+    if exc.argument.startswith("loops["):  # the engine names the loop by its index
+        return SpecError(exc.argument, exc.rule)
     return SpecError(ARGUMENT_KEYS.get(exc.argument, "spec"), exc.rule)
 
 
@@ -57,10 +59,11 @@ def build_lattice(spec: Spec, *, scheme: str | None = None,
     loops = _loops(spec, h)
     fld = _field(spec, scheme, h)
     try:
-        return LatticeProblem(family=spec.family, n=spec.n, metric=spec.metric, field=fld,
-                              loops=loops, names=spec.names, rep=spec.rep)
+        problem = LatticeProblem(family=spec.family, n=spec.n, metric=spec.metric,
+                                 field=fld, loops=loops, names=spec.names, rep=spec.rep)
     except ArgumentError as exc:
         raise _refused(exc) from None
+    return problem
 
 
 def build_problem(spec: Spec, *, scheme: str | None = None, spacing: float | None = None,
@@ -74,10 +77,11 @@ def build_problem(spec: Spec, *, scheme: str | None = None, spacing: float | Non
     loops = _loops(spec, h)
     fld = _field(spec, scheme, h)
     try:
-        return WilsonProblem(
+        problem = WilsonProblem(
             family=spec.family, n=spec.n, metric=spec.metric, field=fld, loops=loops,
             names=spec.names, rep=spec.rep, samples=spec.samples, block=spec.block,
             seed=spec.seed, path="auto", formal=formal,
             correlators=spec.correlator_indices)
     except ArgumentError as exc:
         raise _refused(exc) from None
+    return problem

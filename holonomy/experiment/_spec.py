@@ -75,6 +75,7 @@ MAX_CELLS = 10**7        # cells of the grid that covers the loops at the spacin
 MAX_STEPS = 10**6        # count of one moves token
 
 MAX_SIDES = 100_000      # vertices of a sampled circle, ellipse or curve
+MAX_TURNS = 1000         # times one loop is traversed (its lattice path grows with it)
 
 
 def _one_of(names) -> str:
@@ -121,7 +122,7 @@ SPEC_KEYS: tuple[tuple[str, str, str], ...] = (
     ("loops[i].circle", "a regular polygon on a circle", "one loop kind is required"),
     ("loops[i].circle.center", "[x, y]", "required"),
     ("loops[i].circle.radius", "r > 0", "required"),
-    ("loops[i].circle.sides", "m >= 3", "required"),
+    ("loops[i].circle.sides", f"m, 3 <= m <= {MAX_SIDES}", "required"),
     ("loops[i].ellipse", "the axis-parallel ellipse sampled at m points (exact area "
      "pi a b)", "one loop kind is required"),
     ("loops[i].ellipse.center", "[x, y]", "required"),
@@ -136,7 +137,8 @@ SPEC_KEYS: tuple[tuple[str, str, str], ...] = (
     ("loops[i].moves", 'lattice steps like "R4 U2 L4 D2" (a direction R, L, U or D and '
      "a count >= 1) in units of the spacing; must close", "one loop kind is required"),
     ("loops[i].start", "[x, y] where the moves begin (moves only)", "required with moves"),
-    ("loops[i].turns", "times the loop is traversed, an integer >= 1", "1"),
+    ("loops[i].turns", f"times the loop is traversed, an integer from 1 to {MAX_TURNS}",
+     "1"),
     ("correlators", "an array of tables [[correlators]], one per correlator E[W(a) W(b) "
      "...] to estimate with its connected part and compare with its exact value", "none"),
     ("correlators[i].loops", "names of two or more distinct loops of the spec", "required"),
@@ -203,7 +205,7 @@ def format_spec_keys(*, markdown: bool = False) -> str:
 
 LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM, "power": MAX_POWER,
           "samples": MAX_SAMPLES, "block": MAX_BLOCK, "grid cells": MAX_CELLS,
-          "steps per move": MAX_STEPS, "sides": MAX_SIDES}
+          "steps per move": MAX_STEPS, "sides": MAX_SIDES, "turns": MAX_TURNS}
 
 
 class SpecError(ValueError):
@@ -661,8 +663,9 @@ def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
         raise SpecError(path, f"has {got}; expected exactly one of "
                         f"{', '.join(_LOOP_KINDS)}")
     kind = kinds[0]
-    turns = _integer(item, "turns", f"{path}.turns", rule="an integer >= 1",
-                     check=lambda v: v >= 1, required=False, default=1)
+    turns = _integer(item, "turns", f"{path}.turns",
+                     rule=f"an integer >= 1 and <= {MAX_TURNS}",
+                     check=lambda v: 1 <= v <= MAX_TURNS, required=False, default=1)
     if "start" in item and kind != "moves":
         raise SpecError(f"{path}.start", "only applies to a loop given by moves")
     if kind == "vertices":
@@ -687,8 +690,7 @@ def _loop_iv(item: Any, i: int, spacing: float) -> LoopSpec:
         center = _point(c["center"], f"{cpath}.center")
         radius = _number(c, "radius", f"{cpath}.radius", rule="a number > 0",
                          check=lambda v: v > 0)
-        sides = _integer(c, "sides", f"{cpath}.sides", rule="an integer >= 3",
-                         check=lambda v: v >= 3)
+        sides = _sides(c, cpath)
         return LoopSpec(name=name, kind=kind, center=center, radius=radius, sides=sides,
                         turns=turns)
     if kind in ("ellipse", "curve"):

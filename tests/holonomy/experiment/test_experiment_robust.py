@@ -492,3 +492,49 @@ def test_long_and_unusual_loop_names_plot_quietly(tmp_path, capfd):
     _own_lines_only(capfd.readouterr().err)
     obj = json.loads((tmp_path / "s" / "study.json").read_text())
     assert any(len(r["loop"]) > 10000 for r in obj["results"])  # in full in the file
+
+
+# --------------------------------------------------------------------------- one gate
+
+def _m(*pairs):
+    text = SPEC
+    for old, new in pairs:
+        assert old in text, old
+        text = text.replace(old, new, 1)
+    return text
+
+
+BOX = "vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]"
+# specs every command must refuse alike (id, text, key); found passing some commands
+INVALID = [
+    ("snaps-to-nothing", _m((BOX, "vertices = [[0.0, 0.0], [0.01, 0.0], [0.01, 0.01]]")),
+     "loops[0]"),
+    ("wilson-on-U3", _m(('family = "SU"', 'family = "U"'), ("n = 2", "n = 3"),
+                        ('scheme = "heat"', 'scheme = "wilson"')), "field.scheme"),
+    ("sides-1e12", _m((BOX, "circle = { center = [0.5, 0.5], radius = 0.4, "
+                            "sides = 1000000000000 }")), "loops[0].circle.sides"),
+    ("turns-1e12", _m(('name = "box"', 'name = "box"\nturns = 1000000000000')),
+     "loops[0].turns"),
+    ("power-minus-2", _m(("[run]", '[observable]\nrep = "power:-2"\n[run]')),
+     "observable.rep"),
+    ("unicode-digit-in-moves", _m(('"R2 U1 L1 U1 L1 D2"', '"R\u0662 U1 L1 U1 L1 D2"')),
+     "loops[1].moves"),
+    ("nul-in-name", _m(('name = "robust"', 'name = "a\\u0000"')), "name"),
+]
+COMMANDS = {"run": ["--quiet"], "exact": [], "series": ["--order", "2"],
+            "study": ["--spacings", "0.25,0.125", "--quiet"]}
+
+
+@pytest.mark.parametrize("text,key", [c[1:] for c in INVALID], ids=[c[0] for c in INVALID])
+def test_every_command_refuses_alike_before_any_work(text, key, tmp_path, capsys):
+    spec = _write(tmp_path, text)
+    lines = set()
+    for command, extra in COMMANDS.items():
+        out = tmp_path / command
+        args = [command, str(spec), *extra]
+        if command in ("run", "study"):
+            args += ["--out", str(out)]
+        assert main(args) == 2, command
+        lines.add(_one_line(capsys.readouterr().err, f"whitegauge: error: {key}: "))
+        assert not out.exists()  # refused before any work: not even the folder
+    assert len(lines) == 1, lines  # the same message from every command
