@@ -17,6 +17,7 @@ import numpy as np
 from holonomy import LatticeProblem, exact_series, get_scheme, lattice_covariance
 from holonomy._lattice_series import gauss_loadings
 from holonomy._series import _key_graph
+from holonomy.exact import ExactRouteError, exact_master_field, master_field_series
 
 from ._problems import build_lattice
 from ._references import NOT_AVAILABLE, loop_references
@@ -40,6 +41,8 @@ def exact_results(spec: Spec | str | os.PathLike) -> dict:
     ``spec`` is a :class:`Spec` or the path of a spec file."""
     spec = spec_arg(spec, "exact")
     problem = geometry_problem(spec)
+    if spec.large_n:
+        return _master_field_results(spec, problem)
     rows = []
     for i, name in enumerate(spec.names):
         ref = loop_references(spec, problem, i)
@@ -61,6 +64,68 @@ def exact_results(spec: Spec | str | os.PathLike) -> dict:
                   "coupling": spec.coupling, "spacing": spec.spacing,
                   "formal": bool(spec.signed), "results": rows,
                   "correlators": correlator_rows(spec, problem)})
+
+
+def _master_value(fn, *args, **kwargs):
+    """``(value, method, note)`` of a master-field route, or the reason it has none."""
+    try:
+        out = fn(*args, **kwargs)
+    except (ExactRouteError, ValueError) as exc:
+        return None, None, f"{NOT_AVAILABLE} ({exc})"
+    return out, None, None
+
+
+def _master_field_results(spec: Spec, problem, order: int | None = None) -> dict:
+    """``group.n = "inf"``: per loop the master field (``exact``: of the loop as
+    snapped; ``continuum``: as specified), or its Taylor coefficients with ``order``."""
+    area = problem.field.area
+    rows = []
+    for i, name in enumerate(spec.names):
+        loops = {"exact": problem.lattice_loops[i],
+                 "continuum": spec.loops[i].build(spec.spacing)}
+        row = {"loop": name, "rep": spec.rep, "kind": "series" if order is not None
+               else "exact", "scheme": spec.scheme, "formal": bool(spec.signed)}
+        for key, loop in loops.items():
+            if order is None:
+                out, _, note = _master_value(exact_master_field, loop,
+                                             coupling=spec.coupling, area=area, rep=spec.rep)
+                row[key] = None if out is None else complex(out.value).real
+                row[f"{key}_method"] = None if out is None else \
+                    f"{out.method} (U(N), N -> infinity)"
+            else:
+                out, _, note = _master_value(master_field_series, loop, order, area=area,
+                                             rep=spec.rep)
+                col = "coefficients" if key == "exact" else "continuum"
+                row[col] = None if out is None else [float(c) for c in out]
+                row[f"{col}_method" if key != "exact" else "method"] = (
+                    "master field (N -> infinity): Cauchy integral of the exact value")
+            row[f"{key}_note" if key != "exact" or order is None else "note"] = note
+        if order is not None:
+            row.update({"order": order, "expands": "master field (N -> infinity), as "
+                        "snapped", "rationals": None, "rationals_note":
+                        "the master field's coefficients are floats (Cauchy integral)",
+                        "asymptotic": False, "variable": "coupling (lambda)"})
+        rows.append(row)
+    out = {"name": spec.name, "spec_sha256": spec.sha256,
+           "group": {"family": spec.family, "n": spec.n, "metric": spec.metric},
+           "coupling": spec.coupling, "spacing": spec.spacing,
+           "formal": bool(spec.signed), "results": rows}
+    if order is not None:
+        out.update({"scheme": spec.scheme, "order": order})
+    else:
+        # traces factorize as N -> infinity: a correlator is the product, connected 0
+        out["correlators"] = []
+        for names in spec.correlators:
+            vals = [next(r["exact"] for r in rows if r["loop"] == n) for n in names]
+            ok = all(v is not None for v in vals)
+            out["correlators"].append({
+                "loops": list(names), "kind": "correlator", "scheme": spec.scheme,
+                "exact": float(np.prod(vals)) if ok else None,
+                "exact_connected": 0.0 if ok else None,
+                "exact_method": "master field: traces factorize as N -> infinity"
+                if ok else None,
+                "exact_note": None if ok else NOT_AVAILABLE})
+    return clean(out)
 
 
 #: exact (sympy) series only for loops with at most this many non-trivial horizontal
@@ -222,6 +287,8 @@ def series_results(spec: Spec | str | os.PathLike, order: int, *, loops: Sequenc
     """
     spec = spec_arg(spec, "series")
     order = _order_iv(order)
+    if spec.large_n:
+        return _master_field_results(spec, build_lattice(spec), order)
     if loops is not None and (isinstance(loops, (str, bytes)) or not all(
             isinstance(i, int) and not isinstance(i, bool) for i in loops)):
         raise TypeError(f"`loops` must be a sequence of loop indices or None; got "

@@ -59,7 +59,9 @@ def build_lattice(spec: Spec, *, scheme: str | None = None,
     loops = _loops(spec, h)
     fld = _field(spec, scheme, h)
     try:
-        problem = LatticeProblem(family=spec.family, n=spec.n, metric=spec.metric,
+        # the master field (n = "inf") borrows U(1) as the carrier of its geometry
+        n = 1 if spec.n == "inf" else spec.n
+        problem = LatticeProblem(family=spec.family, n=n, metric=spec.metric,
                                  field=fld, loops=loops, names=spec.names, rep=spec.rep)
     except ArgumentError as exc:
         raise _refused(exc) from None

@@ -103,7 +103,8 @@ SPEC_KEYS: tuple[tuple[str, str, str], ...] = (
     ("name", "the experiment's name (names the default output folder)", "the file's stem"),
     ("group.family", f"the group family: {_one_of(FAMILIES)}", "required"),
     ("group.n", "the group size: U(n) n >= 1, SU(n) n >= 2, SO(n) n >= 2, Sp(n) n >= 1 "
-     f"(matrix size at most {MAX_MATRIX})", "required"),
+     f"(matrix size at most {MAX_MATRIX}); \"inf\" with family U and metric large-n: the "
+     "master field as n -> infinity (exact and series only)", "required"),
     ("group.metric", f"{_one_of(METRICS)} (k = 1, 2, matrix size) or a number k in "
      "[1e-6, 1e6]: the inner product -k Re tr(XY)", "required"),
     ("field.coupling", "lambda, a number in [1e-100, 1e100]", "required"),
@@ -293,6 +294,11 @@ class Spec:
     @property
     def names(self) -> tuple[str, ...]:
         return tuple(loop.name for loop in self.loops)
+
+    @property
+    def large_n(self) -> bool:
+        """True for ``group.n = "inf"``: the U(N) master field as N -> infinity."""
+        return self.n == "inf"
 
     @property
     def signed(self) -> bool:
@@ -579,9 +585,19 @@ def _point(value: Any, path: str) -> tuple[float, float]:
 
 # --------------------------------------------------------------------------- sections
 
-def _group_iv(data: dict) -> tuple[str, int, str | float]:
+def _group_iv(data: dict, purpose: str = "run") -> tuple[str, int | str, str | float]:
     g = _table(data, "group", "group", _GROUP_KEYS)
     family = _choice(g, "family", "group.family", FAMILIES)
+    if g.get("n") == "inf":
+        # the U(N) master field, N -> infinity (holonomy.exact.exact_master_field)
+        if family != "U" or g.get("metric") != "large-n":
+            raise SpecError("group.n", f'got "inf" with family {family!r} and metric '
+                            f'{g.get("metric")!r}; expected "inf" only with family "U" '
+                            'and metric "large-n" (the master field)')
+        if purpose in ("run", "study"):
+            raise SpecError("group.n", 'got "inf"; the master field (N -> infinity) has '
+                            "no samples: use the exact or series command")
+        return family, "inf", "large-n"
     low = MIN_N[family]
     n = _integer(g, "n", "group.n", rule=f"an integer >= {low} for {family}")
     try:
@@ -864,7 +880,7 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
     if not isinstance(name, str) or not name.strip() or "\0" in name:
         raise SpecError("name", f"got {_describe(name)}; expected a non-empty string "
                         "without NUL characters")
-    family, n, metric = _group_iv(data)
+    family, n, metric = _group_iv(data, purpose)
 
     f = _table(data, "field", "field", _FIELD_KEYS)
     coupling = _number(f, "coupling", "field.coupling",
