@@ -21,10 +21,10 @@ import traceback
 
 from holonomy import SCHEMES, __version__, study_schemes
 from holonomy.experiment import (DEMO_GROUPS, MAX_SERIES_ORDER, MAX_WORKERS, BlockFailed,
-                                 Progress, SpecError, default_out, exact_results,
-                                 format_exact_table, format_series_table, format_spec_keys,
-                                 format_table, load_spec, printable, run_demo, run_spec,
-                                 run_study, series_results, study_block)
+                                 Progress, SpecError, claim_folder, default_out,
+                                 exact_results, format_exact_table, format_series_table,
+                                 format_spec_keys, format_table, load_spec, printable,
+                                 run_demo, run_spec, run_study, series_results, study_block)
 
 __all__ = ["build_parser", "main"]
 
@@ -216,6 +216,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="the highest order M, an integer from 0 to 20 (required)")
     p.add_argument("--out", metavar="DIR", help="folder for decompactify.png and "
                    "decompactify.json (default: no files)")
+    p.add_argument("--fresh", action="store_true", help=_FRESH)
     _json_arg(p)
 
     p = _sub(sub, "study", "the loops at several spacings and schemes, "
@@ -442,11 +443,13 @@ def _cmd_decompactify(args) -> int:
             raise _UsageError(f"--areas: got {min(args.areas)!r}; expected total areas "
                               f"larger than the drawn measure {drawn:.6g} of loops[{i}]")
     obj = decompactify_results(spec, args.areas, args.order)
-    if args.out:
-        os.makedirs(args.out, exist_ok=True)
-        plot_decompactify(spec, obj, args.out)
-        with open(os.path.join(args.out, "decompactify.json"), "w") as fh:
-            json.dump(obj, fh, indent=2)
+    if args.out:  # the folder belongs to this command and job, as for run and study
+        job = f"{spec.sha256}:decompactify:{list(args.areas)}:{args.order}"
+        with claim_folder(args.out, command="decompactify", identity=job, name=spec.name,
+                          fresh=args.fresh):
+            plot_decompactify(spec, obj, args.out)
+            with open(os.path.join(args.out, "decompactify.json"), "w") as fh:
+                json.dump(obj, fh, indent=2)
     if args.json:
         print(json.dumps(obj, indent=2))
     else:

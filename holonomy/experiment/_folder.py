@@ -46,7 +46,8 @@ _OWNER_FORMAT = 1
 #: discarded by ``fresh``, and finding one without an owner record refuses the folder
 FOLDER_FILES = ("run.sqlite", "study.sqlite", "results.json", "results.csv", "study.json",
                 "study.csv", "convergence.png", "report.md", "series.png",
-                "survey-SU2.png", "survey-U3.png", "z-scores.png")
+                "survey-SU2.png", "survey-U3.png", "z-scores.png", "decompactify.json",
+                "decompactify.png")
 _FOLDER_DIRS = {"demo": ("runs", "specs")}  # folders a command owns entirely
 _SQLITE_SIDE = ("-wal", "-shm", "-journal")
 _NAME_BYTES = 120  # of the sanitised name: well inside the 255-byte limit of file names

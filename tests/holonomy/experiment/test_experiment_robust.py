@@ -538,3 +538,17 @@ def test_every_command_refuses_alike_before_any_work(text, key, tmp_path, capsys
         lines.add(_one_line(capsys.readouterr().err, f"whitegauge: error: {key}: "))
         assert not out.exists()  # refused before any work: not even the folder
     assert len(lines) == 1, lines  # the same message from every command
+
+
+def test_decompactify_refuses_a_run_folder_unless_fresh(tmp_path, capsys):
+    from tests.conftest import spec_text
+
+    sphere = spec_text('[[loops]]\nname = "box"\nvertices = [[0, 0], [1, 0], [1, 1], '
+                       '[0, 1]]\n', name="dec") + '[surface]\nkind = "sphere"\narea = 4.0\n'
+    spec = _write(tmp_path, sphere, "sphere.toml")
+    out = _foreign_folder(tmp_path, "run")
+    args = ["decompactify", str(spec), "--areas", "2,4", "--order", "2", "--out", str(out)]
+    assert main(args) == 2
+    _one_line(capsys.readouterr().err, "`whitegauge run`", "not of `whitegauge decompactify`")
+    assert main(args + ["--fresh"]) == 0
+    assert (out / "decompactify.json").exists() and not (out / "results.json").exists()
