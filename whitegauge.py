@@ -26,8 +26,8 @@ What is here:
 - exact values: :func:`exact_wilson_loop`, :func:`evaluate_polygon`,
   :func:`simple_loop`, :func:`u1_loop`, :func:`unitary_wound_loop`,
   :func:`wilson_lattice_loop`, :func:`gaussian_step`, :func:`exact_surface_wilson_loop`;
-- series: :func:`lattice_series`, :func:`continuum_series`,
-  :func:`exp_product_series`;
+- series: :func:`lattice_series`, :func:`continuum_series`, :func:`exact_series`,
+  :func:`exp_product_series`, :func:`gaussian_matrix` (the Gaussian-matrix prescription);
 - formal Gaussians: :class:`FormalGaussian`.
 
 The packages underneath (:mod:`noise`, :mod:`discretize`, :mod:`holonomy`) stay
@@ -42,7 +42,9 @@ from holonomy import (
     __version__,
     continuum_series,
     estimate_wilson_loops,
+    exact_series,
     exp_product_series,
+    gaussian_matrix,
     lattice_series,
 )
 from holonomy.exact import (
@@ -85,7 +87,8 @@ __all__ = [
     "exact_wilson_loop", "evaluate_polygon", "simple_loop", "u1_loop", "unitary_wound_loop",
     "wilson_lattice_loop", "gaussian_step", "exact_surface_wilson_loop",
     # series
-    "lattice_series", "continuum_series", "exp_product_series",
+    "lattice_series", "continuum_series", "exact_series", "exp_product_series",
+    "gaussian_matrix",
     # formal Gaussians
     "FormalGaussian",
 ]

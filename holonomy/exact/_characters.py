@@ -34,6 +34,8 @@ from fractions import Fraction
 import numpy as np
 from scipy import special
 
+from holonomy.groups._weights import _weight_system
+
 __all__ = ["class_weights", "adams_decomposition", "weyl_dimension",
            "dominant_casimir", "wilson_character"]
 
@@ -99,21 +101,23 @@ def adams_decomposition(weights, n: int = 1) -> dict[tuple[int, ...], int]:
 
 
 def weyl_dimension(lam) -> int:
-    """Dimension of the U(N) irreducible with dominant weight ``lam`` (Weyl)."""
-    N = len(lam)
-    v = [lam[i] + N - 1 - i for i in range(N)]
-    num = math.prod(v[i] - v[j] for i in range(N) for j in range(i + 1, N))
-    den = math.prod(j - i for i in range(N) for j in range(i + 1, N))
-    return num // den
+    """Dimension of the U(N) irreducible with dominant weight ``lam`` (Weyl), from the
+    highest-weight calculus of :mod:`holonomy.groups` (its one home)."""
+    ws = _weight_system("U", len(lam), 1.0)
+    return int(round(float(ws.dimension(ws.shifted(lam)))))
 
 
 def dominant_casimir(lam, k: float, special_unitary: bool) -> float:
-    """Casimir of the dominant weight ``lam`` for the metric ``-k Re tr`` (U(N) or SU(N))."""
-    N = len(lam)
-    c = sum(l * (l + N + 1 - 2 * i) for i, l in enumerate(lam, start=1)) / k
+    """Casimir of the dominant weight ``lam`` for the metric ``-k Re tr`` (U(N) or SU(N)),
+    from the highest-weight calculus of :mod:`holonomy.groups`."""
+    lam = np.asarray(lam, dtype=float)
     if special_unitary:
-        c -= sum(lam) ** 2 / (k * N)
-    return float(c)
+        # SU(N): the traceless part of the weight, in the lattice coordinates nu_N = 0
+        ws = _weight_system("SU", len(lam), float(k))
+        lam = lam - lam[-1]
+    else:
+        ws = _weight_system("U", len(lam), float(k))
+    return float(ws.casimir(ws.shifted(lam)))
 
 
 def _bessel_det(lam, b: float, shift: int = 0) -> float:

@@ -15,10 +15,10 @@ from dataclasses import dataclass
 from itertools import combinations
 
 from discretize import Loop
-from holonomy import LatticeProblem, get_scheme
+from holonomy import LatticeProblem, gaussian_matrix, get_scheme
 from holonomy._estimate import joint_cumulant
 from holonomy.exact import (NOT_AVAILABLE, exact_surface_wilson_loop, exact_wilson_loop,
-                            gaussian_matrix, heat_lattice_value, loop_value)
+                            heat_lattice_value, loop_value)
 
 __all__ = ["LoopReference", "CorrelatorReference", "lattice_references", "loop_references",
            "correlator_references", "surface_references", "NOT_AVAILABLE",
@@ -31,7 +31,7 @@ GAUSSIAN_MATRIX_ORDER = 4
 def gaussian_matrix_field(group, rep, loop, coupling, area, order: int = GAUSSIAN_MATRIX_ORDER
                           ) -> tuple[dict | None, str | None]:
     """The ``gaussian_matrix`` field of a loop: the Gaussian-matrix prescription
-    (:func:`holonomy.exact.gaussian_matrix`) for a simple loop, with its series and the
+    (:func:`holonomy.gaussian_matrix`) for a simple loop, with its series and the
     first order at which it differs from the exact value; ``(None, note)`` otherwise."""
     try:
         ev = exact_wilson_loop(group, rep, loop, coupling=1.0, area=area)

@@ -42,7 +42,7 @@ References
 ----------
 .. [1] W. Fulton and J. Harris, "Representation Theory: A First Course", Springer, 1991,
    Sections 24.1 (Weyl character and dimension formulas), 25.1 (Casimir,
-   ``<lam, lam + 2 rho>``), 25.3 (Brauer-Klimyk formula, Exercise 25.33) and Lectures
+   ``<lam, lam + 2 rho>``), 25.3 (Brauer-Klimyk formula, Exercise 25.33) and §§
    15-20 (root systems of the classical groups).
 .. [2] J. E. Humphreys, "Introduction to Lie Algebras and Representation Theory",
    Springer, 1972, Sections 22.5 (Casimir) and 24 (Weyl, Kostant, Steinberg formulas;

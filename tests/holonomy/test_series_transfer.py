@@ -4,7 +4,7 @@ products give the same coefficients as the edge transfer of `exp_product_series`
 Outside anchors for the same engine are in test_series.py (Laguerre and SU(2) closed
 forms of one Gaussian exponential, Isserlis counts); here the routes are checked
 against each other and against a literal Monte Carlo-free identity:
-tr(X^w) = tr(X^{(x)w} P) for the cyclic shift P (Fulton and Harris 1991, Lecture 6,
+tr(X^w) = tr(X^{(x)w} P) for the cyclic shift P (Fulton and Harris 1991, §6,
 Schur-Weyl duality; from memory).
 """
 

@@ -6,7 +6,7 @@ References for the checks:
 - Dimensions: SU(3) ``(p+1)(q+1)(p+q+2)/2`` (H. Georgi, "Lie Algebras in Particle
   Physics", 2nd ed., 1999, Eq. (9.37), from memory); Sp(2) = Spin(5) irreducibles
   1, 4, 5, 10, 14, 16, 20, ... (W. Fulton and J. Harris, "Representation Theory", 1991,
-  Lecture 16, from memory); U(n): the hook-content formula (R. P. Stanley, "Enumerative
+  §16, from memory); U(n): the hook-content formula (R. P. Stanley, "Enumerative
   Combinatorics II", 1999, Corollary 7.21.4).
 - Fusion: SU(3) ``(p, q) (x) 3 = (p+1, q) + (p-1, q+1) + (p, q-1)`` (Georgi 1999,
   Section 10.3, Young tableaux, from memory); SU(2) Clebsch-Gordan; the dimension count
@@ -63,7 +63,7 @@ def test_su3_dimensions_and_casimirs():
 def test_sp2_dimensions():
     # Sp(2) = Spin(5), Dynkin labels (a, b), highest weight a w1 + b w2 = (a + b, b):
     # d = (a+1)(b+1)(a+b+2)(a+2b+3)/6, the sequence 1, 4, 5, 10, 14, 16, 20, 30, 35, ...
-    # (Fulton and Harris 1991, Lecture 16, from memory)
+    # (Fulton and Harris 1991, §16, from memory)
     W = weight_system(make_group("Sp", 2, "physics"))
     for a, b in itertools.product(range(5), repeat=2):
         want = (a + 1) * (b + 1) * (a + b + 2) * (a + 2 * b + 3) / 6

@@ -23,7 +23,7 @@ import pytest
 import scipy.special
 import sympy
 
-from holonomy.exact import gaussian_matrix
+from holonomy import gaussian_matrix
 from holonomy.groups import make_group
 
 
