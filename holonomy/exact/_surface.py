@@ -71,8 +71,10 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.special import gammaln
 
-from discretize import LatticeLoop, Loop
+from discretize import AreaForm, LatticeLoop, Loop
 from holonomy.groups import rep_weights, weight_system
+
+from ._dispatch import _exact_wilson_loop_iv, _lattice_shape, _polygon_shape
 
 __all__ = ["SurfaceValue", "surface_partition_function", "surface_simple_loop",
            "surface_abelian_loop", "outer_face_kernel", "exact_surface_wilson_loop",
@@ -781,8 +783,6 @@ def zero_instanton_series(group, rep, inside: float, total_area: float, order: i
 
 # --------------------------------------------------------------- loops
 def _shape(loop, area):
-    from ._dispatch import _lattice_shape, _polygon_shape
-
     return (_lattice_shape if isinstance(loop, LatticeLoop) else _polygon_shape)(loop, area)
 
 
@@ -792,8 +792,6 @@ def drawn_measure(loop, area=None) -> float:
     On a closed surface of total measure T the loop's unbounded face has ``T`` minus
     this measure.
     """
-    from discretize import AreaForm
-
     shape = _shape(loop, AreaForm() if area is None else area)
     if shape.measures is None:
         raise ValueError("`area` density cannot be integrated over the loop's faces.")
@@ -847,8 +845,6 @@ def exact_surface_wilson_loop(group, rep, loop, *, coupling: float, genus: int,
     >>> r.method, round(r.value.real, 12)
     ('surface-character-sum', 0.661872996076)
     """
-    from ._dispatch import _exact_wilson_loop_iv
-
     g = _genus_iv(genus)
     T = _nonneg_iv(total_area, "total_area", positive=True)
     group, rep, loop, lam, area = _exact_wilson_loop_iv(group, rep, loop, coupling, area)
