@@ -44,6 +44,8 @@ from typing import Sequence
 
 import numpy as np
 
+from noise import ArgumentError
+
 from ._area import AreaForm
 from ._grid import Grid
 
@@ -207,12 +209,15 @@ def axial_plan(grid: Grid, loops: Sequence, *, gauge: str = "axial-y",
         r = (coord - frame.origin[1]) / h
         ref_row = int(round(r))
         if abs(r - ref_row) > 1e-9 * max(1.0, abs(r)):
-            raise ValueError(
+            raise ArgumentError(
+                "reference", f"got {reference!r}; expected a grid line (a multiple of "
+                f"the spacing {h!r} from the grid origin)",
                 f"`reference` must lie on a grid line (a multiple of the spacing {h!r} "
-                f"from the grid origin), got {reference!r}."
-            )
+                f"from the grid origin), got {reference!r}.")
         if not 0 <= ref_row <= frame.ny:
-            raise ValueError(f"`reference` {reference!r} lies outside the grid's extent.")
+            raise ArgumentError(
+                "reference", f"got {reference!r}; expected a line within the grid's "
+                "extent", f"`reference` {reference!r} lies outside the grid's extent.")
 
     # horizontal steps: (column, height, direction) in traversal order
     per_loop = []

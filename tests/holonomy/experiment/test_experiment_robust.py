@@ -517,6 +517,8 @@ INVALID = [
      "loops[0].turns"),
     ("power-minus-2", _m(("[run]", '[observable]\nrep = "power:-2"\n[run]')),
      "observable.rep"),
+    ("reference-off-the-grid", _m(('scheme = "heat"', 'scheme = "heat"\nreference = 0.1')),
+     "field.reference"),
     ("unicode-digit-in-moves", _m(('"R2 U1 L1 U1 L1 D2"', '"R\u0662 U1 L1 U1 L1 D2"')),
      "loops[1].moves"),
     ("nul-in-name", _m(('name = "robust"', 'name = "a\\u0000"')), "name"),
