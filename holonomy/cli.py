@@ -133,6 +133,14 @@ def _json_arg(p) -> None:
                    "(no start or end line on stderr)")
 
 
+def _folder_args(p) -> None:
+    """``--fresh``, ``--json`` and ``--quiet`` of the commands that own an output folder."""
+    p.add_argument("--fresh", action="store_true", help=_FRESH)
+    _json_arg(p)
+    p.add_argument("--quiet", action="store_true",
+                   help="print nothing but errors: no progress bar, table or start/end line")
+
+
 def _workers_arg(p, default: str) -> None:
     p.add_argument("--workers", type=_workers, default=1 if default == "1" else None,
                    metavar="N", help=f"worker processes, an integer from 1 to "
@@ -169,10 +177,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="keep the finished blocks of an interrupted run of the same spec "
                    "in DIR and compute only the missing ones (the numbers are bitwise the "
                    "same); a rerun into DIR does this by default too")
-    p.add_argument("--fresh", action="store_true", help=_FRESH)
-    _json_arg(p)
-    p.add_argument("--quiet", action="store_true",
-                   help="print nothing but errors: no progress bar, table or start/end line")
+    _folder_args(p)
 
     p = _sub(sub, "exact", "exact values of the spec's loops where known",
              "Print, per loop, the exact value of what the spec's scheme samples and the "
@@ -242,10 +247,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--resume", action="store_true",
                    help="keep the finished blocks of an interrupted study of the same spec "
                    "in DIR; a rerun into DIR does this by default too")
-    p.add_argument("--fresh", action="store_true", help=_FRESH)
-    _json_arg(p)
-    p.add_argument("--quiet", action="store_true",
-                   help="print nothing but errors: no progress bar, table or start/end line")
+    _folder_args(p)
 
     p = _sub(sub, "spec", "the spec reference (--keys) or a check of a spec file (--check)",
              "With --keys, print every spec key with its meaning, allowed values and "
@@ -276,10 +278,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", metavar="DIR", default="whitegauge-demo",
                    help="output folder, created if missing (default: whitegauge-demo)")
     _workers_arg(p, "the number of cores, at most 2")
-    p.add_argument("--fresh", action="store_true", help=_FRESH)
-    _json_arg(p)
-    p.add_argument("--quiet", action="store_true",
-                   help="print nothing but errors: no progress bar, table or start/end line")
+    _folder_args(p)
     return parser
 
 

@@ -141,15 +141,8 @@ def _exact_wilson_loop_iv(group, rep, loop, coupling, area):
         raise TypeError(
             f"`loop` must be a discretize LatticeLoop or Loop, got {type(loop).__name__}."
         )
-    if isinstance(coupling, bool) or not isinstance(coupling, numbers.Real):
-        raise TypeError(f"`coupling` must be a real number > 0, got {coupling!r}.")
-    if not (np.isfinite(coupling) and coupling > 0):
-        raise ValueError(f"`coupling` must be a finite number > 0, got {coupling!r}.")
-    if area is None:
-        area = AreaForm()
-    elif not isinstance(area, AreaForm):
-        raise TypeError(f"`area` must be a discretize AreaForm or None, got {type(area).__name__}.")
-    return group, rep_obj, loop, float(coupling), area
+    coupling, area = _scalar_iv(coupling, area)
+    return group, rep_obj, loop, coupling, area
 
 
 def _power_of(rep) -> int | None:
