@@ -231,7 +231,9 @@ class _Characters:
         return _log_dim_bound(self.W, np.maximum(q, 0.0) / math.sqrt(self.gmin))
 
     def _log_gauss(self, q, t):
-        return -self.W.s * (np.maximum(q, 0.0) ** 2 - self.qrho) * t / 2
+        # a live term's Casimir is >= 0 (its shifted weight reflects to a dominant one of
+        # norm >= |rho|), so the exponent is capped at 0: no overflow at large t
+        return np.minimum(-self.W.s * (np.maximum(q, 0.0) ** 2 - self.qrho) * t / 2, 0.0)
 
     def _bound_z(self, R, t):
         """Bound on ``sum_{q(nu) > R} |d|^(2-2g) e^{-c t/2}`` (and on the kernel's tail)."""
@@ -247,7 +249,8 @@ class _Characters:
 
     def _radius(self, bound, target: float, t_eff: float, extra: float = 0.0) -> float:
         """The smallest q-radius (on a 5 % ladder) whose tail bound is below ``target``."""
-        R = math.sqrt(2 * 36 / (self.W.s * max(t_eff, 1e-300))) + extra + 1
+        # start beyond |rho|: every irreducible has q >= |rho|, the trivial one q = |rho|
+        R = math.sqrt(2 * 36 / (self.W.s * max(t_eff, 1e-300))) + extra + 1 + math.sqrt(self.qrho)
         for _ in range(400):
             self._count_iv(R)
             if bound(R) <= target:
@@ -291,7 +294,10 @@ class _Characters:
             db = W.dimension(nb)
             live = np.abs(db) > 0.5  # |d| >= 1 off the walls, 0 on them
             dpow = np.where(live, np.sign(db) * np.abs(np.where(live, db, 1.0)) ** (1 - 2 * self.g), 0.0)
-            expo = -W.casimir(nus)[:, None] * t1 / 2 - W.casimir(nb) * t2 / 2
+            # off the walls only: a wall's shifted weight may have a negative "Casimir"
+            # whose exponential overflows at large t2 (and is multiplied by 0)
+            expo = np.where(live, -W.casimir(nus)[:, None] * t1 / 2 - W.casimir(nb) * t2 / 2,
+                            -np.inf)
             return float(np.sum(da[:, None] * dpow * np.exp(expo))), len(nus)
 
         R = self._radius(bound, 1e-3 * _REL, t1 + t2, M)

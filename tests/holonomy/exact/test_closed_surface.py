@@ -341,12 +341,15 @@ class TestLimitsAndLoops:
         ("Sp", 2, "physics", "fundamental"), ("SO", 4, "trace", "fundamental"),
         ("SO", 5, "trace", "fundamental"), ("U", 4, "large-n", "fundamental"),
         ("SU", 4, "physics", "fundamental")])
-    def test_plane_limit(self, fam, n, metric, rep):
-        # T -> infinity: exp(-c lambda A / 2) (Levy 2003)
+    @pytest.mark.parametrize("T", [200.0, 1e4, 1e6])
+    @pytest.mark.filterwarnings("error")
+    def test_plane_limit(self, fam, n, metric, rep, T):
+        # T -> infinity: exp(-c lambda A / 2) (Levy 2003); at T = 1e4 and 1e6 the far
+        # side's exponentials once overflowed to NaN
         G = make_group(fam, n, metric)
         c = G.rep(rep).casimir
         A, lam = 1.2, 0.8
-        got = surface_simple_loop(G, rep, A, 200.0, coupling=lam)
+        got = surface_simple_loop(G, rep, A, T, coupling=lam)
         assert got.value.real == pytest.approx(simple_loop(c, A, lam), abs=1e-8)
 
     def test_symmetry_and_zero_area(self):
