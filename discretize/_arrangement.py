@@ -100,6 +100,10 @@ class Arrangement:
         Winding number of each curve (all its turns) around each bounded face.
     bridges : int
         Number of edges run by no curve (added to connect separate curves).
+    outer_cycle : ndarray of int
+        The boundary of the unbounded face as half-edge indices, keeping that face on
+        the left (so it runs clockwise around the bounded part); the graph is connected
+        (bridges join separate curves), so this is one closed walk.
     """
 
     polygon: np.ndarray
@@ -119,6 +123,7 @@ class Arrangement:
     curve_turns: tuple = field(default=(), repr=False)
     curve_winding: np.ndarray = field(default=None, repr=False)
     bridges: int = 0
+    outer_cycle: np.ndarray = field(default=None, repr=False)
 
     @property
     def n_faces(self) -> int:
@@ -542,6 +547,7 @@ def _finish(g, polys, turns) -> Arrangement:
         curve_turns=tuple(int(t) for t in turns),
         curve_winding=curve_winding,
         bridges=g["n_bridges"],
+        outer_cycle=np.array(cycles[outer], dtype=int),
     )
 
 

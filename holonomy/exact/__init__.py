@@ -27,8 +27,8 @@ Exact evaluation of any polygonal loop
 --------------------------------------
 evaluate_polygon, evaluate_word, ExactEvaluation, face_measures (lasso decomposition,
 closed forms, tensor contraction; any representation; degenerate loops);
-evaluate_polygons, evaluate_words (correlators of several loops); lasso_word,
-lasso_words, reduce_for_trace, reduce_for_traces, ReducedWord, free_reduce,
+evaluate_polygons, evaluate_words (correlators of several loops, one representation
+each if asked); lasso_word, lasso_words, outer_boundary_word, reduce_for_trace, reduce_for_traces, ReducedWord, free_reduce,
 cyclic_reduce, inverse_word (words in independent face variables); ExactRouteError
 (which limit was hit)
 

@@ -61,7 +61,7 @@ from discretize import arrangement, joint_arrangement
 from ._characters import adams_decomposition, class_weights, dominant_casimir, weyl_dimension
 from ._laws import ExactRouteError, law_character
 from ._master import master_field_word
-from ._tensor import contract_exact, contract_numeric, contraction_labels
+from ._tensor import contract_exact, contract_mixed, contract_numeric, contraction_labels
 from ._unitary import free_unitary_moment
 from ._word import ReducedWord, lasso_words, reduce_for_trace, reduce_for_traces
 
@@ -528,8 +528,10 @@ def evaluate_words(group, words, laws, *, rep="fundamental", max_dim: int | None
     laws : sequence
         Law of each variable (``laws[f - 1]``): a heat-kernel time ``lambda mu(F)``
         (number, complex allowed) or a :class:`holonomy.exact.WilsonLaw`.
-    rep : str, optional
-        Any representation with matrices, or ``power:p``.
+    rep : str or Representation, or a sequence of them, optional
+        Any representation with matrices, or ``power:p``. A sequence gives each word
+        its own representation (``E[prod_i tr rho_i(w_i) / dim rho_i]``, the tensor
+        route with mixed factors, :func:`holonomy.exact.contract_mixed`).
     max_dim : int, optional
         Largest moment matrix ``dim^{p+q}`` (default 2048).
     large_n : bool, optional
@@ -564,6 +566,8 @@ def evaluate_words(group, words, laws, *, rep="fundamental", max_dim: int | None
     if len(laws) < n_needed:
         raise ValueError(
             f"`laws` must give one law per face variable ({n_needed}); got {len(laws)}.")
+    if not large_n and not isinstance(rep, str) and not hasattr(rep, "name"):
+        return _mixed_words(group, ws, tuple(laws), list(rep), max_dim)
     if large_n:
         setup = _large_n_setup(rep)
     else:
@@ -571,6 +575,37 @@ def evaluate_words(group, words, laws, *, rep="fundamental", max_dim: int | None
     reduced, val, routes = _evaluate(setup, ws, tuple(laws), False, max_dim, large_n)
     return ExactEvaluation(value=val, word=ws[0], reduced=reduced, face_times=tuple(laws),
                            method=_method(routes))
+
+
+def _mixed_words(group, words, laws, reps, max_dim) -> ExactEvaluation:
+    """``E[prod_i tr rho_i(w_i) / dim rho_i]``, one representation per word: reduced
+    (no variable is dropped: its factor would depend on the word's representation)
+    and contracted with mixed factors."""
+    if len(reps) != len(words):
+        raise ValueError(f"`rep` must give one representation per word ({len(words)}); "
+                         f"got {len(reps)}.")
+    max_dim = 2048 if max_dim is None else max_dim
+    algebras, repeated = [], []
+    for w, rep in zip(words, reps):
+        setup = _group_iv(group, rep)
+        algebras.append(setup.matrices)
+        repeated.append(tuple(w) * setup.power)
+    reduced = reduce_for_traces(repeated, laws, drop_single=False)
+    for f in {abs(x) for w in reduced.words for x in w}:
+        D = 1
+        for w, a in zip(reduced.words, algebras):
+            D *= a.shape[-1] ** sum(1 for x in w if abs(x) == f)
+        if D > max_dim:
+            raise ExactRouteError(
+                "size", f"the reduced words are too large to contract: a face variable's "
+                f"moment tensor is a {D} x {D} matrix, above `max_dim` = {max_dim}")
+    if sum(len(w) for w in reduced.words) > _EINSUM_LABELS:
+        raise ExactRouteError("size", f"the reduced words have more than {_EINSUM_LABELS} "
+                              "letters")
+    dims = np.prod([float(a.shape[-1]) for a in algebras])
+    value = contract_mixed(algebras, reduced.words, reduced.times) / dims
+    return ExactEvaluation(value=value, word=words[0], reduced=reduced, face_times=laws,
+                           method="lasso+tensor-mixed")
 
 
 def _large_n_setup(rep) -> _RepSetup:

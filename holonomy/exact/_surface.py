@@ -41,9 +41,16 @@ Routes (each result names its route in ``method``):
   ``S1 = sum n_F t_F``, ``S2 = sum n_F^2 t_F``.
 
 A simple loop wound p times uses the weights of V times p (Adams operation), so
-``power:p`` and wound loops share the route. Other non-simple loops of a non-abelian
-group get no value: the outer face's character expansion would need the plane's joint
-law of the loop and of the boundary of the drawn region in every irreducible.
+``power:p`` and wound loops share the route.
+
+- ``surface-outer-face-expansion``: any other loop of a group whose irreducibles have
+  matrices (SU(2), Sp(1), SO(3): :func:`holonomy.groups.irreducible_representation`):
+  the kernel of the outer face expanded in characters,
+  ``W = sum_a d_a^(1-2g) e^{-c_a t_out/2} E_plane[chi_V(w) chi_a(h)] / (Z dim V)``, each
+  term the plane's exact contraction of the loop's word w and the drawn region's boundary
+  h in V and a at once; ``|E_plane[chi_V chi_a]| <= dim V d_a`` bounds the omitted
+  irreducibles by the partition function's tail at ``t_out``. Other groups: no value,
+  with a note (representation limit).
 
 References
 ----------
@@ -71,10 +78,14 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.special import gammaln
 
-from discretize import AreaForm, LatticeLoop, Loop
-from holonomy.groups import rep_weights, weight_system
+from discretize import AreaForm, LatticeLoop, Loop, arrangement
+from holonomy.groups import irreducible_representation, rep_weights, weight_system
+from noise import ArgumentError
 
 from ._dispatch import _exact_wilson_loop_iv, _lattice_shape, _polygon_shape
+from ._evaluate import evaluate_words, face_measures
+from ._laws import ExactRouteError
+from ._word import lasso_words, outer_boundary_word
 
 __all__ = ["SurfaceValue", "surface_partition_function", "surface_simple_loop",
            "surface_abelian_loop", "outer_face_kernel", "exact_surface_wilson_loop",
@@ -814,7 +825,10 @@ def exact_surface_wilson_loop(group, rep, loop, *, coupling: float, genus: int,
     of measure T minus the drawn measure and carries the g handles. Routes: U(1) and
     SO(2), any loop (:func:`surface_abelian_loop`); a simple loop, or one wound several
     times around a simple curve, in any representation of any family
-    (:func:`surface_simple_loop`). Otherwise ``value`` is None with a note.
+    (:func:`surface_simple_loop`); any other loop of SU(2), Sp(1) or SO(3) by the outer
+    face's character expansion contracted with the plane's exact evaluation
+    (``surface-outer-face-expansion``). Otherwise ``value`` is None with a note naming
+    the limit.
 
     Parameters
     ----------
@@ -878,8 +892,71 @@ def exact_surface_wilson_loop(group, rep, loop, *, coupling: float, genus: int,
                                 turns=shape.turns, route=route)
         r.details["drawn"] = drawn
         return r
-    return SurfaceValue(
-        None, None, None, 0.0, g, T,
-        note="no exact route for a non-simple loop of a non-abelian group on a closed "
-             "surface: the outer face's character expansion needs the plane's joint law of "
-             "the loop and of the drawn region's boundary in every irreducible")
+    return _outer_face_expansion(group, rep, shape, lam, g, T)
+
+
+def _outer_face_expansion(group, rep, shape, lam: float, g: int, T: float) -> SurfaceValue:
+    r"""Any loop: the outer face's character expansion contracted with the plane,
+
+    .. math::
+
+        W = \frac{1}{Z \dim V} \sum_a d_a^{1-2g} e^{-c_a t_{out}/2}
+            E_{plane}[\chi_V(w) \chi_a(h)],
+
+    w the loop's word and h the drawn region's boundary (:func:`outer_boundary_word`)
+    in the same lasso variables, ``t_out = lambda (T - sum of the bounded faces)``. Each
+    term is the plane's mixed tensor contraction (:func:`evaluate_words` with one
+    representation per word); ``|E[chi_V chi_a]| <= dim V d_a`` bounds the omitted
+    irreducibles by the partition function's tail bound at ``t_out``.
+    """
+    def null(note):
+        return SurfaceValue(None, None, None, 0.0, g, T, note=note)
+
+    W = weight_system(group)
+    probe = W.irreducibles(2 * float(np.linalg.norm(W.rho_x)) + 2)[1]  # a nontrivial one
+    try:
+        irreducible_representation(group, W.highest_weight(probe))
+    except ArgumentError:
+        return null(
+            f"representation limit: no exact route for a non-simple loop of {group} on a "
+            "closed surface; the outer face's character expansion contracts the plane's "
+            "words in every irreducible up to the truncation, and matrices of the "
+            "irreducibles exist for SU(2), Sp(1) and SO(3) only")
+    try:
+        if shape.arrangement is not None:  # a curve: its exact face areas
+            arr, mu = shape.arrangement, np.asarray(shape.measures, float)
+        else:
+            arr = arrangement(shape.vertices, shape.periods)
+            mu = np.asarray(face_measures(arr, shape.area), float)
+        words = (lasso_words(arr)[0], outer_boundary_word(arr))
+    except ValueError as exc:
+        return null(f"geometry limit: {exc}")
+    bounded = float(mu.sum())
+    if not T > bounded:
+        return null(f"geometry limit: the bounded faces of the loop's arrangement measure "
+                    f"{bounded:.6g} (faces of winding zero included), not less than the "
+                    f"total area {T:.6g}")
+    t_out = lam * (T - bounded)
+    laws = [lam * m for m in mu]
+    ch = _Characters(group, g)
+    z = surface_partition_function(group, g, T, coupling=lam)
+    try:
+        R = ch._radius(lambda R: ch._bound_z(R, t_out), _REL * z, t_out)
+        nus = ch._irreducibles(R)
+    except ValueError as exc:  # _TooManyTerms
+        return null(f"size limit: {exc} (the outer face's time lambda (T - drawn) is "
+                    "too small)")
+    total = 0.0 + 0.0j
+    try:
+        for nu in nus:
+            rep_a = irreducible_representation(group, W.highest_weight(nu))
+            d = float(W.dimension(nu))
+            e = evaluate_words(group, words, laws, rep=[rep, rep_a]).value
+            total += d ** (2 - 2 * g) * math.exp(-float(W.casimir(nu)) * t_out / 2) * e
+    except ExactRouteError as exc:
+        return null(str(exc))
+    value = total / z  # E[chi_V chi_a] = dim V d_a (normalized value)
+    bound = ch._bound_z(R, t_out) / z + abs(value) * _REL
+    return SurfaceValue(complex(value), "surface-outer-face-expansion", None, float(bound),
+                        g, T, details={"terms": len(nus), "t_out": t_out,
+                                       "bounded": bounded, "words": words})

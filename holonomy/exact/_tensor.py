@@ -42,6 +42,7 @@ __all__ = [
     "contraction_labels",
     "contract_numeric",
     "contract_exact",
+    "contract_mixed",
 ]
 
 
@@ -275,3 +276,53 @@ def contract_exact(basis: np.ndarray, word, times):
         if coeff != 0:
             total += sympy.Rational(coeff.numerator, coeff.denominator) * sympy.exp(exponent)
     return total
+
+
+def contract_mixed(algebras, words, times) -> complex:
+    """``E[prod_i tr rho_i(word_i)]`` (unnormalized) with each word in its own
+    representation ``rho_i``, for independent conjugation-invariant variables.
+
+    The moment tensor of a variable met in several representations is
+    ``E[(x)_k rho_k(V)] = exp(t L)``, ``L = 1/2 sum_a (sum_k rho_k(X_a)^{(k)})^2`` over
+    the factors k where it occurs (``conj(rho_k)`` on the inverse letters), built from
+    the representations' own algebra matrices [1]_ [2]_.
+
+    Parameters
+    ----------
+    algebras : sequence of ndarray (n_basis, d_i, d_i)
+        ``rho_i(X_a)`` for an orthonormal basis ``X_a``, one per word.
+    words : sequence of tuple of int
+    times : sequence
+        ``times[f - 1]``: heat-kernel time (or law) of variable f.
+    """
+    words = [tuple(int(x) for x in w) for w in words]
+    algebras = [np.asarray(a) for a in algebras]
+    factors: dict[int, list] = {}
+    base = 0
+    dims: dict[int, int] = {}
+    empty = 1.0 + 0j
+    for w, alg in zip(words, algebras):
+        n, d = len(w), alg.shape[-1]
+        if n == 0:
+            empty *= d
+            continue
+        for k, x in enumerate(w):
+            dims[base + k] = d
+            row, col = (base + k, base + (k + 1) % n) if x > 0 else (base + (k + 1) % n, base + k)
+            factors.setdefault(abs(x), []).append((alg if x > 0 else alg.conj(), row, col))
+        base += n
+    operands = []
+    for f, fs in factors.items():
+        ds = [a.shape[-1] for a, _, _ in fs]
+        D = int(np.prod(ds))
+        rho = np.zeros((fs[0][0].shape[0], D, D), dtype=complex)
+        for i, (a, _, _) in enumerate(fs):
+            left, right = int(np.prod(ds[:i])), int(np.prod(ds[i + 1:]))
+            rho += np.einsum("ij,bkl,mn->bikmjln", np.eye(left), a, np.eye(right)).reshape(-1, D, D)
+        L = 0.5 * np.einsum("bij,bjk->ik", rho, rho)
+        mu, Q = np.linalg.eigh(0.5 * (L + L.conj().T))
+        M = (Q * _law_spectrum(times[f - 1], mu)) @ Q.conj().T
+        operands += [M.reshape(tuple(ds) * 2), [r for _, r, _ in fs] + [c for _, _, c in fs]]
+    if not operands:
+        return empty
+    return complex(np.einsum(*operands, [], optimize="greedy")) * empty

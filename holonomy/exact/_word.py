@@ -50,6 +50,7 @@ from dataclasses import dataclass
 __all__ = [
     "lasso_word",
     "lasso_words",
+    "outer_boundary_word",
     "free_reduce",
     "cyclic_reduce",
     "inverse_word",
@@ -114,6 +115,43 @@ def lasso_words(arr) -> tuple[tuple[int, ...], ...]:
     ----------
     .. [1] T. Levy, Mem. Amer. Math. Soc. 166 (2003), ch. 2; Asterisque 329 (2010).
     """
+    half_word = _half_words(arr)
+    words = []
+    for path, turns in zip(arr.paths, arr.curve_turns):
+        one_turn: list[int] = []
+        for h in path.tolist():
+            one_turn.extend(half_word(h))
+        words.append(free_reduce(tuple(one_turn) * turns))
+    return tuple(words)
+
+
+def outer_boundary_word(arr) -> tuple[int, ...]:
+    """The boundary of the bounded part of an arrangement (the unbounded face's
+    boundary, ``arr.outer_cycle``) as a word in the lasso variables of
+    :func:`lasso_words`.
+
+    Its holonomy is the holonomy of the boundary of the drawn region, up to
+    conjugation and orientation (it runs clockwise around the bounded faces: its
+    abelianization is -1 on every bounded face). On a closed surface it is the
+    holonomy the outer face's kernel is evaluated at.
+
+    References
+    ----------
+    .. [1] T. Levy, Mem. Amer. Math. Soc. 166 (2003), ch. 2 (the boundary of a union of
+       faces as a product of lassos).
+    """
+    if arr.outer_cycle is None:
+        raise ValueError("`arr` carries no outer cycle (built by an older arrangement).")
+    half_word = _half_words(arr)
+    word: list[int] = []
+    for h in arr.outer_cycle.tolist():
+        word.extend(half_word(h))
+    return cyclic_reduce(tuple(word))
+
+
+def _half_words(arr):
+    """``half_word(h)``: the holonomy of half-edge h as a word in the lasso variables
+    (tree-cotree construction of the module docstring)."""
     edges = arr.edges
     ne, nv = len(edges), len(arr.vertices)
     adj: list[list[tuple[int, int]]] = [[] for _ in range(nv)]
@@ -173,13 +211,7 @@ def lasso_words(arr) -> tuple[tuple[int, ...], ...]:
             return ()
         return edge_word(e) if h % 2 == 0 else inverse_word(edge_word(e))
 
-    words = []
-    for path, turns in zip(arr.paths, arr.curve_turns):
-        one_turn: list[int] = []
-        for h in path.tolist():
-            one_turn.extend(half_word(h))
-        words.append(free_reduce(tuple(one_turn) * turns))
-    return tuple(words)
+    return half_word
 
 
 @dataclass(frozen=True)

@@ -9,6 +9,9 @@ Specs accepted by ``Group.rep``:
   ``"3/2"``, ``"1"`` or ``"1.5"``: the symmetric power ``Sym^{2j} C^2`` acting on
   homogeneous polynomials of degree 2j, in the orthonormal monomial basis
   ``x^p y^{2j-p} / sqrt(p! (2j-p)!)``.
+- (not a spec) :func:`irreducible_representation`: the irreducible of a highest weight,
+  with matrices, for SU(2), Sp(1) (``spin:j``) and SO(3) (spin l through the isomorphism
+  ``so(3) = su(2)``, ``X = sum_a x_a L_a -> -i x . sigma / 2``).
 - ``"power:k"``: the class function ``tr(U^k)`` (k >= 1), not a representation for
   k >= 2; its "dimension" is N (so that the normalized value at the identity is 1) and
   ``casimir`` is None.
@@ -37,7 +40,8 @@ import numpy as np
 
 from noise import ArgumentError
 
-__all__ = ["Representation", "make_representation", "parse_spin", "parse_rep", "rep_name"]
+__all__ = ["Representation", "make_representation", "parse_spin", "parse_rep", "rep_name",
+           "irreducible_representation"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -277,3 +281,60 @@ def _spin(group, j: Fraction) -> Representation:
         return cur
 
     return Representation(group, _spin_fraction_name(j), dim, True, matrix, algebra, character)
+
+
+# ------------------------------------------------------------- by highest weight
+def irreducible_representation(group, highest_weight) -> Representation:
+    """The irreducible representation of ``group`` with the given highest weight, with
+    its matrices (what the tensor route contracts).
+
+    Available where the irreducibles have matrices: SU(2) and Sp(1) (``spin:j``, highest
+    weight ``(2j, 0)`` resp. ``(2j,)`` in e-coordinates, :mod:`holonomy.groups._weights`)
+    and SO(3) (spin l, highest weight ``(l,)``): the spin-l matrices of su(2) at the
+    element ``-i x . sigma / 2`` that corresponds to ``X = sum_a x_a L_a``,
+    ``(L_a)_{bc} = -epsilon_{abc}`` (both bases satisfy ``[e_1, e_2] = e_3``). The
+    trivial highest weight gives ``trivial`` for every group. Otherwise ArgumentError on
+    ``rep``.
+
+    References
+    ----------
+    .. [1] B. C. Hall, "Lie Groups, Lie Algebras, and Representations", 2nd ed., Springer,
+       2015, Sections 4.6 and 1.2 (SU(2), SO(3) and the isomorphism su(2) = so(3)).
+    """
+    lam = tuple(int(x) for x in np.ravel(highest_weight))
+    fam, n = group.family, group.n
+    if fam == "SU" and n == 2 and len(lam) == 2:
+        return make_representation(group, rep_name("spin", Fraction(lam[0] - lam[1], 2)))
+    if fam == "Sp" and n == 1 and len(lam) == 1:
+        return make_representation(group, rep_name("spin", Fraction(lam[0], 2)))
+    if fam == "SO" and n == 3 and len(lam) == 1 and lam[0] >= 0:
+        return _so3_spin(group, lam[0])
+    if not any(lam):
+        return make_representation(group, "trivial")
+    raise ArgumentError(
+        "rep", f"got the highest weight {lam} of {fam}({n}); matrices of irreducibles by "
+        "highest weight exist for SU(2), Sp(1) and SO(3)")
+
+
+def _so3_spin(group, l: int) -> Representation:
+    spin = _spin(group, Fraction(l))
+    sigma = np.array([[[0, 1], [1, 0]], [[0, -1j], [1j, 0]], [[1, 0], [0, -1]]])
+
+    def algebra(X):
+        X = np.asarray(X)
+        x = np.stack([X[..., 2, 1], X[..., 0, 2], X[..., 1, 0]], axis=-1).real
+        return spin._algebra(-0.5j * np.einsum("...a,aij->...ij", x, sigma))
+
+    def character(U):
+        # chi_l(theta) = sin((2l+1) theta/2) / sin(theta/2) = U_{2l}(cos(theta/2)),
+        # cos(theta/2)^2 = (tr U + 1) / 4 (U_{2l} is even)
+        c = np.sqrt(np.clip((np.trace(U, axis1=-2, axis2=-1).real + 1) / 4, 0, 1))
+        prev, cur = np.zeros_like(c), np.ones_like(c)
+        for _ in range(2 * l):
+            prev, cur = cur, 2 * c * cur - prev
+        return cur
+
+    r = Representation(group, f"highest-weight:({l},)", 2 * l + 1, True,
+                       _algebra=algebra, _character=character)
+    object.__setattr__(r, "casimir", _scalar_casimir(r.casimir_operator()))
+    return r
