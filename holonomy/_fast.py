@@ -236,76 +236,22 @@ def quaternion_holonomies_group(q, side, order, parent, links, flips, offsets):
 
 
 @njit(cache=True)
-def _expm3(X, Q, Q2, E):
-    """``E = exp(X)`` for one skew-Hermitian 3 x 3 ``X`` by the closed form of
-    `holonomy.groups.expm_u3` (Morningstar and Peardon 2004), scalar by scalar."""
-    q = (X[0, 0].imag + X[1, 1].imag + X[2, 2].imag) / 3.0
-    for r in range(3):
-        for c in range(3):
-            Q[r, c] = -1j * X[r, c]
-    for r in range(3):
-        Q[r, r] -= q
-    for r in range(3):
-        for c in range(r, 3):
-            h = 0.5 * (Q[r, c] + Q[c, r].conjugate())
-            Q[r, c] = h
-            Q[c, r] = h.conjugate()
-    for r in range(3):
-        for c in range(3):
-            Q2[r, c] = Q[r, 0] * Q[0, c] + Q[r, 1] * Q[1, c] + Q[r, 2] * Q[2, c]
-    c1 = 0.5 * (Q2[0, 0].real + Q2[1, 1].real + Q2[2, 2].real)
-    c0 = 0.0
-    for r in range(3):
-        for c in range(3):
-            c0 += (Q[r, c] * Q2[c, r]).real
-    c0 /= 3.0
-    neg = c0 < 0
-    c0 = abs(c0)
-    tiny = c1 < 1e-30
-    if tiny:
-        f0, f1, f2 = 1.0 + 0j, 1j, -0.5 + 0j
-    else:
-        c0max = 2.0 * (c1 / 3.0) ** 1.5
-        ratio = min(max(c0 / c0max, -1.0), 1.0)
-        theta = math.acos(ratio)
-        u = math.sqrt(c1 / 3.0) * math.cos(theta / 3.0)
-        w = math.sqrt(c1) * math.sin(theta / 3.0)
-        xi0 = math.sin(w) / w if w != 0 else 1.0
-        cw = math.cos(w)
-        e2iu = complex(math.cos(2 * u), math.sin(2 * u))
-        emiu = complex(math.cos(u), -math.sin(u))
-        u2, w2 = u * u, w * w
-        h0 = (u2 - w2) * e2iu + emiu * (8 * u2 * cw + 2j * u * (3 * u2 + w2) * xi0)
-        h1 = 2 * u * e2iu - emiu * (2 * u * cw - 1j * (3 * u2 - w2) * xi0)
-        h2 = e2iu - emiu * (cw + 3j * u * xi0)
-        den = 9 * u2 - w2
-        f0, f1, f2 = h0 / den, h1 / den, h2 / den
-    if neg:
-        f0, f1, f2 = f0.conjugate(), -f1.conjugate(), f2.conjugate()
-    ph = complex(math.cos(q), math.sin(q))
-    for r in range(3):
-        for c in range(3):
-            v = f1 * Q[r, c] + f2 * Q2[r, c]
-            if r == c:
-                v += f0
-            E[r, c] = v * ph
-
-
-@njit(cache=True)
-def u3_holonomies_algebra(x, side, order, parent, links, dirs, offsets, basis):
-    """`quaternion_holonomies_algebra` for U(3) and SU(3): ``x`` (n, K, d) interval sums,
-    ``basis`` (d, 3, 3) the group's orthonormal basis; the exponential of each link by
-    `_expm3`. Output (n, loops, 3, 3)."""
+def u3_holonomies_algebra(x, side, order, parent, links, dirs, offsets, rows, cols, coef,
+                          traceless):
+    """`quaternion_holonomies_algebra` for U(3) and SU(3): ``x`` (n, K, d) interval sums;
+    the sparse matrix ``(rows, cols, coef)`` (compressed rows, 9 x d) maps a link's
+    coordinates to the Hermitian ``H = -i X`` as nine reals (the diagonal, then the
+    real and the imaginary parts of ``H_01, H_02, H_12``), so no complex matrix is
+    formed. Each link's ``exp(X) = e^{iq} exp(iQ)``, ``Q = H - q``
+    traceless, by the closed form of `holonomy.groups.expm_u3` (Morningstar and Peardon
+    2004) in real arithmetic: ``Q^2`` and ``det Q`` from the nine reals, then
+    ``exp(iQ) = f_0 + f_1 Q + f_2 Q^2``. For a traceless basis (``traceless``) q is
+    zero up to rounding and the phase is skipped. Output (n, loops, 3, 3)."""
     n, K, d = x.shape[0], x.shape[1], x.shape[2]
     nl = offsets.size - 1
     out = np.empty((n, nl, 3, 3), dtype=np.complex128)
     cum = np.empty((K, d))
-    X = np.empty((3, 3), dtype=np.complex128)
-    Q = np.empty((3, 3), dtype=np.complex128)
-    Q2 = np.empty((3, 3), dtype=np.complex128)
-    E = np.empty((3, 3), dtype=np.complex128)
-    acc = np.empty((3, 3), dtype=np.complex128)
-    tmp = np.empty((3, 3), dtype=np.complex128)
+    h = np.empty(9)
     for i in range(n):
         for kk in range(K):
             k = order[kk]
@@ -314,22 +260,78 @@ def u3_holonomies_algebra(x, side, order, parent, links, dirs, offsets, basis):
                 v = x[i, k, j] * side[k]
                 cum[k, j] = v + cum[p, j] if p >= 0 else v
         for loop in range(nl):
-            for r in range(3):
-                for c in range(3):
-                    acc[r, c] = 1.0 if r == c else 0.0
+            m00, m01, m02 = 1.0 + 0j, 0j, 0j
+            m10, m11, m12 = 0j, 1.0 + 0j, 0j
+            m20, m21, m22 = 0j, 0j, 1.0 + 0j
             for e in range(offsets[loop], offsets[loop + 1]):
                 lk = links[e]
                 s = -dirs[e]
-                for r in range(3):
-                    for c in range(3):
-                        v = 0j
-                        for a in range(d):
-                            v += (cum[lk, a] * s) * basis[a, r, c]
-                        X[r, c] = v
-                _expm3(X, Q, Q2, E)
-                for r in range(3):
-                    for c in range(3):
-                        tmp[r, c] = acc[r, 0] * E[0, c] + acc[r, 1] * E[1, c] + acc[r, 2] * E[2, c]
-                acc[:, :] = tmp
-            out[i, loop] = acc
+                for r in range(9):
+                    v = 0.0
+                    for j in range(rows[r], rows[r + 1]):
+                        v += coef[j] * cum[lk, cols[j]]
+                    h[r] = v * s
+                q = (h[0] + h[1] + h[2]) / 3.0
+                a0, a1, a2 = h[0] - q, h[1] - q, h[2] - q
+                x01, x02, x12, y01, y02, y12 = h[3], h[4], h[5], h[6], h[7], h[8]
+                n01, n02, n12 = x01 * x01 + y01 * y01, x02 * x02 + y02 * y02, x12 * x12 + y12 * y12
+                # Q^2 (Hermitian): diagonal and upper entries
+                d0, d1, d2 = a0 * a0 + n01 + n02, a1 * a1 + n01 + n12, a2 * a2 + n02 + n12
+                # (Q^2)_01 = Q_01 (a0 + a1) + Q_02 conj(Q_12), and so on
+                p01r = x01 * (a0 + a1) + (x02 * x12 + y02 * y12)
+                p01i = y01 * (a0 + a1) + (y02 * x12 - x02 * y12)
+                p02r = x02 * (a0 + a2) + (x01 * x12 - y01 * y12)
+                p02i = y02 * (a0 + a2) + (x01 * y12 + y01 * x12)
+                p12r = x12 * (a1 + a2) + (x01 * x02 + y01 * y02)
+                p12i = y12 * (a1 + a2) + (x01 * y02 - y01 * x02)
+                c1 = 0.5 * (d0 + d1 + d2)
+                # det Q = a0 a1 a2 + 2 Re(Q_01 Q_12 Q_20) - a0 |Q_12|^2 - a1 |Q_02|^2 - a2 |Q_01|^2
+                re3 = (x01 * x12 - y01 * y12) * x02 + (x01 * y12 + y01 * x12) * y02
+                c0 = a0 * a1 * a2 + 2.0 * re3 - a0 * n12 - a1 * n02 - a2 * n01
+                neg = c0 < 0
+                c0 = abs(c0)
+                if c1 < 1e-30:
+                    f0, f1, f2 = 1.0 + 0j, 1j, -0.5 + 0j
+                else:
+                    rt = math.sqrt(c1 / 3.0)
+                    theta = math.acos(min(c0 / (2.0 * rt * rt * rt), 1.0))
+                    u = rt * math.cos(theta / 3.0)
+                    w = math.sqrt(c1) * math.sin(theta / 3.0)
+                    xi0 = math.sin(w) / w if w != 0 else 1.0
+                    cw = math.cos(w)
+                    cu, su = math.cos(u), math.sin(u)
+                    e2iu = complex(cu * cu - su * su, 2.0 * su * cu)
+                    emiu = complex(cu, -su)
+                    u2, w2 = u * u, w * w
+                    h0 = (u2 - w2) * e2iu + emiu * complex(8 * u2 * cw, 2 * u * (3 * u2 + w2) * xi0)
+                    h1 = 2 * u * e2iu - emiu * complex(2 * u * cw, -(3 * u2 - w2) * xi0)
+                    h2 = e2iu - emiu * complex(cw, 3 * u * xi0)
+                    inv = 1.0 / (9 * u2 - w2)  # a real factor (no complex division)
+                    f0, f1, f2 = h0 * inv, h1 * inv, h2 * inv
+                if neg:
+                    f0, f1, f2 = f0.conjugate(), -f1.conjugate(), f2.conjugate()
+                if not traceless:
+                    ph = complex(math.cos(q), math.sin(q))
+                    f0, f1, f2 = f0 * ph, f1 * ph, f2 * ph
+                # E = f0 + f1 Q + f2 Q^2 (lower entries from the Hermitian
+                # conjugates), then acc = acc E, all in scalars (registers)
+                e00 = f0 + f1 * a0 + f2 * d0
+                e11 = f0 + f1 * a1 + f2 * d1
+                e22 = f0 + f1 * a2 + f2 * d2
+                e01 = f1 * complex(x01, y01) + f2 * complex(p01r, p01i)
+                e10 = f1 * complex(x01, -y01) + f2 * complex(p01r, -p01i)
+                e02 = f1 * complex(x02, y02) + f2 * complex(p02r, p02i)
+                e20 = f1 * complex(x02, -y02) + f2 * complex(p02r, -p02i)
+                e12 = f1 * complex(x12, y12) + f2 * complex(p12r, p12i)
+                e21 = f1 * complex(x12, -y12) + f2 * complex(p12r, -p12i)
+                m00, m01, m02 = m00 * e00 + m01 * e10 + m02 * e20, \
+                    m00 * e01 + m01 * e11 + m02 * e21, m00 * e02 + m01 * e12 + m02 * e22
+                m10, m11, m12 = m10 * e00 + m11 * e10 + m12 * e20, \
+                    m10 * e01 + m11 * e11 + m12 * e21, m10 * e02 + m11 * e12 + m12 * e22
+                m20, m21, m22 = m20 * e00 + m21 * e10 + m22 * e20, \
+                    m20 * e01 + m21 * e11 + m22 * e21, m20 * e02 + m21 * e12 + m22 * e22
+            o = out[i, loop]
+            o[0, 0], o[0, 1], o[0, 2] = m00, m01, m02
+            o[1, 0], o[1, 1], o[1, 2] = m10, m11, m12
+            o[2, 0], o[2, 1], o[2, 2] = m20, m21, m22
     return out

@@ -18,12 +18,13 @@ References
 from __future__ import annotations
 
 import os
+from functools import cached_property
 
 import numpy as np
 
-from ._solver import MatrixStorage, QuaternionStorage
-from .groups import su2_heat_quaternions
-from .groups._heat import _IMAGE_LOG_TOL, _TAU_REJECT, sample_su2_angle
+from ._solver import (MatrixStorage, QuaternionStorage, quaternion_mul_components,
+                      quaternion_product_components)
+from .groups._heat import _IMAGE_LOG_TOL, _TAU_REJECT, _su2_heat_columns, sample_su2_angle
 
 __all__ = ["MatrixKernel", "QuaternionKernel", "FastMatrixKernel", "FastQuaternionKernel",
            "kernel_for", "kernel_path", "fast_available", "KERNEL_ENV"]
@@ -31,10 +32,24 @@ __all__ = ["MatrixKernel", "QuaternionKernel", "FastMatrixKernel", "FastQuaterni
 _PAULI = np.array([[[0, 1], [1, 0]], [[0, -1j], [1j, 0]], [[1, 0], [0, -1]]], dtype=complex)
 
 
+def _norm3(x: np.ndarray, y: np.ndarray, z: np.ndarray) -> np.ndarray:
+    """``sqrt(x^2 + y^2 + z^2)`` summed as ``(x^2 + z^2) + y^2``, the order
+    ``np.einsum("...i,...i->...")`` took on rows of three where the quaternion code
+    used it (numpy 2.4, x86-64): the numbers stayed bitwise the same when the code
+    moved to component arrays, and the order no longer depends on numpy's internals."""
+    out = x * x
+    out += z * z
+    out += y * y
+    return np.sqrt(out, out=out)
+
+
 class MatrixKernel(MatrixStorage):
     """Elements as (..., N, N) matrices; any group."""
 
     name = "numpy"
+    #: True when `holonomies` computes an algebra scheme's holonomies in one compiled
+    #: pass per sample (no per-link arrays: the sampler's chunks can be larger)
+    fuses_algebra = False
 
     def exp(self, coords: np.ndarray) -> np.ndarray:
         return self.group.exp_matrix(self.group.algebra(coords))
@@ -57,6 +72,13 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
         super().__init__(group)
         # X_a = i sum_b V[a, b] sigma_b for the group's orthonormal basis
         self.V = (np.einsum("aij,bji->ab", group.basis, _PAULI) / 2j).real
+        # (perm, scale) with V[perm[j], j] = scale[j] the only entry of column j, when
+        # V is a signed, scaled permutation (every metric of SU(2) and Sp(1)); else None
+        nz = self.V != 0
+        self._perm = None
+        if np.all(nz.sum(axis=0) == 1) and np.all(nz.sum(axis=1) == 1):
+            perm = np.argmax(nz, axis=0)
+            self._perm = (perm, self.V[perm, np.arange(3)])
 
     def exp(self, coords: np.ndarray) -> np.ndarray:
         # exp(i u.sigma) = cos|u| + i sin|u| (u/|u|).sigma with u = c V
@@ -64,7 +86,7 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
         out = np.empty(c.shape[:-1] + (4,))
         u = out[..., 1:]
         np.matmul(c, self.V, out=u)
-        theta = np.sqrt(np.einsum("...i,...i->...", u, u))
+        theta = _norm3(u[..., 0], u[..., 1], u[..., 2])
         np.cos(theta, out=out[..., 0])
         ratio = np.sin(theta)
         np.divide(ratio, theta, out=ratio, where=theta > 0)
@@ -72,12 +94,70 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
         u *= ratio[..., None]
         return out
 
+    def holonomies(self, plan, variables: np.ndarray, algebra: bool) -> list | None:
+        """Every loop's holonomy (see `holonomy._sampling._holonomies`, the reference),
+        with the quaternions stored component-first, ``(4, steps, samples)``, so every
+        operation streams contiguous memory; the same operations in the same order, so
+        bitwise the same numbers. None (the reference route) where the basis is not a
+        signed, scaled permutation of the Pauli one or there is nothing to multiply."""
+        if variables.shape[1] == 0 or (algebra and self._perm is None):
+            return None
+        # (components, intervals, samples): one copy, then every row is contiguous
+        cum = np.ascontiguousarray(variables.transpose(2, 1, 0))
+        side, parent, depth = plan.side, plan.parent, plan.depth
+        if algebra:
+            cum *= side[:, None]
+            for dep in range(1, plan.max_depth):
+                k = np.nonzero(depth == dep)[0]
+                cum[:, k] += cum[:, parent[k]]
+        else:
+            for dep in range(1, plan.max_depth):
+                k = np.nonzero(depth == dep)[0]
+                par, up = parent[k], side[k] > 0
+                cum[:, k[up]] = quaternion_mul_components(cum[:, par[up]], cum[:, k[up]])
+                cum[:, k[~up]] = quaternion_mul_components(cum[:, k[~up]], cum[:, par[~up]])
+        size = variables.shape[0]
+        out = []
+        for links, direction in plan.steps:
+            on = links >= 0
+            idx = links[on]
+            if not idx.size:
+                out.append(self.identity((size,)))
+                continue
+            if algebra:
+                f = self._exp_components(cum[:, idx], -direction[on])
+            else:
+                f = cum[:, idx]
+                # rightward above (or leftward below) the reference uses C^{-1} = C^dagger
+                flip = (direction[on] * side[idx]) > 0
+                f[1:, flip] = -f[1:, flip]
+            out.append(np.ascontiguousarray(quaternion_product_components(f).T))
+        return out
+
+    def _exp_components(self, coords: np.ndarray, sign: np.ndarray) -> np.ndarray:
+        """`exp` of ``sign * coords`` for coordinates stored component-first,
+        ``(3, steps, samples)``, ``sign`` (steps,) of +-1; quaternions ``(4, steps,
+        samples)``, bitwise those of `exp`."""
+        perm, scale = self._perm
+        f = np.empty((4,) + coords.shape[1:])
+        u = f[1:]
+        for j in range(3):
+            # c V has one term per column: (sign c_p) V_pj = c_p (sign V_pj) exactly
+            np.multiply(coords[perm[j]], (sign * scale[j])[:, None], out=u[j])
+        theta = _norm3(u[0], u[1], u[2])
+        np.cos(theta, out=f[0])
+        ratio = np.sin(theta)
+        np.divide(ratio, theta, out=ratio, where=theta > 0)
+        ratio[theta == 0] = 1.0
+        u *= ratio
+        return f
+
     def heat(self, t: np.ndarray, size: int, rng) -> np.ndarray:
         """Exact SU(2) heat-kernel samples (:func:`holonomy.groups.su2_heat_quaternions`,
         tau = t / (4k)) in the quaternion basis of this group's coordinates."""
         t = np.asarray(t, float)
-        return su2_heat_quaternions(np.broadcast_to(t / (4.0 * self.group.k), (size,) + t.shape),
-                                    rng=rng)
+        col = (t / (4.0 * self.group.k)).ravel()
+        return _su2_heat_columns(col, size, rng).reshape((size,) + t.shape + (4,))
 
     def character(self, rep, a: np.ndarray) -> np.ndarray:
         if rep.name == "fundamental":
@@ -92,7 +172,16 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
 
 
 # ------------------------------------------------------------ the `fast` extra (numba)
-def _flat_plan(plan, algebra: bool):
+def _flat_plan(kernel, plan, algebra: bool):
+    """`_flat_plan_arrays`, kept on the kernel for the last plan it saw (a block's
+    chunks share one plan)."""
+    cached = kernel.__dict__.get("_flat")
+    if cached is None or cached[0] is not plan or cached[1] != algebra:
+        cached = kernel.__dict__["_flat"] = (plan, algebra, _flat_plan_arrays(plan, algebra))
+    return cached[2]
+
+
+def _flat_plan_arrays(plan, algebra: bool):
     """The axial plan as flat arrays for the compiled passes: intervals in depth order,
     parents, sides, every loop's links concatenated (``offsets``), and per link the
     direction (algebra schemes) or whether it enters as an inverse (group schemes)."""
@@ -135,16 +224,36 @@ class FastMatrixKernel(MatrixKernel):
             return super().product(factors)
         return self._fast.matrix_product(np.ascontiguousarray(factors))
 
+    @cached_property
+    def _hermitian_map(self) -> tuple:
+        """(rows, cols, coef, traceless) for U(3) / SU(3): the sparse (9, d) matrix, in
+        compressed rows, taking coordinates to the nine reals of ``H = -i X``
+        (diagonal; real, then imaginary parts of H_01, H_02, H_12); ``traceless`` when
+        every basis element has zero trace."""
+        B = np.asarray(self.group.basis, complex)
+        rows = [B[:, j, j].imag for j in range(3)]
+        rows += [B[:, r, c].imag for r, c in ((0, 1), (0, 2), (1, 2))]
+        rows += [-B[:, r, c].real for r, c in ((0, 1), (0, 2), (1, 2))]
+        traceless = bool(np.all(np.abs(np.trace(B, axis1=1, axis2=2)) < 1e-14))
+        A = np.array(rows, dtype=float)
+        A[np.abs(A) < 1e-15] = 0.0  # rounding of the basis: keep the map sparse
+        r, c = np.nonzero(A)  # row by row (compressed rows for the compiled loop)
+        starts = np.searchsorted(r, np.arange(10)).astype(np.intp)
+        return starts, c.astype(np.intp), A[r, c], traceless
+
+    @property
+    def fuses_algebra(self) -> bool:
+        return self.group.N == 3 and self.group.family in ("U", "SU")
+
     def holonomies(self, plan, variables, algebra: bool):
         """The linear scheme's holonomies for U(3) and SU(3) in one compiled pass per
         sample; None (the numpy route) otherwise."""
-        G = self.group
-        if not (algebra and G.N == 3 and G.family in ("U", "SU")) or variables.shape[1] == 0:
+        if not (algebra and self.fuses_algebra) or variables.shape[1] == 0:
             return None
-        order, parent, side, links, dirs, offsets = _flat_plan(plan, True)
+        order, parent, side, links, dirs, offsets = _flat_plan(self, plan, True)
         out = self._fast.u3_holonomies_algebra(np.ascontiguousarray(variables, dtype=float),
                                                side, order, parent, links, dirs, offsets,
-                                               np.ascontiguousarray(G.basis, dtype=complex))
+                                               *self._hermitian_map)
         return [out[:, j] for j in range(out.shape[1])]
 
 
@@ -152,6 +261,7 @@ class FastQuaternionKernel(QuaternionKernel):
     """`QuaternionKernel` with compiled exponentials, products and heat draws."""
 
     name = "numba"
+    fuses_algebra = True
 
     def __init__(self, group):
         super().__init__(group)
@@ -180,7 +290,7 @@ class FastQuaternionKernel(QuaternionKernel):
         `holonomy._sampling._holonomies` for the numpy reference)."""
         if variables.shape[1] == 0:
             return [self.identity((variables.shape[0],)) for _ in plan.steps]
-        order, parent, side, links, extra, offsets = _flat_plan(plan, algebra)
+        order, parent, side, links, extra, offsets = _flat_plan(self, plan, algebra)
         x = np.ascontiguousarray(variables, dtype=float)
         if algebra:
             out = self._fast.quaternion_holonomies_algebra(x, side, order, parent, links, extra,

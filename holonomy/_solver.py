@@ -42,6 +42,8 @@ __all__ = [
     "ordered_product",
     "tree_product",
     "quaternion_mul",
+    "quaternion_mul_components",
+    "quaternion_product_components",
     "MatrixStorage",
     "QuaternionStorage",
     "storage_for",
@@ -179,18 +181,51 @@ def _ordered(factors: np.ndarray) -> np.ndarray:
 # --------------------------------------------------------------------------- storage
 
 
+def _hamilton(a, b, out) -> None:
+    """Hamilton product of the components ``a = (a_0, a_1, a_2, a_3)`` and ``b`` into
+    ``out[0], ..., out[3]`` (the one formula of `quaternion_mul` and
+    `quaternion_mul_components`, so both round alike)."""
+    a0, a1, a2, a3 = a
+    b0, b1, b2, b3 = b
+    o0, o1, o2, o3 = out
+    t, t2 = np.empty(o0.shape), np.empty(o0.shape)
+    mul, sub = np.multiply, np.subtract
+    # (a0 + i a.s)(b0 + i b.s) = a0 b0 - a.b + i (a0 b + b0 a - a x b).s, evaluated as
+    # written (left to right), with two buffers instead of a temporary per operation
+    mul(a0, b0, out=o0)
+    for x, y in ((a1, b1), (a2, b2), (a3, b3)):
+        sub(o0, mul(x, y, out=t), out=o0)
+    for o, (x0, y0, x1, y1, x2, y2) in ((o1, (b1, a1, a2, b3, a3, b2)),
+                                        (o2, (b2, a2, a3, b1, a1, b3)),
+                                        (o3, (b3, a3, a1, b2, a2, b1))):
+        # o = a0 x0 + b0 y0 - (x1 y1 - x2 y2)
+        mul(a0, x0, out=o)
+        np.add(o, mul(b0, y0, out=t), out=o)
+        sub(mul(x1, y1, out=t), mul(x2, y2, out=t2), out=t)
+        sub(o, t, out=o)
+
+
 def quaternion_mul(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Hamilton product of unit quaternions ``(..., 4)`` standing for SU(2) matrices
     ``a_0 Id + i (a_1 sigma_1 + a_2 sigma_2 + a_3 sigma_3)`` (see `QuaternionStorage`)."""
-    a0, a1, a2, a3 = a[..., 0], a[..., 1], a[..., 2], a[..., 3]
-    b0, b1, b2, b3 = b[..., 0], b[..., 1], b[..., 2], b[..., 3]
     out = np.empty(np.broadcast_shapes(a.shape, b.shape))
-    # (a0 + i a.s)(b0 + i b.s) = a0 b0 - a.b + i (a0 b + b0 a - a x b).s
-    out[..., 0] = a0 * b0 - a1 * b1 - a2 * b2 - a3 * b3
-    out[..., 1] = a0 * b1 + b0 * a1 - (a2 * b3 - a3 * b2)
-    out[..., 2] = a0 * b2 + b0 * a2 - (a3 * b1 - a1 * b3)
-    out[..., 3] = a0 * b3 + b0 * a3 - (a1 * b2 - a2 * b1)
+    _hamilton(np.moveaxis(a, -1, 0), np.moveaxis(b, -1, 0), np.moveaxis(out, -1, 0))
     return out
+
+
+def quaternion_mul_components(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """`quaternion_mul` for quaternions stored component-first, ``(4, ...)``: every
+    component a contiguous array, so each operation streams memory (bitwise the same
+    numbers as `quaternion_mul`)."""
+    out = np.empty(np.broadcast_shapes(a.shape, b.shape))
+    _hamilton(a, b, out)
+    return out
+
+
+def quaternion_product_components(factors: np.ndarray) -> np.ndarray:
+    """Ordered product over axis 1 of component-first quaternions ``(4, m, ...)``: the
+    pairwise reduction of `QuaternionStorage.product`, bitwise the same numbers."""
+    return _pairwise(factors, quaternion_mul_components, 1)
 
 
 class MatrixStorage:

@@ -636,42 +636,81 @@ def su2_heat_quaternions(tau, *, rng=None) -> np.ndarray:
     .. [1] L. Devroye, "Non-Uniform Random Variate Generation", Springer, 1986,
        Sections II.3 (rejection) and V.4 (uniform directions from normal vectors).
     """
-    rng = np.random.default_rng(rng)
     tau = np.asarray(tau, float)
-    flat = tau.ravel()
-    out = np.empty(flat.shape + (4,))
-    small = np.flatnonzero((flat > 0) & (flat < _TAU_REJECT))
-    large = np.flatnonzero(flat >= _TAU_REJECT)
-    if small.size + large.size < flat.size:  # t = 0: the identity
-        zero = np.flatnonzero(flat <= 0)
-        out[zero] = (1.0, 0.0, 0.0, 0.0)
-    todo = small
-    whole = small.size == flat.size  # the usual case: no fancy indexing in round one
-    t = flat if whole else flat[small]
+    return _su2_heat_columns(tau.ravel(), 1, np.random.default_rng(rng)).reshape(tau.shape + (4,))
+
+
+def _su2_heat_columns(col, size: int, rng) -> np.ndarray:
+    """`su2_heat_quaternions` of the ``(size, m)`` times ``tau[s, c] = col[c]``, flat
+    ``(size * m, 4)``: the same draws in the same order and the same numbers, with the
+    constants of the acceptance test (`_accept_numerator`) computed once per column
+    instead of once per entry (the sampler's intervals share their times across the
+    samples). The result is a view of component-first storage ``(4, size * m)``."""
+    m = col.size
+    q = np.empty((4, size * m))
+    kind = np.where(col <= 0, 0, np.where(col < _TAU_REJECT, 1, 2))
+    whole = bool(np.all(kind == 1))  # the usual case: no fancy indexing in round one
+    if whole:
+        todo = np.arange(size * m)
+    else:
+        flat_kind = np.tile(kind, size)
+        todo, large = np.flatnonzero(flat_kind == 1), np.flatnonzero(flat_kind == 2)
+        q[:, flat_kind == 0] = np.array([[1.0], [0.0], [0.0], [0.0]])  # t = 0: identity
+    # per column, the values `_accept_numerator` and the proposal compute per entry
+    # (pi / t = inf for a subnormal t is right: no images, as inf < x is False)
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        sq2t, pi_t, two_pi_t = np.sqrt(2.0 * col), np.pi / col, 2 * np.pi / col
+        logc = np.log(4 * np.pi**2 / col) + _IMAGE_LOG_TOL
     while todo.size:
         Z = rng.standard_normal((todo.size, 3))
         u = rng.random(todo.size)
-        r = np.sqrt(np.einsum("ij,ij->i", Z, Z))
-        th = np.sqrt(2.0 * t) * r
+        # |Z| summed as (Z_0^2 + Z_2^2) + Z_1^2: the order np.einsum("ij,ij->i") took
+        # here (numpy 2.4, x86-64) when it computed this, so the numbers stayed the same
+        z0, z1, z2 = Z[:, 0], Z[:, 1], Z[:, 2]
+        r = z0 * z0
+        r += z2 * z2
+        r += z1 * z1
+        np.sqrt(r, out=r)
+        c = None if whole else todo % m
+        th = (r.reshape(size, m) * sq2t).ravel() if whole else sq2t[c] * r
+        sn = np.sin(th)
+        # sin(theta) [theta + (theta + 2 pi) e_+ + (theta - 2 pi) e_-], images only
+        # where they matter (see `_accept_numerator`, the same operations)
+        numer = sn * th
+        if whole:
+            need = np.flatnonzero(pi_t * (np.pi - th.reshape(size, m)) < logc)
+        else:
+            need = np.flatnonzero(pi_t[c] * (np.pi - th) < logc[c])
+        if need.size:
+            cn = need % m if whole else c[need]
+            h = th[need]
+            em = np.exp(-pi_t[cn] * (np.pi - h))  # e_-; e_+ = e_- exp(-2 pi h / tau)
+            rhs = h + ((h - 2 * np.pi) * em + (h + 2 * np.pi) * (em * np.exp(-two_pi_t[cn] * h)))
+            numer[need] = sn[need] * rhs
         with np.errstate(invalid="ignore"):
-            ok = (th <= np.pi) & (u * th * th <= _accept_numerator(th, t))
+            ok = (th <= np.pi) & (u * th * th <= numer)
         if whole:
             # every entry written now, the rejected ones again in later rounds
-            np.cos(th, out=out[:, 0])
-            np.multiply(Z, (np.sin(th) / r)[:, None], out=out[:, 1:])
+            np.cos(th, out=q[0])
+            sn /= r
+            for j in range(3):
+                np.multiply(Z[:, j], sn, out=q[j + 1])
             whole = False
         else:
-            idx, th_ok = todo[ok], th[ok]
-            out[idx, 0] = np.cos(th_ok)
-            out[idx, 1:] = Z[ok] * (np.sin(th_ok) / r[ok])[:, None]
-        todo, t = todo[~ok], t[~ok]
-    if large.size:
+            idx = todo[ok]
+            q[0, idx] = np.cos(th[ok])
+            s = sn[ok] / r[ok]
+            for j in range(3):
+                q[j + 1, idx] = Z[ok, j] * s
+        todo = todo[~ok]
+    if np.any(kind == 2):
+        flat = np.tile(col, size)
         theta = sample_su2_angle(flat[large], rng=rng)
         axis = rng.standard_normal((large.size, 3))
         axis *= (np.sin(theta) / np.sqrt(np.einsum("ij,ij->i", axis, axis)))[:, None]
-        out[large, 0] = np.cos(theta)
-        out[large, 1:] = axis
-    return out.reshape(tau.shape + (4,))
+        q[0, large] = np.cos(theta)
+        q[1:, large] = axis.T
+    return q.T
 
 # ------------------------------------------------ exact kernels on the maximal torus
 #: largest neglected law error (total variation) of one exact torus draw

@@ -42,3 +42,39 @@ def test_quaternion_heat_kernel_moment():
     mean, se = a0.mean(axis=0), a0.std(axis=0, ddof=1) / np.sqrt(a0.shape[0])
     assert np.all(np.abs(mean - np.exp(-0.375 * t)) <= 4 * se)
 
+
+
+def _reference_route(problem, variables, kernel):
+    """`_holonomies` with the kernel's component-first pass switched off."""
+    from holonomy._sampling import _holonomies
+
+    kernel.holonomies = lambda *args: None  # an instance attribute hides the method
+    try:
+        return _holonomies(problem, variables, kernel)
+    finally:
+        del kernel.holonomies
+
+
+@pytest.mark.parametrize("scheme", ["linear", "heat", "gauss"])
+@pytest.mark.parametrize("family,n,metric", [("SU", 2, "physics"), ("SU", 2, "trace"),
+                                             ("Sp", 1, 3.0)])
+def test_component_first_holonomies_are_bitwise_the_reference(family, n, metric, scheme):
+    # the numpy path's component-first quaternion pass does the reference route's
+    # operations in the same order: the same numbers, bit for bit (reproducibility)
+    from discretize import Loop
+    from holonomy import Field, WilsonProblem
+    from holonomy._sampling import _holonomies, _interval_variables
+
+    loops = (Loop.polygon([(0, 0), (1.5, 0), (1.5, 0.75), (0.5, 0.75), (0.5, 1.5), (0, 1.5)],
+                          turns=2), Loop.circle((0.7, 0.7), 0.6, 12))
+    prob = WilsonProblem(family=family, n=n, metric=metric, loops=loops, samples=200,
+                         block=200, seed=3, field=Field(1.3, 0.25, scheme=scheme))
+    kern = kernel_for(prob.group, fast=False)
+    prob.__dict__["kernel"] = kern
+    assert prob.plan.max_depth > 1  # cumulation over several depths is exercised
+    for path in ("perimeter", "dense") if prob.scheme.perimeter else ("dense",):
+        x = _interval_variables(prob, 200, np.random.default_rng(4), path)
+        new, ref = _holonomies(prob, x.copy(), kern), _reference_route(prob, x.copy(), kern)
+        for a, b in zip(new, ref):
+            assert np.array_equal(a, b)
+
