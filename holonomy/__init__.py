@@ -33,6 +33,6 @@ from ._study import EXPECTED_RATES, StudyProblem, run_study_block  # noqa: E402
 from ._lattice_series import (  # noqa: E402  (lattice series of the schemes)
     gauss_series, lattice_covariance, lattice_series, wilson_series,
 )
-from ._continuum_series import continuum_series, exact_series  # noqa: E402  (continuum series)
+from ._continuum_series import continuum_series, exact_series, surface_series  # noqa: E402  (continuum series)
 from ._gaussian_matrix import GaussianMatrixValue, gaussian_matrix  # noqa: E402  (prescription)
 from ._formal_estimate import formal_block, formal_estimate, formal_schemes  # noqa: E402

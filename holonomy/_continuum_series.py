@@ -39,12 +39,16 @@ import sympy
 
 from discretize import AreaForm, LatticeLoop
 
-from .exact import evaluate_polygon, exact_wilson_loop, unitary_casimir, unitary_dimension
+from .exact import (evaluate_polygon, exact_surface_wilson_loop, exact_wilson_loop,
+                    unitary_casimir, unitary_dimension, zero_instanton_series)
 from .exact._dispatch import _lattice_shape, _polygon_shape
 from .exact._unitary import _hooks
 from ._series import SeriesResult
 
-__all__ = ["continuum_series", "exact_series"]
+__all__ = ["continuum_series", "exact_series", "surface_series", "SECTOR_NOTE"]
+
+SECTOR_NOTE = ("the zero-instanton sector's Taylor series: the other instanton sectors are "
+               "O(exp(-const/lambda)) and have no series")
 
 _LAM = sympy.Symbol("lambda_", positive=True)
 
@@ -263,3 +267,104 @@ def exact_series(group: Any, rep: Any, loop: Any, order: int, *,
     coeffs, exact = _exp_coefficients(terms, M)
     return SeriesResult(coefficients=coeffs, order=M, rep=rep_name, dim=dim, exact=exact,
                         method=ev.method)
+
+
+def _higher_genus_note(group, genus: int) -> str:
+    return (f"no series in the coupling at genus {genus} for {group}: on a surface of genus "
+            ">= 1 a non-abelian group's small-coupling expansion carries half-integer "
+            "powers of lambda (the reducible flat connections; Witten 1992, from memory; "
+            "SU(2) on the torus: Z = e^eps (sqrt(pi/eps) - 1)/2 + O(e^(-pi^2/eps)), "
+            "eps = lambda T c_fund / 6), so it is no Taylor series")
+
+
+def surface_series(group: Any, rep: Any, loop: Any, order: int, *, genus: int,
+                   total_area: float, area: Any = None) -> SeriesResult:
+    r"""Taylor coefficients in the coupling of a loop's value on a closed surface: the
+    zero-instanton sector's, which carries the whole small-coupling series (the other
+    sectors are ``O(exp(-const / lambda))``, flat in lambda at 0).
+
+    Routes (those of :func:`holonomy.exact.exact_surface_wilson_loop`, which decides):
+
+    - U(1) and SO(2), any loop, any genus: the zero-flux sector
+      ``mean_mu exp(-lambda s mu^2 (S2 - S1^2 / T) / 2)`` (``S1 = sum n_F mu(F)``,
+      ``S2 = sum n_F^2 mu(F)``, mu the weights of the representation);
+    - a simple loop (or wound simple loop) on the sphere, any family:
+      :func:`holonomy.exact.zero_instanton_series`.
+
+    Exact sympy rationals where the measures and the metric constant are rational,
+    else floats. Elsewhere NotImplementedError says why (non-abelian groups at genus
+    >= 1: no Taylor series; non-simple loops of non-abelian groups: the outer face's
+    expansion does not separate the sectors).
+
+    Parameters
+    ----------
+    group : Group
+    rep : str or Representation
+    loop : discretize.LatticeLoop or discretize.Loop
+    order : int
+    genus : int
+    total_area : float
+    area : discretize.AreaForm, optional
+
+    Returns
+    -------
+    SeriesResult
+        ``method`` is ``"zero-instanton sector (<route>)"``.
+
+    References
+    ----------
+    .. [1] J. A. Minahan and A. P. Polychronakos, Nucl. Phys. B 422 (1994) 172-186
+       (instanton sectors on the sphere; from memory).
+    .. [2] E. Witten, "Two dimensional gauge theories revisited", J. Geom. Phys. 9 (1992)
+       303-368 (the small-coupling limit at higher genus; from memory).
+    """
+    if isinstance(order, (bool, np.bool_)) or not isinstance(order, numbers.Integral) \
+            or order < 0:
+        raise ValueError(f"`order` must be an integer >= 0; got {order!r}.")
+    M = int(order)
+    sv = exact_surface_wilson_loop(group, rep, loop, coupling=1.0, genus=genus,
+                                   total_area=total_area, area=area)
+    if sv.value is None:
+        raise NotImplementedError(sv.note)
+    rep_obj = group.rep(rep) if isinstance(rep, str) else rep
+    det = sv.details
+    method = f"zero-instanton sector ({sv.method})"
+    if sv.method == "surface-abelian":
+        from .groups import rep_weights, weight_system
+
+        mus = rep_weights(group, rep_obj)[:, 0]
+        vals = [_rational(x) for x in (det["S1"], det["S2"], total_area,
+                                       weight_system(group).s)]
+        if all(v is not None for v in vals):
+            S1, S2, T, sc = vals
+            kappas = [sc * int(m) ** 2 * (S2 - S1 ** 2 / T) / 2 for m in mus]
+            coeffs = [sympy.nsimplify(sum((-k) ** j for k in kappas)
+                                      / (len(mus) * math.factorial(j))) for j in range(M + 1)]
+            exact = True
+        else:
+            S1, S2, T = det["S1"], det["S2"], float(total_area)
+            sc = weight_system(group).s
+            kappas = [sc * m * m * (S2 - S1 * S1 / T) / 2 for m in mus]
+            coeffs = [float(sum((-k) ** j for k in kappas) / (len(mus) * math.factorial(j)))
+                      for j in range(M + 1)]
+            exact = False
+    elif "inside" in det:
+        if genus != 0:
+            raise NotImplementedError(_higher_genus_note(group, genus))
+        A, T = _rational(det["inside"]), _rational(total_area)
+        exact = A is not None and T is not None and _rational(group.k) is not None
+        if exact:
+            coeffs = zero_instanton_series(group, rep_obj, A, T, M, turns=det["turns"],
+                                           exact=True)
+        else:
+            coeffs = [float(c) for c in zero_instanton_series(
+                group, rep_obj, det["inside"], float(total_area), M, turns=det["turns"])]
+    else:
+        if genus != 0:
+            raise NotImplementedError(_higher_genus_note(group, genus))
+        raise NotImplementedError(
+            "no series for a non-simple loop of a non-abelian group on a closed surface "
+            "in this version: the outer face's character expansion gives the value but "
+            "does not separate the zero-instanton sector")
+    return SeriesResult(coefficients=list(coeffs), order=M, rep=rep_obj.name,
+                        dim=int(rep_obj.dim), exact=exact, method=method)

@@ -729,7 +729,7 @@ def outer_face_kernel(group, genus: int, time: float, U) -> np.ndarray:
 
 
 def zero_instanton_series(group, rep, inside: float, total_area: float, order: int, *,
-                          turns: int = 1) -> np.ndarray:
+                          turns: int = 1, exact: bool = False):
     r"""Taylor coefficients in the coupling of the zero-instanton sector of a simple loop
     on the sphere: ``W_0(lambda) = sum_m c_m lambda^m``, m = 0..order.
 
@@ -753,10 +753,16 @@ def zero_instanton_series(group, rep, inside: float, total_area: float, order: i
     order : int
         Highest power of the coupling.
     turns : int, optional
+    exact : bool, optional
+        Exact rationals (sympy): ``inside``, ``total_area`` and the metric constant are
+        taken as the rationals they are (ints, Fractions, sympy Rationals, or the binary
+        value of a float) and the Gaussian expectations are expanded symbolically
+        (moments of ``N(0, G^-1 / (s lambda T))`` by Wick's theorem), so that
+        ``p_mu(lambda) / z`` is an exact polynomial.
 
     Returns
     -------
-    ndarray (order + 1,)
+    ndarray (order + 1,), or a list of sympy Rationals when ``exact``
 
     References
     ----------
@@ -771,13 +777,20 @@ def zero_instanton_series(group, rep, inside: float, total_area: float, order: i
     >>> from holonomy.groups import make_group
     >>> from holonomy.exact import zero_instanton_series
     >>> c = zero_instanton_series(make_group("SU", 2, "physics"), "fundamental", 1.0, 1e9, 2)
-    >>> round(c[2] * 128, 6)   # the Gaussian-matrix coefficient 5/128 as T -> infinity
+    >>> round(float(c[2]) * 128, 6)   # the Gaussian-matrix coefficient 5/128 as T -> infinity
     5.0
+    >>> zero_instanton_series(make_group("SU", 2, "physics"), "fundamental", 1, 4, 2, exact=True)
+    [1, -9/32, 45/2048]
     """
+    exact_in = (inside, total_area)
+    if exact:
+        inside, total_area = (float(x) for x in exact_in)
     group, rep, A, T, _, _, p, _ = _simple_iv(group, rep, inside, total_area, 1.0, 0, turns, "auto")
     if isinstance(order, bool) or not isinstance(order, numbers.Integral) or order < 0:
         raise ValueError(f"`order` must be an integer >= 0, got {order!r}.")
     weights = rep_weights(group, rep, p)
+    if exact:
+        return _zero_series_exact(weight_system(group), weights, *exact_in, int(order))
     dual = _Dual(group)
     W = dual.W
     P = W.n_positive_roots
@@ -796,6 +809,96 @@ def zero_instanton_series(group, rep, inside: float, total_area: float, order: i
         expo = (-kappa) ** np.arange(order + 1) / fact
         out += np.convolve(poly, expo)[: order + 1]
     return out / (z * rep.dim)
+
+
+def _exact_rational(x, what: str):
+    import sympy
+    from fractions import Fraction
+
+    if isinstance(x, sympy.Basic):
+        if not x.is_Rational:
+            raise ValueError(f"`{what}` must be rational for exact coefficients, got {x!r}.")
+        return x
+    f = Fraction(x) if not isinstance(x, float) else Fraction(x).limit_denominator(10**9)
+    if isinstance(x, float) and abs(float(f) - x) > 4e-16 * max(1.0, abs(x)):
+        f = Fraction(x)  # the float's own binary value
+    return sympy.Rational(f.numerator, f.denominator)
+
+
+def _zero_series_exact(W, weights, inside, total_area, order: int) -> list:
+    """Exact Taylor coefficients of the sphere's zero-instanton sector (see
+    :func:`zero_instanton_series`): ``sum_mu e^{-lambda kappa_mu} q_mu(lambda) / dim V``
+    with ``q_mu = E[d(Y - a) d(Y - a + mu)] / E[d(Y)^2]``, ``a = (T - A) mu / T``,
+    ``Y ~ N(0, v G^-1)``, ``v = 1 / (s lambda T)``; the Gaussian moments by Wick's
+    theorem: ``E[y^alpha] = alpha! [J^alpha] (J^T G^-1 J / 2)^k / k!`` at ``|alpha| = 2k``.
+
+    References
+    ----------
+    .. [1] L. Isserlis, "On a formula for the product-moment coefficient of any order of
+       a normal frequency distribution in any number of variables", Biometrika 12 (1918)
+       134-139 (Wick's theorem).
+    """
+    import sympy
+
+    A = _exact_rational(inside, "inside")
+    T = _exact_rational(total_area, "total_area")
+    s = _exact_rational(W.s, "metric constant")
+    r, P = W.r, W.n_positive_roots
+    G = sympy.Matrix(r, r, lambda i, j: _exact_rational(float(W.G[i, j]), "Gram matrix"))
+    C = G.inv()
+    ys = sympy.symbols(f"y0:{r}")
+    Js = sympy.symbols(f"J0:{r}")
+    roots = [[int(round(v)) for v in row] for row in W.roots]
+    rho_e = [_exact_rational(float(v), "rho") for v in W.rho_e]
+
+    def to_e(x):
+        return list(x) + [0] if W.family == "SU" else list(x)
+
+    def dim(x):
+        out = sympy.Integer(1)
+        for al in roots:
+            out *= sum(a * xi for a, xi in zip(al, to_e(x))) / sum(
+                a * ri for a, ri in zip(al, rho_e))
+        return out
+
+    q = (sympy.Matrix([Js]) * C * sympy.Matrix(Js))[0, 0] / 2
+    gen = [sympy.Poly(sympy.expand(q**k / sympy.factorial(k)), *Js) if k else None
+           for k in range(P + 1)]
+
+    def moments(poly_expr):
+        """``[M_0..M_P]``: ``E[poly(Y)] = sum_k M_k v^k``."""
+        M = [sympy.Integer(0)] * (P + 1)
+        for monom, c in sympy.Poly(sympy.expand(poly_expr), *ys).terms():
+            deg = sum(monom)
+            if deg % 2:
+                continue
+            k = deg // 2
+            if k == 0:
+                M[0] += c
+                continue
+            fac = sympy.Integer(1)
+            for m in monom:
+                fac *= sympy.factorial(m)
+            M[k] += c * fac * gen[k].coeff_monomial(monom)
+        return M
+
+    y = list(ys)
+    zP = moments(dim(y) ** 2)[P]
+    coeffs = [sympy.Integer(0)] * (order + 1)
+    for mu_f in weights:
+        mu = [_exact_rational(float(v), "weight") for v in mu_f]
+        a = [(T - A) / T * m for m in mu]
+        Q = (sympy.Matrix([mu]) * G * sympy.Matrix(mu))[0, 0]
+        kappa = s * A * (T - A) * Q / (2 * T)
+        M = moments(dim([yi - ai for yi, ai in zip(y, a)])
+                    * dim([yi - ai + mi for yi, ai, mi in zip(y, a, mu)]))
+        # q_mu(lambda) = sum_k (M_k / zP) (s T)^(P - k) lambda^(P - k)
+        for k in range(P + 1):
+            j = P - k
+            rj = M[k] / zP * (s * T) ** j
+            for m in range(j, order + 1):
+                coeffs[m] += rj * (-kappa) ** (m - j) / sympy.factorial(m - j)
+    return [sympy.nsimplify(c / len(weights)) for c in coeffs]
 
 
 # --------------------------------------------------------------- loops

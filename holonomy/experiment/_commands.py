@@ -14,7 +14,8 @@ from typing import Sequence
 
 import numpy as np
 
-from holonomy import LatticeProblem, exact_series, get_scheme, lattice_covariance
+from holonomy import LatticeProblem, exact_series, get_scheme, lattice_covariance, surface_series
+from holonomy._continuum_series import SECTOR_NOTE
 from holonomy._lattice_series import gauss_loadings
 from holonomy._series import _key_graph
 from holonomy.exact import ExactRouteError, exact_master_field, master_field_series
@@ -23,7 +24,7 @@ from ._problems import build_lattice
 from ._references import NOT_AVAILABLE, loop_references
 from ._report import clean, correlator_rows
 from ._runner import worker_init
-from ._spec import Spec, spec_arg
+from ._spec import Spec, SpecError, spec_arg
 
 __all__ = ["exact_results", "series_results", "geometry_problem", "MAX_SERIES_ORDER",
            "SERIES_BUDGET", "RATIONAL_STEPS", "SeriesBudgetExceeded", "budget_limited"]
@@ -294,6 +295,8 @@ def series_results(spec: Spec | str | os.PathLike, order: int, *, loops: Sequenc
         raise TypeError(f"`loops` must be a sequence of loop indices or None; got "
                         f"{loops!r}.")
     limit = _series_deadline()
+    if spec.closed:
+        return _surface_series_results(spec, order, loops, limit, progress)
 
     scheme = get_scheme(spec.scheme)
     rows = []
@@ -357,6 +360,70 @@ def series_results(spec: Spec | str | os.PathLike, order: int, *, loops: Sequenc
                   "group": {"family": spec.family, "n": spec.n, "metric": spec.metric},
                   "scheme": spec.scheme, "spacing": spec.spacing, "order": order,
                   "formal": bool(spec.signed), "results": rows})
+
+
+def surface_text(spec: Spec) -> str:
+    """``"sphere, T = 4"``: the closed surface of a spec, for tables and labels."""
+    kind = {"sphere": "sphere", "torus": "torus"}.get(spec.surface,
+                                                       f"closed surface of genus {spec.genus}")
+    return f"{kind}, T = {spec.total_area:g}"
+
+
+def _surface_series_results(spec: Spec, order: int, loops, limit, progress) -> dict:
+    """``series`` on a closed surface: per loop the Taylor coefficients of the
+    zero-instanton sector (:func:`holonomy.surface_series`) of the loop as snapped
+    (``coefficients``, what ``heat`` samples) and as specified (``continuum``).
+    Only the heat kernel's lattice measure is known exactly on a closed surface, so
+    other schemes are refused on ``field.scheme``."""
+    if spec.scheme != "heat":
+        raise SpecError("field.scheme", f"got {spec.scheme!r} with surface kind "
+                        f"{spec.surface!r}; expected \"heat\": on a closed surface only "
+                        "the heat kernel's lattice measure (the plane's conditioned on the "
+                        "outer face) is known, so only its series has a meaning")
+    problem = build_lattice(spec)
+    group, area = problem.group, problem.field.area
+    kw = dict(genus=spec.genus, total_area=spec.total_area, area=area)
+    expands = f"{get_scheme('heat').series_expands(problem)}, {surface_text(spec)}"
+    todo = [i for i in range(len(spec.names)) if loops is None or i in loops]
+    if progress is not None:
+        progress.stage(f"{spec.name}: series", 2 * len(todo))
+    rows = []
+    for i in todo:
+        name = spec.names[i]
+        row = {"loop": name, "rep": spec.rep, "kind": "series", "scheme": spec.scheme,
+               "order": order, "expands": expands, "coefficients": None,
+               "rationals": None, "note": None, "asymptotic": False,
+               "continuum": None, "continuum_rationals": None, "continuum_note": None,
+               "formal": False, "variable": "coupling (lambda)",
+               "sector": "zero-instanton", "sector_note": SECTOR_NOTE}
+        for key, loop, what in (("coefficients", problem.lattice_loops[i], "as snapped"),
+                                ("continuum", spec.loops[i].build(spec.spacing),
+                                 "as specified")):
+            if progress is not None:
+                progress.step(f"{spec.name}: {name}, {what}")
+            res, note = _expand(limit, surface_series, group, spec.rep, loop, order, **kw)
+            rat_key = "rationals" if key == "coefficients" else "continuum_rationals"
+            meth_key = "method" if key == "coefficients" else "continuum_method"
+            note_key = "note" if key == "coefficients" else "continuum_note"
+            row[note_key] = note
+            if res is not None:
+                row[key], _ = _floats(res.coefficients)
+                row[meth_key] = res.method
+                if res.exact:
+                    row[rat_key] = [str(c) for c in res.coefficients]
+                elif key == "coefficients":
+                    row["rationals_note"] = ("exact coefficients not available: the "
+                                             "measures or the metric constant are not "
+                                             "rational")
+            if progress is not None:
+                progress.update()
+        rows.append(row)
+    return clean({"name": spec.name, "spec_sha256": spec.sha256,
+                  "surface": {"kind": spec.surface, "genus": spec.genus,
+                              "area": spec.total_area},
+                  "group": {"family": spec.family, "n": spec.n, "metric": spec.metric},
+                  "scheme": spec.scheme, "spacing": spec.spacing, "order": order,
+                  "formal": False, "sector_note": SECTOR_NOTE, "results": rows})
 
 
 def budget_limited(obj: dict) -> list[str]:

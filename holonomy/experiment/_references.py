@@ -180,7 +180,7 @@ def surface_references(spec, problem: LatticeProblem, i: int, *, scheme: str) ->
         ref.exact_note = (f"{NOT_AVAILABLE} (on a closed surface only the heat scheme's "
                           "lattice value is known)")
         return ref
-    lat = exact_surface_wilson_loop(problem.group, problem.rep, problem.loops[i], **kw)
+    lat = exact_surface_wilson_loop(problem.group, problem.rep, problem.lattice_loops[i], **kw)
     if lat.value is None:
         ref.exact_note = f"{NOT_AVAILABLE} ({lat.note})"
     else:

@@ -454,6 +454,9 @@ def format_series_table(obj: dict) -> str:
         for m in range(n):
             rows.append([r["loop"] if m == 0 else "", f"c_{m}" if (coef or cont) else "",
                          _coef(coef, m), rats[m] or "", _coef(cont, m), crats[m] or ""])
+        if coef is None and cont is None and r.get("note") == r.get("continuum_note"):
+            notes.append(f"{r['loop']}: series and continuum: {r.get('note') or 'not available'}")
+            continue
         if coef is None:
             notes.append(f"{r['loop']}: series: {r.get('note') or 'not available'}")
         elif r.get("rationals") is None and r.get("rationals_note"):
@@ -468,6 +471,10 @@ def format_series_table(obj: dict) -> str:
     lines = [f"coefficients c_m of E[W](lambda) = sum_m c_m lambda^m, in the coupling "
              f"lambda{'; formal: the density changes sign, no measure exists' if formal else ''}",
              text]
+    surface = obj.get("surface")
+    if surface and surface.get("kind") not in (None, "plane"):
+        lines.insert(1, f"on the {surface['kind']} (genus {surface['genus']}) of total area "
+                     f"T = {surface['area']:g}: {obj.get('sector_note')}")
     if notes:
         lines.append("\n".join(notes))
     return "\n".join(lines)

@@ -855,9 +855,9 @@ def _surface_iv(data: dict, loops, spacing: float, density, purpose: str):
                         f"{fixed} (or kind \"closed\")")
     T = _number(t, "area", "surface.area", rule="a number > 0, the total area T",
                 check=lambda v: 0 < v <= 1e100)
-    if purpose in ("run", "study", "series"):
+    if purpose in ("run", "study"):
         raise SpecError("surface.kind", f"got {kind!r}; expected \"plane\" for `{purpose}`: "
-                        "sampling and series on closed surfaces are not available in this "
+                        "sampling on closed surfaces is not available in this "
                         "version (use `whitegauge exact` for exact surface values)")
     if (density < 0) if isinstance(density, float) else any(r[4] < 0 for r in density):
         raise SpecError("surface.kind", f"got {kind!r} with a density that changes sign; "

@@ -10,7 +10,7 @@ import math
 
 import pytest
 
-from holonomy.experiment import SpecError, exact_results, parse_spec
+from holonomy.experiment import SpecError, exact_results, parse_spec, series_results
 from tests.conftest import BOX_AND_ELL, spec_text, wg
 
 
@@ -86,8 +86,38 @@ def test_cli_exact_and_bad_input(tmp_path):
     assert "Traceback" not in proc.stderr
 
 
-@pytest.mark.parametrize("purpose", ["run", "study", "series"])
+@pytest.mark.parametrize("purpose", ["run", "study"])
 def test_sampling_on_surfaces_refused(purpose):
     with pytest.raises(SpecError) as err:
         surface_spec('[surface]\nkind = "sphere"\narea = 3.0\n', purpose=purpose)
     assert err.value.key == "surface.kind" and "not available" in err.value.rule
+
+
+def test_series_on_the_sphere(tmp_path):
+    # the zero-instanton sector's series; SU(2), k = 2, simple loop of area A on a
+    # sphere of area T: (1 - tau/4) exp(-tau/8), tau = lambda A (T - A) / T
+    # (Minahan and Polychronakos 1994, Nucl. Phys. B 422, 172; from memory)
+    path = tmp_path / "s.toml"
+    path.write_text(spec_text(BOX_AND_ELL, name="surf") + '[surface]\nkind = "sphere"\narea = 3.0\n')
+    proc = wg("series", path, "--order", "2", check_code=0)
+    assert "sphere" in proc.stdout and "T = 3" in proc.stdout
+    assert "zero-instanton" in proc.stdout and "O(exp(-const/lambda))" in proc.stdout
+    obj = series_results(surface_spec('[surface]\nkind = "sphere"\narea = 3.0\n',
+                                      purpose="series"), 2)
+    assert obj["surface"] == {"kind": "sphere", "genus": 0, "area": 3.0}
+    box = obj["results"][0]  # area 1/2
+    tau = 0.5 * 2.5 / 3.0
+    assert box["rationals"] == ["1", "-5/32", "125/18432"]
+    assert box["coefficients"] == pytest.approx([1, -3 * tau / 8, 5 * tau**2 / 128], abs=1e-15)
+    assert box["sector"] == "zero-instanton" and "no series" in box["sector_note"]
+    assert box["continuum_rationals"] == box["rationals"]
+    # only the heat scheme's series on a closed surface; the torus has none, with the reason
+    with pytest.raises(SpecError) as err:  # the command line exits 2 on a SpecError
+        series_results(parse_spec(spec_text(BOX_AND_ELL, name="surf", scheme="gauss")
+                                  + '[surface]\nkind = "sphere"\narea = 3.0\n',
+                                  purpose="series"), 2)
+    assert err.value.key == "field.scheme"
+    torus = series_results(surface_spec('[surface]\nkind = "torus"\narea = 3.0\n',
+                                        purpose="series"), 2, loops=[0])
+    assert torus["results"][0]["coefficients"] is None
+    assert "half-integer powers" in torus["results"][0]["note"]
