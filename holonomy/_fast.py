@@ -122,13 +122,23 @@ def matrix_product(f):
 @njit(cache=True)
 def su2_heat_small(idx, m, sq2t, pi_t, two_pi_t, logc, out, rng):
     """The rejection branch of `holonomy.groups.su2_heat_quaternions` for the flat
-    entries ``idx`` of a (samples, m) array of times (all with tau < 0.5), written into
-    ``out`` (samples * m, 4). Per column c (entry e has c = e % m), the numpy path's
-    per-entry constants: ``sq2t = sqrt(2 tau)``, ``pi_t = pi / tau``,
-    ``two_pi_t = 2 pi / tau`` and ``logc = log(4 pi^2 / tau) + image tolerance`` (see
+    entries ``idx`` of a (samples, m) array of times (all with tau < 0.5; every entry
+    of ``out`` when ``idx`` is empty), written into ``out`` (samples * m, 4). Per
+    column c (entry e has c = e % m), the numpy path's per-entry constants:
+    ``sq2t = sqrt(2 tau)``, ``pi_t = pi / tau``, ``two_pi_t = 2 pi / tau`` and
+    ``logc = log(4 pi^2 / tau) + image tolerance`` (see
     `holonomy.groups._heat._accept_numerator`). Same draws, same order: per round
     ``standard_normal((todo, 3))`` then ``random(todo)``."""
-    todo = idx.copy()
+    if idx.size:
+        todo = idx.copy()
+        cols = todo % m
+    else:  # every entry: columns by a counter (no integer division per entry)
+        todo = np.arange(out.shape[0])
+        cols = np.empty(todo.size, dtype=np.intp)
+        c = 0
+        for e in range(todo.size):
+            cols[e] = c
+            c = c + 1 if c + 1 < m else 0
     while todo.size:
         k = todo.size
         Z = rng.standard_normal((k, 3))
@@ -137,7 +147,7 @@ def su2_heat_small(idx, m, sq2t, pi_t, two_pi_t, logc, out, rng):
         nk = 0
         for j in range(k):
             e = todo[j]
-            c = e % m
+            c = cols[j]
             r = math.sqrt(Z[j, 0] * Z[j, 0] + Z[j, 1] * Z[j, 1] + Z[j, 2] * Z[j, 2])
             th = sq2t[c] * r
             ok = False
@@ -157,6 +167,7 @@ def su2_heat_small(idx, m, sq2t, pi_t, two_pi_t, logc, out, rng):
             keep[j] = not ok
             nk += not ok
         todo = todo[keep]
+        cols = cols[keep]
     return out
 
 

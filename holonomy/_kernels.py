@@ -99,37 +99,34 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
         with the quaternions stored component-first, ``(4, steps, samples)``, so every
         operation streams contiguous memory; the same operations in the same order, so
         bitwise the same numbers. None (the reference route) where the basis is not a
-        signed, scaled permutation of the Pauli one or there is nothing to multiply."""
+        signed, scaled permutation of the Pauli one or there is nothing to multiply.
+        ``variables`` is consumed (it may be overwritten)."""
         if variables.shape[1] == 0 or (algebra and self._perm is None):
             return None
-        # (components, intervals, samples): one copy, then every row is contiguous
+        # (components, intervals, samples), every row contiguous: the heat sampler
+        # stores its draws so already (then no copy: `variables` is overwritten)
         cum = np.ascontiguousarray(variables.transpose(2, 1, 0))
-        side, parent, depth = plan.side, plan.parent, plan.depth
+        levels, steps = _per_plan(self, plan, "levels", _plan_levels)
         if algebra:
-            cum *= side[:, None]
-            for dep in range(1, plan.max_depth):
-                k = np.nonzero(depth == dep)[0]
-                cum[:, k] += cum[:, parent[k]]
+            cum *= plan.side[:, None]
+            for k_up, p_up, k_down, p_down in levels:
+                k = np.concatenate([k_up, k_down])
+                cum[:, k] += cum[:, np.concatenate([p_up, p_down])]
         else:
-            for dep in range(1, plan.max_depth):
-                k = np.nonzero(depth == dep)[0]
-                par, up = parent[k], side[k] > 0
-                cum[:, k[up]] = quaternion_mul_components(cum[:, par[up]], cum[:, k[up]])
-                cum[:, k[~up]] = quaternion_mul_components(cum[:, k[~up]], cum[:, par[~up]])
-        size = variables.shape[0]
+            for k_up, p_up, k_down, p_down in levels:
+                cum[:, k_up] = quaternion_mul_components(cum[:, p_up], cum[:, k_up])
+                cum[:, k_down] = quaternion_mul_components(cum[:, k_down], cum[:, p_down])
         out = []
-        for links, direction in plan.steps:
-            on = links >= 0
-            idx = links[on]
-            if not idx.size:
-                out.append(self.identity((size,)))
+        for step in steps:
+            if step is None:
+                out.append(self.identity((variables.shape[0],)))
                 continue
+            idx, neg_dir, flip = step
             if algebra:
-                f = self._exp_components(cum[:, idx], -direction[on])
+                f = self._exp_components(cum[:, idx], neg_dir)
             else:
                 f = cum[:, idx]
                 # rightward above (or leftward below) the reference uses C^{-1} = C^dagger
-                flip = (direction[on] * side[idx]) > 0
                 f[1:, flip] = -f[1:, flip]
             out.append(np.ascontiguousarray(quaternion_product_components(f).T))
         return out
@@ -172,13 +169,38 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
 
 
 # ------------------------------------------------------------ the `fast` extra (numba)
+def _per_plan(kernel, plan, key, build):
+    """``build(plan)``, kept on the kernel for the last plan it saw under ``key`` (a
+    block's chunks share one plan)."""
+    cache = kernel.__dict__.setdefault("_plan_cache", {})
+    entry = cache.get(key)
+    if entry is None or entry[0] is not plan:
+        entry = cache[key] = (plan, build(plan))
+    return entry[1]
+
+
 def _flat_plan(kernel, plan, algebra: bool):
-    """`_flat_plan_arrays`, kept on the kernel for the last plan it saw (a block's
-    chunks share one plan)."""
-    cached = kernel.__dict__.get("_flat")
-    if cached is None or cached[0] is not plan or cached[1] != algebra:
-        cached = kernel.__dict__["_flat"] = (plan, algebra, _flat_plan_arrays(plan, algebra))
-    return cached[2]
+    return _per_plan(kernel, plan, ("flat", algebra),
+                     lambda p: _flat_plan_arrays(p, algebra))
+
+
+def _plan_levels(plan) -> tuple:
+    """The axial plan's index arrays for the numpy passes: per depth >= 1 the
+    intervals above and below the reference with their parents, and per loop its
+    links, their negated directions and which enter inverted (None: no link)."""
+    side, parent, depth = plan.side, plan.parent, plan.depth
+    levels = []
+    for dep in range(1, plan.max_depth):
+        k = np.nonzero(depth == dep)[0]
+        up = side[k] > 0
+        levels.append((k[up], parent[k[up]], k[~up], parent[k[~up]]))
+    steps = []
+    for links, direction in plan.steps:
+        on = links >= 0
+        idx = links[on]
+        steps.append((idx, -direction[on], (direction[on] * side[idx]) > 0) if idx.size
+                     else None)
+    return levels, steps
 
 
 def _flat_plan_arrays(plan, algebra: bool):
@@ -307,14 +329,14 @@ class FastQuaternionKernel(QuaternionKernel):
         out = np.empty((size * m, 4))
         # entries by column class, in flat order (the numpy path's order)
         kind = np.where(col <= 0, 0, np.where(col < _TAU_REJECT, 1, 2))
-        if np.all(kind == 1):
-            small, large = np.arange(size * m), np.empty(0, np.intp)
+        if np.all(kind == 1):  # every entry by rejection (an empty index says so)
+            small, large, everything = np.empty(0, np.intp), np.empty(0, np.intp), True
         else:
             flat_kind = np.tile(kind, size)
             small, large = np.flatnonzero(flat_kind == 1), np.flatnonzero(flat_kind == 2)
             out[flat_kind == 0] = (1.0, 0.0, 0.0, 0.0)
-        flat = np.tile(col, size)
-        if small.size:
+            everything = False
+        if small.size or everything:
             # per-column constants, computed as the numpy path computes them per entry
             # (pi / t = inf for a subnormal t is right: no images; no warning for it)
             with np.errstate(divide="ignore", over="ignore"):
@@ -322,7 +344,7 @@ class FastQuaternionKernel(QuaternionKernel):
                           np.log(4 * np.pi**2 / col) + _IMAGE_LOG_TOL)
             self._fast.su2_heat_small(small, m, *consts, out, rng)
         if large.size:  # inverse CDF, as in the numpy path
-            theta = sample_su2_angle(flat[large], rng=rng)
+            theta = sample_su2_angle(np.tile(col, size)[large], rng=rng)
             axis = rng.standard_normal((large.size, 3))
             axis *= (np.sin(theta) / np.sqrt(np.einsum("ij,ij->i", axis, axis)))[:, None]
             out[large, 0] = np.cos(theta)

@@ -641,13 +641,20 @@ def su2_heat_quaternions(tau, *, rng=None) -> np.ndarray:
 
 
 def _su2_heat_columns(col, size: int, rng) -> np.ndarray:
-    """`su2_heat_quaternions` of the ``(size, m)`` times ``tau[s, c] = col[c]``, flat
-    ``(size * m, 4)``: the same draws in the same order and the same numbers, with the
+    """`su2_heat_quaternions` of the ``(size, m)`` times ``tau[s, c] = col[c]``, shape
+    ``(size, m, 4)``: the same draws in the same order and the same numbers, with the
     constants of the acceptance test (`_accept_numerator`) computed once per column
     instead of once per entry (the sampler's intervals share their times across the
-    samples). The result is a view of component-first storage ``(4, size * m)``."""
+    samples). The result is a view of component-first storage ``(4, m, size)``, the
+    layout of the sampler's holonomies (`holonomy._kernels.QuaternionKernel`)."""
     m = col.size
-    q = np.empty((4, size * m))
+    q = np.empty((4, m, size))
+    qt = q.transpose(0, 2, 1)  # (4, size, m): entry e = s m + c in draw order
+    qf = q.reshape(4, m * size)  # entry e sits at (e % m) size + e // m
+
+    def put(e, j, values):
+        qf[j, (e % m) * size + e // m] = values
+
     kind = np.where(col <= 0, 0, np.where(col < _TAU_REJECT, 1, 2))
     whole = bool(np.all(kind == 1))  # the usual case: no fancy indexing in round one
     if whole:
@@ -655,12 +662,17 @@ def _su2_heat_columns(col, size: int, rng) -> np.ndarray:
     else:
         flat_kind = np.tile(kind, size)
         todo, large = np.flatnonzero(flat_kind == 1), np.flatnonzero(flat_kind == 2)
-        q[:, flat_kind == 0] = np.array([[1.0], [0.0], [0.0], [0.0]])  # t = 0: identity
+        q[:, kind == 0] = np.array([1.0, 0.0, 0.0, 0.0])[:, None, None]  # t = 0: identity
     # per column, the values `_accept_numerator` and the proposal compute per entry
     # (pi / t = inf for a subnormal t is right: no images, as inf < x is False)
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
         sq2t, pi_t, two_pi_t = np.sqrt(2.0 * col), np.pi / col, 2 * np.pi / col
         logc = np.log(4 * np.pi**2 / col) + _IMAGE_LOG_TOL
+        # images can matter only above theta = pi - logc / (pi / tau) (less a margin
+        # far above the rounding of the test): below it for every entry, the test is
+        # skipped (theta > pi is rejected whatever the images)
+        no_images_below = np.min(np.where(kind == 1, np.pi - logc / pi_t, np.pi),
+                                 initial=np.pi) - 1e-6
     while todo.size:
         Z = rng.standard_normal((todo.size, 3))
         u = rng.random(todo.size)
@@ -677,7 +689,9 @@ def _su2_heat_columns(col, size: int, rng) -> np.ndarray:
         # sin(theta) [theta + (theta + 2 pi) e_+ + (theta - 2 pi) e_-], images only
         # where they matter (see `_accept_numerator`, the same operations)
         numer = sn * th
-        if whole:
+        if not th.size or th.max() < no_images_below:
+            need = np.empty(0, np.intp)
+        elif whole:
             need = np.flatnonzero(pi_t * (np.pi - th.reshape(size, m)) < logc)
         else:
             need = np.flatnonzero(pi_t[c] * (np.pi - th) < logc[c])
@@ -691,26 +705,27 @@ def _su2_heat_columns(col, size: int, rng) -> np.ndarray:
             ok = (th <= np.pi) & (u * th * th <= numer)
         if whole:
             # every entry written now, the rejected ones again in later rounds
-            np.cos(th, out=q[0])
+            np.cos(th.reshape(size, m), out=qt[0])
             sn /= r
             for j in range(3):
-                np.multiply(Z[:, j], sn, out=q[j + 1])
+                np.multiply(Z[:, j].reshape(size, m), sn.reshape(size, m), out=qt[j + 1])
             whole = False
         else:
             idx = todo[ok]
-            q[0, idx] = np.cos(th[ok])
+            put(idx, 0, np.cos(th[ok]))
             s = sn[ok] / r[ok]
             for j in range(3):
-                q[j + 1, idx] = Z[ok, j] * s
+                put(idx, j + 1, Z[ok, j] * s)
         todo = todo[~ok]
     if np.any(kind == 2):
         flat = np.tile(col, size)
         theta = sample_su2_angle(flat[large], rng=rng)
         axis = rng.standard_normal((large.size, 3))
         axis *= (np.sin(theta) / np.sqrt(np.einsum("ij,ij->i", axis, axis)))[:, None]
-        q[0, large] = np.cos(theta)
-        q[1:, large] = axis.T
-    return q.T
+        put(large, 0, np.cos(theta))
+        for j in range(3):
+            put(large, j + 1, axis[:, j])
+    return q.transpose(2, 1, 0)
 
 # ------------------------------------------------ exact kernels on the maximal torus
 #: largest neglected law error (total variation) of one exact torus draw
