@@ -22,8 +22,9 @@ from functools import cached_property
 
 import numpy as np
 
-from ._solver import (MatrixStorage, QuaternionStorage, quaternion_mul_components,
-                      quaternion_product_components)
+from ._solver import (MatrixStorage, QuaternionStorage, complex_product_components,
+                      quaternion_mul_components, quaternion_product_components)
+from .groups._expmap import expm_u3_components
 from .groups._heat import _IMAGE_LOG_TOL, _TAU_REJECT, _su2_heat_columns, sample_su2_angle
 
 __all__ = ["MatrixKernel", "QuaternionKernel", "FastMatrixKernel", "FastQuaternionKernel",
@@ -47,9 +48,65 @@ class MatrixKernel(MatrixStorage):
     """Elements as (..., N, N) matrices; any group."""
 
     name = "numpy"
-    #: True when `holonomies` computes an algebra scheme's holonomies in one compiled
-    #: pass per sample (no per-link arrays: the sampler's chunks can be larger)
-    fuses_algebra = False
+
+    @property
+    def fuses_algebra(self) -> bool:
+        """True when `holonomies` computes an algebra scheme's holonomies itself (U(3)
+        and SU(3)); its chunks are then sized for the interval sums alone, as chunking
+        does not change an algebra scheme's draws."""
+        return self.group.N == 3 and self.group.family in ("U", "SU")
+
+    @cached_property
+    def _hermitian_map(self) -> tuple:
+        """(rows, cols, coef, traceless) for U(3) / SU(3): the sparse (9, d) matrix, in
+        compressed rows, taking coordinates to the nine reals of ``H = -i X``
+        (diagonal; real, then imaginary parts of H_01, H_02, H_12); ``traceless`` when
+        every basis element has zero trace."""
+        B = np.asarray(self.group.basis, complex)
+        rows = [B[:, j, j].imag for j in range(3)]
+        rows += [B[:, r, c].imag for r, c in ((0, 1), (0, 2), (1, 2))]
+        rows += [-B[:, r, c].real for r, c in ((0, 1), (0, 2), (1, 2))]
+        traceless = bool(np.all(np.abs(np.trace(B, axis1=1, axis2=2)) < 1e-14))
+        A = np.array(rows, dtype=float)
+        A[np.abs(A) < 1e-15] = 0.0  # rounding of the basis: keep the map sparse
+        r, c = np.nonzero(A)  # row by row (compressed rows for the compiled loop)
+        starts = np.searchsorted(r, np.arange(10)).astype(np.intp)
+        return starts, c.astype(np.intp), A[r, c], traceless
+
+    def holonomies(self, plan, variables: np.ndarray, algebra: bool) -> list | None:
+        """The linear scheme's holonomies for U(3) and SU(3) with elements as real and
+        imaginary component arrays (`expm_u3_components`, `complex_product_components`):
+        each link's Hermitian ``H = -i X`` as nine reals from the sparse map, the closed
+        form in real arithmetic, the pairwise product; None (the reference route of
+        `holonomy._sampling._holonomies`) otherwise. ``variables`` is consumed."""
+        if not (algebra and self.fuses_algebra) or variables.shape[1] == 0:
+            return None
+        rows, cols, coef, traceless = self._hermitian_map
+        cum = np.ascontiguousarray(variables.transpose(2, 1, 0))  # (d, intervals, samples)
+        cum *= plan.side[:, None]
+        levels, steps = _per_plan(self, plan, "levels", _plan_levels)
+        for k_up, p_up, k_down, p_down in levels:
+            cum[:, np.concatenate([k_up, k_down])] += cum[:, np.concatenate([p_up, p_down])]
+        out = []
+        for step in steps:
+            if step is None:
+                out.append(self.identity((variables.shape[0],)))
+                continue
+            idx, neg_dir, _ = step
+            c = cum[:, idx]
+            h = []
+            for r in range(9):
+                v = np.zeros(c.shape[1:])
+                for j in range(rows[r], rows[r + 1]):
+                    v += coef[j] * c[cols[j]]
+                v *= neg_dir[:, None]
+                h.append(v)
+            p = complex_product_components(expm_u3_components(h, traceless))
+            hol = np.empty(p.shape[3:] + (3, 3), complex)
+            hol.real = np.moveaxis(p[0], (0, 1), (-2, -1))
+            hol.imag = np.moveaxis(p[1], (0, 1), (-2, -1))
+            out.append(hol)
+        return out
 
     def exp(self, coords: np.ndarray) -> np.ndarray:
         return self.group.exp_matrix(self.group.algebra(coords))
@@ -245,27 +302,6 @@ class FastMatrixKernel(MatrixKernel):
         if factors.ndim != 4:
             return super().product(factors)
         return self._fast.matrix_product(np.ascontiguousarray(factors))
-
-    @cached_property
-    def _hermitian_map(self) -> tuple:
-        """(rows, cols, coef, traceless) for U(3) / SU(3): the sparse (9, d) matrix, in
-        compressed rows, taking coordinates to the nine reals of ``H = -i X``
-        (diagonal; real, then imaginary parts of H_01, H_02, H_12); ``traceless`` when
-        every basis element has zero trace."""
-        B = np.asarray(self.group.basis, complex)
-        rows = [B[:, j, j].imag for j in range(3)]
-        rows += [B[:, r, c].imag for r, c in ((0, 1), (0, 2), (1, 2))]
-        rows += [-B[:, r, c].real for r, c in ((0, 1), (0, 2), (1, 2))]
-        traceless = bool(np.all(np.abs(np.trace(B, axis1=1, axis2=2)) < 1e-14))
-        A = np.array(rows, dtype=float)
-        A[np.abs(A) < 1e-15] = 0.0  # rounding of the basis: keep the map sparse
-        r, c = np.nonzero(A)  # row by row (compressed rows for the compiled loop)
-        starts = np.searchsorted(r, np.arange(10)).astype(np.intp)
-        return starts, c.astype(np.intp), A[r, c], traceless
-
-    @property
-    def fuses_algebra(self) -> bool:
-        return self.group.N == 3 and self.group.family in ("U", "SU")
 
     def holonomies(self, plan, variables, algebra: bool):
         """The linear scheme's holonomies for U(3) and SU(3) in one compiled pass per

@@ -44,6 +44,8 @@ __all__ = [
     "quaternion_mul",
     "quaternion_mul_components",
     "quaternion_product_components",
+    "complex_matmul_components",
+    "complex_product_components",
     "MatrixStorage",
     "QuaternionStorage",
     "storage_for",
@@ -226,6 +228,31 @@ def quaternion_product_components(factors: np.ndarray) -> np.ndarray:
     """Ordered product over axis 1 of component-first quaternions ``(4, m, ...)``: the
     pairwise reduction of `QuaternionStorage.product`, bitwise the same numbers."""
     return _pairwise(factors, quaternion_mul_components, 1)
+
+
+def complex_matmul_components(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Products of complex N x N matrices stored as real and imaginary parts,
+    component-first: ``a``, ``b`` of shape ``(2, N, N, ...)``; the loop runs over the
+    N inner terms, every operation over whole arrays (no batch of tiny matrices)."""
+    ar, ai = a
+    br, bi = b
+    out = np.empty(np.broadcast_shapes(a.shape, b.shape))
+    cr, ci = out
+    for k in range(a.shape[1]):
+        xr, xi, yr, yi = ar[:, k, None], ai[:, k, None], br[None, k], bi[None, k]
+        if k == 0:
+            np.subtract(xr * yr, xi * yi, out=cr)
+            np.add(xr * yi, xi * yr, out=ci)
+        else:
+            cr += xr * yr - xi * yi
+            ci += xr * yi + xi * yr
+    return out
+
+
+def complex_product_components(factors: np.ndarray) -> np.ndarray:
+    """Ordered product over axis 3 of ``(2, N, N, m, ...)`` component-first complex
+    matrices (see `complex_matmul_components`), by the pairwise reduction."""
+    return _pairwise(factors, complex_matmul_components, 3)
 
 
 class MatrixStorage:
