@@ -82,8 +82,7 @@ class MatrixKernel(MatrixStorage):
         if not (algebra and self.fuses_algebra) or variables.shape[1] == 0:
             return None
         rows, cols, coef, traceless = self._hermitian_map
-        cum = np.ascontiguousarray(variables.transpose(2, 1, 0))  # (d, intervals, samples)
-        cum *= plan.side[:, None]
+        cum = _side_times(variables, plan.side)
         levels, steps = _per_plan(self, plan, "levels", _plan_levels)
         for k_up, p_up, k_down, p_down in levels:
             cum[:, np.concatenate([k_up, k_down])] += cum[:, np.concatenate([p_up, p_down])]
@@ -160,16 +159,16 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
         ``variables`` is consumed (it may be overwritten)."""
         if variables.shape[1] == 0 or (algebra and self._perm is None):
             return None
-        # (components, intervals, samples), every row contiguous: the heat sampler
-        # stores its draws so already (then no copy: `variables` is overwritten)
-        cum = np.ascontiguousarray(variables.transpose(2, 1, 0))
         levels, steps = _per_plan(self, plan, "levels", _plan_levels)
         if algebra:
-            cum *= plan.side[:, None]
+            cum = _side_times(variables, plan.side)
             for k_up, p_up, k_down, p_down in levels:
                 k = np.concatenate([k_up, k_down])
                 cum[:, k] += cum[:, np.concatenate([p_up, p_down])]
         else:
+            # the heat sampler stores its draws component-first already (then no copy:
+            # `variables` is overwritten)
+            cum = np.ascontiguousarray(variables.transpose(2, 1, 0))
             for k_up, p_up, k_down, p_down in levels:
                 cum[:, k_up] = quaternion_mul_components(cum[:, p_up], cum[:, k_up])
                 cum[:, k_down] = quaternion_mul_components(cum[:, k_down], cum[:, p_down])
@@ -202,7 +201,8 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
         np.cos(theta, out=f[0])
         ratio = np.sin(theta)
         np.divide(ratio, theta, out=ratio, where=theta > 0)
-        ratio[theta == 0] = 1.0
+        if not theta.all():
+            ratio[theta == 0] = 1.0
         u *= ratio
         return f
 
@@ -226,6 +226,14 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
 
 
 # ------------------------------------------------------------ the `fast` extra (numba)
+def _side_times(variables: np.ndarray, side: np.ndarray) -> np.ndarray:
+    """``side_k x_k`` of interval sums ``(samples, intervals, d)``, component-first
+    ``(d, intervals, samples)`` (every row contiguous): one pass, transposing as it
+    multiplies."""
+    out = np.empty(variables.shape[::-1])
+    return np.multiply(variables.transpose(2, 1, 0), side[:, None], out=out)
+
+
 def _per_plan(kernel, plan, key, build):
     """``build(plan)``, kept on the kernel for the last plan it saw under ``key`` (a
     block's chunks share one plan)."""
