@@ -306,8 +306,10 @@ def u3_holonomies_algebra(x, side, order, parent, links, dirs, offsets, rows, co
                 else:
                     rt = math.sqrt(c1 / 3.0)
                     theta = math.acos(min(c0 / (2.0 * rt * rt * rt), 1.0))
-                    u = rt * math.cos(theta / 3.0)
-                    w = math.sqrt(c1) * math.sin(theta / 3.0)
+                    z = math.cos(theta / 3.0)
+                    u = rt * z
+                    # only w^2 enters (f_j even in w): w^2 = c1 (1 - z^2), no sine
+                    w = math.sqrt(c1 * max(1.0 - z * z, 0.0))
                     xi0 = math.sin(w) / w if w != 0 else 1.0
                     cw = math.cos(w)
                     cu, su = math.cos(u), math.sin(u)

@@ -82,10 +82,8 @@ class MatrixKernel(MatrixStorage):
         if not (algebra and self.fuses_algebra) or variables.shape[1] == 0:
             return None
         rows, cols, coef, traceless = self._hermitian_map
-        cum = _side_times(variables, plan.side)
         levels, steps = _per_plan(self, plan, "levels", _plan_levels)
-        for k_up, p_up, k_down, p_down in levels:
-            cum[:, np.concatenate([k_up, k_down])] += cum[:, np.concatenate([p_up, p_down])]
+        cum = _cumulated_sums(variables, plan.side, levels)
         out = []
         for step in steps:
             if step is None:
@@ -94,11 +92,11 @@ class MatrixKernel(MatrixStorage):
             idx, neg_dir, _ = step
             c = cum[:, idx]
             h = []
-            for r in range(9):
+            for r in range(9):  # H_r = -dir sum_j coef_j S_{cols_j}, one pass per term
                 v = np.zeros(c.shape[1:])
                 for j in range(rows[r], rows[r + 1]):
-                    v += coef[j] * c[cols[j]]
-                v *= neg_dir[:, None]
+                    term = c[cols[j]] * (coef[j] * neg_dir)[:, None]
+                    v = term if j == rows[r] else v + term
                 h.append(v)
             p = complex_product_components(expm_u3_components(h, traceless))
             hol = np.empty(p.shape[3:] + (3, 3), complex)
@@ -161,10 +159,7 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
             return None
         levels, steps = _per_plan(self, plan, "levels", _plan_levels)
         if algebra:
-            cum = _side_times(variables, plan.side)
-            for k_up, p_up, k_down, p_down in levels:
-                k = np.concatenate([k_up, k_down])
-                cum[:, k] += cum[:, np.concatenate([p_up, p_down])]
+            cum = _cumulated_sums(variables, plan.side, levels)
         else:
             # the heat sampler stores its draws component-first already (then no copy:
             # `variables` is overwritten)
@@ -226,12 +221,16 @@ class QuaternionKernel(QuaternionStorage, MatrixKernel):
 
 
 # ------------------------------------------------------------ the `fast` extra (numba)
-def _side_times(variables: np.ndarray, side: np.ndarray) -> np.ndarray:
-    """``side_k x_k`` of interval sums ``(samples, intervals, d)``, component-first
-    ``(d, intervals, samples)`` (every row contiguous): one pass, transposing as it
-    multiplies."""
-    out = np.empty(variables.shape[::-1])
-    return np.multiply(variables.transpose(2, 1, 0), side[:, None], out=out)
+def _cumulated_sums(variables: np.ndarray, side: np.ndarray, levels) -> np.ndarray:
+    """``S_k = side_k x_k + S_parent`` of interval sums ``(samples, intervals, d)``
+    cumulated outward from the reference (`_plan_levels`), component-first
+    ``(d, intervals, samples)`` with every row contiguous (transposed as it multiplies,
+    one pass); the reference route's operations in its order."""
+    cum = np.multiply(variables.transpose(2, 1, 0), side[:, None],
+                      out=np.empty(variables.shape[::-1]))
+    for k_up, p_up, k_down, p_down in levels:
+        cum[:, np.concatenate([k_up, k_down])] += cum[:, np.concatenate([p_up, p_down])]
+    return cum
 
 
 def _per_plan(kernel, plan, key, build):

@@ -185,8 +185,11 @@ def expm_u3_components(h, traceless: bool = False) -> np.ndarray:
     c1 = np.where(tiny, 1.0, c1)  # Q = 0: any finite value, replaced below
     rt = np.sqrt(c1 / 3.0)
     theta = np.arccos(np.minimum(c0 / (2.0 * rt * rt * rt), 1.0))
-    u = rt * np.cos(theta / 3.0)
-    w = np.sqrt(c1) * np.sin(theta / 3.0)
+    z = np.cos(theta / 3.0)
+    u = rt * z
+    # w = sqrt(c1) sin(theta / 3); only w^2 enters (the f_j are even in w), and
+    # c1 (1 - z^2) has its rounding error relative to c1: no sine needed
+    w = np.sqrt(c1 * np.maximum(1.0 - z * z, 0.0))
     xi0 = np.sin(w)
     np.divide(xi0, w, out=xi0, where=w != 0)
     xi0[w == 0] = 1.0
