@@ -505,8 +505,8 @@ def chunk_size(problem: WilsonProblem, path: str) -> int:
     plan, kernel, d = problem.plan, problem.kernel, problem.group.dim
     elem = 4 * 8 if kernel.elem_ndim == 1 else problem.group.N ** 2 * 16
     if path == "perimeter" and problem.scheme.kind == "algebra" and kernel.fuses_algebra:
-        # one compiled pass per sample keeps no per-link arrays: the interval sums and
-        # one element per loop (an algebra scheme's draws do not depend on the chunks)
+        # the kernel's own holonomies pass (`fuses_algebra`): sized by the interval sums
+        # and one element per loop (an algebra scheme's draws do not depend on chunks)
         return int(max(64, CHUNK_BYTES // (plan.n_intervals * 8 * d + len(plan.steps) * elem)))
     per_sample = (plan.n_intervals + plan.link_count()) * (elem + 8 * d)
     if path == "dense":
