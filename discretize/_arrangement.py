@@ -162,6 +162,14 @@ class Arrangement:
         """Coordinates of the boundary of bounded face ``i`` (counterclockwise)."""
         return self.vertices[self.faces[i]]
 
+    def outer_boundary(self) -> np.ndarray:
+        """Graph-vertex indices of the boundary of the union of the bounded faces,
+        counterclockwise: the unbounded face's boundary walk run backwards (spikes and
+        bridges into the unbounded face are run out and back)."""
+        h = self.outer_cycle[::-1] ^ 1  # the twins, in reverse order
+        e = self.edges[h // 2]
+        return np.where(h % 2 == 0, e[:, 0], e[:, 1])
+
 
 def _polygon_iv(vertices, name="vertices"):
     try:

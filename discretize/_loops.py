@@ -971,6 +971,24 @@ class LatticeLoop:
         fe = self.face_area_errors
         return None if fe is None else fe.max_relative
 
+    @property
+    def simple(self) -> bool:
+        """True when the loop visits no node twice (a simple closed curve, one turn)."""
+        inner = self.nodes[:-1]
+        return len(np.unique(inner, axis=0)) == len(inner)
+
+    def region_boundary(self) -> "LatticeLoop":
+        """The boundary of the region the loop encloses (the union of the bounded faces
+        of its arrangement, :func:`discretize.arrangement`), counterclockwise: the
+        unbounded face's boundary walk run backwards, a lattice loop on the same grid
+        of winding 1 on every enclosed cell and 0 elsewhere. A simple loop gives itself
+        (or its reverse when clockwise); a figure eight its two lobes, each
+        counterclockwise, from the crossing.
+        """
+        arr = arrangement(self.nodes[:-1].astype(float))
+        walk = np.rint(arr.vertices[arr.outer_boundary()]).astype(np.int64)
+        return LatticeLoop(self.grid, np.vstack([walk, walk[:1]]))
+
     def __eq__(self, other):
         if not isinstance(other, LatticeLoop):
             return NotImplemented

@@ -21,6 +21,7 @@ from ._lie_words import *  # noqa: E402,F401,F403  (formal Lie-algebra words)
 from ._series import *  # noqa: E402,F401,F403  (perturbative series)
 from ._schemes import SCHEMES, Scheme, get_scheme, register_scheme, study_schemes  # noqa: E402
 from ._estimate import BlockSums, EstimateResult, LoopEstimate, combine_blocks  # noqa: E402
+from ._surface_weights import ClosedSurface  # noqa: E402  (Monte Carlo on closed surfaces)
 from ._sampling import (  # noqa: E402
     Field,
     LatticeProblem,

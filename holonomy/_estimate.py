@@ -25,8 +25,60 @@ from typing import Sequence
 
 import numpy as np
 
-__all__ = ["BlockSums", "LoopEstimate", "EstimateResult", "CorrelatorEstimate",
+__all__ = ["BlockSums", "WeightedSums", "LoopEstimate", "EstimateResult", "CorrelatorEstimate",
            "combine_blocks", "correlator_subsets", "estimate_correlators", "joint_cumulant"]
+
+
+@dataclass
+class WeightedSums:
+    """Per-loop sums of one block under weights ``w[s, l]`` (closed surfaces,
+    :mod:`holonomy._surface_weights`): what the self-normalised estimate
+    ``sum w W / sum w`` and its delta-method errors need, combined block by block.
+
+    ``w``, ``w2``: sums of w and w^2; ``wx_re``, ``wx_im``: of ``w W``; ``m2_*``: of
+    ``w^2 (W - r)^2`` and ``d_*``: of ``w^2 (W - r)``, centred at the block's own ratio
+    ``r = wx / w`` (real and imaginary parts apart), so that nearly constant values do
+    not cancel to 0 (as the plane's centred sums, [2]).
+    """
+
+    w: np.ndarray
+    w2: np.ndarray
+    wx_re: np.ndarray
+    wx_im: np.ndarray
+    m2_re: np.ndarray
+    m2_im: np.ndarray
+    d_re: np.ndarray
+    d_im: np.ndarray
+
+    FIELDS = ("w", "w2", "wx_re", "wx_im", "m2_re", "m2_im", "d_re", "d_im")
+
+    @classmethod
+    def from_values(cls, values: np.ndarray, weights: np.ndarray) -> "WeightedSums":
+        values = np.asarray(values, dtype=complex)
+        w = np.asarray(weights, dtype=float)
+        sw = w.sum(axis=0)
+        w2 = w * w
+        out = {"w": sw, "w2": w2.sum(axis=0)}
+        for part, x in (("re", values.real), ("im", values.imag)):
+            wx = (w * x).sum(axis=0)
+            r = np.divide(wx, sw, out=np.zeros_like(wx), where=sw != 0)
+            dev = x - r
+            out[f"wx_{part}"] = wx
+            out[f"m2_{part}"] = (w2 * dev * dev).sum(axis=0)
+            out[f"d_{part}"] = (w2 * dev).sum(axis=0)
+        return cls(**out)
+
+    def to_dict(self) -> dict:
+        return {k: getattr(self, k).tolist() for k in self.FIELDS}
+
+    @classmethod
+    def from_dict(cls, data: dict, n_loops: tuple) -> "WeightedSums":
+        if not isinstance(data, dict) or set(cls.FIELDS) - set(data):
+            raise ValueError(f"weighted sums lack the fields {sorted(set(cls.FIELDS) - set(data or {}))}")
+        out = cls(**{k: np.asarray(data[k], float) for k in cls.FIELDS})
+        if any(getattr(out, k).shape != n_loops for k in cls.FIELDS):
+            raise ValueError("weighted sums of inconsistent shapes")
+        return out
 
 
 @dataclass
@@ -56,12 +108,16 @@ class BlockSums:
     subsets: tuple = ()
     sub_sum: np.ndarray = field(default_factory=lambda: np.zeros(0, complex))
     sub_m2: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
+    # closed surfaces: the sums under the samples' weights (None on the plane)
+    weighted: WeightedSums | None = None
 
     @classmethod
     def from_values(cls, block: int, values: np.ndarray, drift: float,
-                    reprojected: bool = False, subsets=()) -> "BlockSums":
+                    reprojected: bool = False, subsets=(),
+                    weights: np.ndarray | None = None) -> "BlockSums":
         """Build the sums from per-sample values of shape (count, loops); ``subsets``
-        lists the loop-index sets whose products are summed (correlators)."""
+        lists the loop-index sets whose products are summed (correlators); ``weights``
+        (count, loops), on a closed surface, the samples' weights per loop."""
         values = np.asarray(values, dtype=complex)
         re, im = values.real, values.imag
         prod_re = (values[:, :, None] * values[:, None, :]).real
@@ -85,6 +141,7 @@ class BlockSums:
             m2_im=((im - im.mean(axis=0)) ** 2).sum(axis=0),
             reprojected=bool(reprojected),
             subsets=subsets, sub_sum=sub_sum, sub_m2=sub_m2,
+            weighted=None if weights is None else WeightedSums.from_values(values, weights),
         )
 
     def to_dict(self) -> dict:
@@ -105,6 +162,7 @@ class BlockSums:
             "sub_re": self.sub_sum.real.tolist(),
             "sub_im": self.sub_sum.imag.tolist(),
             "sub_m2": self.sub_m2.tolist(),
+            **({} if self.weighted is None else {"weighted": self.weighted.to_dict()}),
         }
 
     @classmethod
@@ -140,6 +198,8 @@ class BlockSums:
                 or any(a.shape != n_loops for a in (out.sum_im, out.m2_re, out.m2_im))
                 or any(a.shape != n_loops * 2 for a in (out.cross, out.cross_sq))):
             raise ValueError("block sums of inconsistent shapes or count")
+        if "weighted" in data:
+            out.weighted = WeightedSums.from_dict(data["weighted"], n_loops)
         return out
 
 
@@ -157,6 +217,11 @@ class LoopEstimate:
     area: float
     drift: float
     reprojected: bool = False
+    # closed surfaces (self-normalised weighted estimate): the effective sample size
+    # (sum w)^2 / sum w^2, and the mean weight with its standard error (E[w] = 1)
+    ess: float | None = None
+    weight_mean: float | None = None
+    weight_stderr: float | None = None
 
     @property
     def value(self) -> complex:
@@ -202,6 +267,7 @@ class EstimateResult:
     path: str
     seed_record: dict = field(default_factory=dict)
     correlator_estimates: list = field(default_factory=list)
+    surface: object = None  # the holonomy.ClosedSurface the estimates are weighted into
 
     def __getitem__(self, name: str) -> LoopEstimate:
         for loop in self.loops:
@@ -227,13 +293,63 @@ def _stderr_centred(blocks, part: str, n: int) -> np.ndarray:
     return np.sqrt(m2 / max(n - 1, 1) / n)
 
 
+def _weighted(blocks: Sequence[BlockSums], n: int) -> dict:
+    """Self-normalised estimates ``R = sum w W / sum w`` per loop, with their errors by
+    the delta method: ``stderr`` from the pooled per-sample sums,
+    ``sqrt(sum w^2 (W - R)^2) / sum w`` ([3], eq. 9.9; the centred block sums combined
+    as in [2]), ``stderr_batch`` from the block totals A_b = sum_b w W, B_b = sum_b w,
+    ``sqrt(nb / (nb - 1) sum_b (A_b - R B_b)^2) / sum w``; the effective sample size
+    ``(sum w)^2 / sum w^2`` ([3], eq. 9.13) and the mean weight with its error."""
+    ws = [b.weighted for b in blocks]
+    if any(w is None for w in ws):
+        raise ValueError("`blocks` mix weighted and unweighted sums; recompute the blocks")
+    sw = np.sum([w.w for w in ws], axis=0)
+    sw2 = np.sum([w.w2 for w in ws], axis=0)
+    out = {}
+    scale = n / max(n - 1, 1)
+    for part in ("re", "im"):
+        wx = [getattr(w, f"wx_{part}") for w in ws]
+        R = np.sum(wx, axis=0) / sw
+        S = np.zeros_like(R)
+        for w, a in zip(ws, wx):
+            r = np.divide(a, w.w, out=np.zeros_like(a), where=w.w != 0)
+            S += getattr(w, f"m2_{part}") + 2 * (r - R) * getattr(w, f"d_{part}") \
+                + (r - R) ** 2 * w.w2
+        out[part] = R
+        out[f"se_{part}"] = np.sqrt(np.maximum(S, 0.0) * scale) / sw
+        if part == "re":
+            if len(ws) > 1:
+                dev = np.array([a - R * w.w for w, a in zip(ws, wx)])
+                out["se_batch"] = np.sqrt((dev * dev).sum(axis=0) * len(ws)
+                                          / (len(ws) - 1)) / sw
+            else:
+                out["se_batch"] = np.full_like(R, np.nan)
+    out["ess"] = sw * sw / sw2
+    mean_w = sw / n
+    # centred sum of squares of w, combined block by block ([2])
+    m2w = np.sum([w.w2 - w.w ** 2 / b.count + b.count * (w.w / b.count - mean_w) ** 2
+                  for w, b in zip(ws, blocks)], axis=0)
+    out["weight_mean"] = mean_w
+    out["weight_stderr"] = np.sqrt(np.maximum(m2w, 0.0) / max(n - 1, 1) / n)
+    return out
+
+
 def combine_blocks(blocks: Sequence[BlockSums], *, names: Sequence[str],
                    areas: Sequence[float], seed: int, block: int, scheme: str,
-                   path: str, correlators: Sequence[Sequence[int]] = ()) -> EstimateResult:
+                   path: str, correlators: Sequence[Sequence[int]] = (),
+                   surface=None) -> EstimateResult:
     """Add per-block sums in block order and form estimates and standard errors.
 
     The blocks are sorted by index before adding, so the result does not depend on the
-    order in which they were computed.
+    order in which they were computed. With ``surface`` (a
+    :class:`holonomy.ClosedSurface`) the estimates are the self-normalised weighted
+    means of the blocks' :class:`WeightedSums` (see :func:`_weighted`).
+
+    References
+    ----------
+    .. [3] A. B. Owen, "Monte Carlo theory, methods and examples", 2013, Chapter 9
+       (self-normalised importance sampling: delta-method variance, effective sample
+       size).
     """
     if not blocks:
         raise ValueError("`blocks` is empty: a run needs at least one finished block.")
@@ -258,12 +374,19 @@ def combine_blocks(blocks: Sequence[BlockSums], *, names: Sequence[str],
     cross_se = _stderr(cross_sum.real, np.sum([b.cross_sq for b in blocks], axis=0), n)
     drift = max(b.drift for b in blocks)
     reprojected = any(b.reprojected for b in blocks)
+    extra: list[dict] = [{} for _ in names]
+    if surface is not None:
+        wt = _weighted(blocks, n)
+        mean_re, sum_im = wt["re"], wt["im"] * n
+        se_re, se_im, se_batch = wt["se_re"], wt["se_im"], wt["se_batch"]
+        extra = [{"ess": float(wt["ess"][i]), "weight_mean": float(wt["weight_mean"][i]),
+                  "weight_stderr": float(wt["weight_stderr"][i])} for i in range(len(names))]
     loops = [
         LoopEstimate(
             name=str(nm), estimate=float(mean_re[i]), estimate_imag=float(sum_im[i] / n),
             stderr=float(se_re[i]), stderr_imag=float(se_im[i]),
             stderr_batch=float(se_batch[i]), samples=n, area=float(areas[i]),
-            drift=drift, reprojected=reprojected,
+            drift=drift, reprojected=reprojected, **extra[i],
         )
         for i, nm in enumerate(names)
     ]
@@ -272,6 +395,7 @@ def combine_blocks(blocks: Sequence[BlockSums], *, names: Sequence[str],
         samples=n, block=int(block), n_blocks=len(blocks), scheme=scheme, path=path,
         seed_record={"entropy": int(seed), "spawn_keys": [[b.block] for b in blocks]},
         correlator_estimates=estimate_correlators(blocks, correlators, names),
+        surface=surface,
     )
 
 

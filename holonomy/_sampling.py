@@ -38,6 +38,7 @@ from noise import ArgumentError, block_rng, cell_noise, interval_sums
 from ._estimate import BlockSums, EstimateResult, combine_blocks, correlator_subsets
 from ._kernels import kernel_for
 from ._schemes import get_scheme
+from ._surface_weights import SURFACE_SCHEMES, ClosedSurface, SurfaceWeights
 from .groups import make_group
 
 __all__ = ["Field", "LatticeProblem", "RunSettings", "WilsonProblem", "run_block", "estimate_wilson_loops", "PATHS",
@@ -278,6 +279,7 @@ class WilsonProblem(LatticeProblem):
     path: str = "auto"
     formal: bool = False
     correlators: tuple = ()  # loop-index tuples whose E[prod W] the blocks also sum
+    surface: ClosedSurface | None = None  # a closed surface: samples weighted into it
 
     def _check_run(self) -> None:
         corr = []
@@ -303,6 +305,8 @@ class WilsonProblem(LatticeProblem):
                 "holonomy.lattice_series, noise.FormalGaussian)."
             )
         scheme = get_scheme(self.field.scheme)
+        if self.surface is not None:
+            self._check_surface(scheme)
         if self.path == "perimeter" and not scheme.perimeter:
             raise ArgumentError(
                 "path", f"got 'perimeter' for scheme {scheme.name!r}; expected 'dense' or "
@@ -310,6 +314,49 @@ class WilsonProblem(LatticeProblem):
                 f"`path`='perimeter' is not available for scheme {scheme.name!r}; "
                 "use 'dense' or 'auto'."
             )
+
+    def _check_surface(self, scheme) -> None:
+        if not isinstance(self.surface, ClosedSurface):
+            raise TypeError(f"`surface` must be a holonomy.ClosedSurface or None, got "
+                            f"{self.surface!r}.")
+        if scheme.name not in SURFACE_SCHEMES:
+            raise ArgumentError(
+                "scheme", f"got {scheme.name!r} on a closed surface; expected "
+                f"{' or '.join(map(repr, SURFACE_SCHEMES))}: only it samples the heat-kernel "
+                "lattice measure, which the surface's weights condition exactly",
+                f"`scheme` {scheme.name!r} cannot be sampled on a closed surface: only "
+                f"{SURFACE_SCHEMES} sample the heat-kernel lattice measure.")
+        if self.correlators or self.formal:
+            raise ArgumentError(
+                "correlators" if self.correlators else "area",
+                "got correlators or a signed density on a closed surface; expected none",
+                "correlators and signed densities are not available on a closed surface.")
+
+    def __post_init__(self):
+        super().__post_init__()
+        if self.surface is not None:
+            _ = self.surface_weights  # validates the surface against the lattice loops
+
+    @cached_property
+    def surface_weights(self) -> SurfaceWeights | None:
+        """The weights into the closed surface (None on the plane)."""
+        return None if self.surface is None else SurfaceWeights(self)
+
+    @cached_property
+    def sampling_plan(self):
+        """The plan whose holonomies a block computes: the loops' plan, plus the region
+        boundaries of the non-simple loops on a closed surface (the same intervals: a
+        boundary runs along the loop's own edges)."""
+        sw = self.surface_weights
+        if sw is None or not sw.extra:
+            return self.plan
+        plan = axial_plan(self.grid, self.lattice_loops + sw.extra, gauge=self.field.gauge,
+                          reference=self.field.reference, area=self.field.area)
+        if not (np.array_equal(plan.column, self.plan.column)
+                and np.array_equal(plan.lo, self.plan.lo)
+                and np.array_equal(plan.hi, self.plan.hi)):
+            raise AssertionError("a region boundary needs links the loops do not have")
+        return plan
 
     @cached_property
     def lattice(self) -> LatticeProblem:
@@ -339,7 +386,8 @@ class WilsonProblem(LatticeProblem):
         """Combine finished blocks (in block order) into the run's estimates."""
         return combine_blocks(blocks, names=self.names, areas=self.areas, seed=self.seed,
                               block=self.block, scheme=self.scheme.name,
-                              path=self.resolved_path, correlators=self.correlators)
+                              path=self.resolved_path, correlators=self.correlators,
+                              surface=self.surface)
 
 
 # -- the sampler ------------------------------------------------------------------------
@@ -391,9 +439,11 @@ def _interval_variables(problem: WilsonProblem, size: int, rng, path: str,
     return out
 
 
-def _holonomies(problem: WilsonProblem, variables: np.ndarray, kernel) -> list[np.ndarray]:
-    """Holonomies of every loop (kernel elements, leading axis samples)."""
-    plan = problem.plan
+def _holonomies(problem: WilsonProblem, variables: np.ndarray, kernel,
+                plan=None) -> list[np.ndarray]:
+    """Holonomies of every loop of ``plan`` (default the problem's; kernel elements,
+    leading axis samples)."""
+    plan = problem.plan if plan is None else plan
     fused = getattr(kernel, "holonomies", None)
     if fused is not None:  # a compiled kernel does all of this in one pass per sample
         out = fused(plan, variables, problem.scheme.kind == "algebra")
@@ -527,17 +577,23 @@ def _block_sums(problem: WilsonProblem, block: int, size: int, rng,
     kernel = problem.kernel
     rep = problem.representation
     step = chunk_size(problem, path)
-    values, drift = [], 0.0
+    surface = getattr(problem, "surface_weights", None)
+    plan = problem.sampling_plan if surface is not None else problem.plan
+    n_loops = len(problem.lattice_loops)
+    values, weights, drift = [], [], 0.0
     # chunks draw from the block's generator one after the other
     for start in range(0, size, step):
         n = min(step, size - start)
         sub = None if noise is None else noise[start:start + n]
         variables = _interval_variables(problem, n, rng, path, sub)
-        hol = _holonomies(problem, variables, kernel)
-        values.append(np.stack([kernel.character(rep, h) for h in hol], axis=1))
+        hol = _holonomies(problem, variables, kernel, plan)
+        values.append(np.stack([kernel.character(rep, h) for h in hol[:n_loops]], axis=1))
+        if surface is not None:
+            weights.append(surface.weights(hol, kernel))
         drift = max(drift, max(kernel.drift(h) for h in hol))
     return BlockSums.from_values(block, np.concatenate(values), drift,
-                                 subsets=correlator_subsets(problem.correlators))
+                                 subsets=correlator_subsets(problem.correlators),
+                                 weights=np.concatenate(weights) if weights else None)
 
 
 def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fundamental", *,

@@ -328,6 +328,8 @@ def _cmd_run(args) -> int:
         print(f"{printable(spec.name)}: {spec.family}({spec.n}), {spec.scheme} scheme, spacing "
               f"{spec.spacing:g}, {spec.samples} samples (seed {spec.seed})")
         print(format_table(outcome.results))
+    for warning in outcome.results.get("warnings", []):  # always: stderr carries them
+        print(printable(f"whitegauge run: warning: {warning}"), file=sys.stderr, flush=True)
     _say(args, f"wrote {os.path.join(out, 'results.json')}, results.csv and the run "
          f"store run.sqlite ({outcome.stats.computed} blocks computed, "
          f"{outcome.stats.reused} reused, {outcome.stats.seconds:.1f} s)")

@@ -89,7 +89,7 @@ from ._word import lasso_words, outer_boundary_word
 
 __all__ = ["SurfaceValue", "surface_partition_function", "surface_simple_loop",
            "surface_abelian_loop", "outer_face_kernel", "exact_surface_wilson_loop",
-           "drawn_measure", "zero_instanton_series"]
+           "drawn_measure", "zero_instanton_series", "OuterFaceKernel"]
 
 _REL = 1e-16  # omitted terms below this fraction of the sum
 _MAX_TERMS = 400_000  # irreducibles (or dual lattice points) a route may sum over
@@ -318,15 +318,20 @@ class _Characters:
             value, terms = total(R)
         return _Sum(value, bound(R), terms)
 
-    def kernel(self, t: float, U) -> tuple[np.ndarray, float]:
+    def kernel_terms(self, t: float) -> tuple[np.ndarray, np.ndarray, float]:
+        """The irreducibles ``nus`` and coefficients ``d^(1-2g) e^{-c t/2}`` of the outer
+        face's kernel at time t, and the bound on the omitted terms."""
         W = self.W
         zt = self.partition(t)
         R = self._radius(lambda R: self._bound_z(R, t), _REL * zt.value, t)
         nus = self._irreducibles(R)
         d = W.dimension(nus)
         coef = d ** (1 - 2 * self.g) * np.exp(-W.casimir(nus) * t / 2)
-        vals = W.character_sum(nus, coef, U)
-        return vals.real, self._bound_z(R, t)
+        return nus, coef, self._bound_z(R, t)
+
+    def kernel(self, t: float, U) -> tuple[np.ndarray, float]:
+        nus, coef, bound = self.kernel_terms(t)
+        return self.W.character_sum(nus, coef, U).real, bound
 
 
 class _TooManyTerms(ValueError):
@@ -715,17 +720,80 @@ def outer_face_kernel(group, genus: int, time: float, U) -> np.ndarray:
     .. [1] E. Witten, Commun. Math. Phys. 141 (1991) 153-209.
     .. [2] T. Levy, Mem. Amer. Math. Soc. 166 (2003), no. 790.
     """
-    group = _group_iv(group)
-    g = _genus_iv(genus)
-    t = _nonneg_iv(time, "time", positive=True)
-    if group.family == "SO" and group.n % 2 == 0 and group.n > 2:
-        raise ValueError(f"`group` {group}: the outer face's kernel is not available for "
-                         "SO(2r), r >= 2 (characters need the orientation of the eigenvectors).")
-    U = np.asarray(U)
-    if U.shape[-2:] != (group.N, group.N):
-        raise ValueError(f"`U` must have shape (..., {group.N}, {group.N}), got {U.shape}.")
-    values, _ = _Characters(group, g).kernel(t, U)
-    return values
+    return OuterFaceKernel(group, genus, time)(U)
+
+
+class OuterFaceKernel:
+    r"""The outer face's kernel ``K_g(t, .)`` of :func:`outer_face_kernel` with its
+    irreducibles and coefficients fixed once, for evaluation on many batches (the
+    Monte Carlo weights of closed surfaces evaluate it once per sample).
+
+    Parameters
+    ----------
+    group : Group
+        Any family except SO(2r), r >= 2.
+    genus : int
+    time : float
+        ``t > 0``.
+
+    Attributes
+    ----------
+    bound : float
+        Bound on the omitted terms (below 1e-16 of ``K_g(t, e)``).
+
+    References
+    ----------
+    .. [1] E. Witten, Commun. Math. Phys. 141 (1991) 153-209.
+    .. [2] W. H. Press et al., "Numerical Recipes", 3rd ed., Cambridge University Press,
+       2007, Section 5.4 (Clenshaw's recurrence formula).
+    """
+
+    def __init__(self, group, genus: int, time: float):
+        group = _group_iv(group)
+        g = _genus_iv(genus)
+        t = _nonneg_iv(time, "time", positive=True)
+        if group.family == "SO" and group.n % 2 == 0 and group.n > 2:
+            raise ValueError(f"`group` {group}: the outer face's kernel is not available "
+                             "for SO(2r), r >= 2 (characters need the orientation of the "
+                             "eigenvectors).")
+        self.group, self.genus, self.time = group, g, t
+        self._W = W = weight_system(group)
+        self._nus, self._coef, self.bound = _Characters(group, g).kernel_terms(t)
+        self._chebyshev = None
+        if W.r == 1:
+            # rank one: chi_nu is a Chebyshev polynomial of one cosine x (U(1), SO(2):
+            # T_|q|(cos theta); SU(2), Sp(1): U_{nu-1}(cos theta); SO(3): U_{2l}(cos phi/2))
+            nu = self._nus[:, 0]
+            index = np.rint(np.abs(nu) if W.abelian else nu / W.rho_x[0] - 1).astype(int)
+            a = np.zeros(int(index.max(initial=0)) + 1)
+            np.add.at(a, index, self._coef.real)
+            self._chebyshev = a
+
+    def _cosine(self, U: np.ndarray) -> np.ndarray:
+        """The cosine x the rank-one characters are polynomials of (from the trace)."""
+        fam = self.group.family
+        tr = np.trace(U, axis1=-2, axis2=-1).real
+        if fam == "SO" and self.group.n == 3:  # tr = 1 + 2 cos(phi): x = cos(phi / 2)
+            return np.sqrt(np.clip((tr + 1) / 4, 0.0, 1.0))
+        return np.clip(tr / self.group.N, -1.0, 1.0)
+
+    def __call__(self, U) -> np.ndarray:
+        """``K_g(t, U)`` for ``U (..., N, N)``: an array ``(...,)`` of floats."""
+        U = np.asarray(U)
+        N = self.group.N
+        if U.shape[-2:] != (N, N):
+            raise ValueError(f"`U` must have shape (..., {N}, {N}), got {U.shape}.")
+        if self._chebyshev is None:
+            return self._W.character_sum(self._nus, self._coef, U).real
+        # Clenshaw's recurrence b_k = a_k + 2 x b_{k+1} - b_{k+2} ([2]): the sum of
+        # a_k U_k(x) is b_0, that of a_k T_k(x) is b_0 - x b_1
+        x = self._cosine(U)
+        b1 = np.zeros_like(x)
+        b2 = np.zeros_like(x)
+        for a in self._chebyshev[:0:-1]:
+            b1, b2 = a + 2 * x * b1 - b2, b1
+        b0 = self._chebyshev[0] + 2 * x * b1 - b2
+        return b0 - x * b1 if self._W.abelian else b0
 
 
 def zero_instanton_series(group, rep, inside: float, total_area: float, order: int, *,

@@ -10,7 +10,7 @@ argument comes from (:data:`ARGUMENT_KEYS`), never by reading the message.
 from __future__ import annotations
 
 from discretize import Loop
-from holonomy import Field, LatticeProblem, WilsonProblem
+from holonomy import ClosedSurface, Field, LatticeProblem, WilsonProblem
 from noise import ArgumentError
 
 from ._spec import Spec, SpecError
@@ -23,7 +23,8 @@ ARGUMENT_KEYS = {"rep": "observable.rep", "scheme": "field.scheme", "gauge": "fi
                  "samples": "run.samples", "block": "run.block", "seed": "run.seed",
                  "area": "field.density", "reference": "field.reference",
                  "loops": "loops", "coupling": "field.coupling", "spacing": "field.spacing",
-                 "correlators": "correlators"}
+                 "correlators": "correlators", "surface": "surface.area",
+                 "genus": "surface.genus", "total_area": "surface.area"}
 
 
 def _loops(spec: Spec, h: float) -> tuple[Loop, ...]:
@@ -83,7 +84,8 @@ def build_problem(spec: Spec, *, scheme: str | None = None, spacing: float | Non
             family=spec.family, n=spec.n, metric=spec.metric, field=fld, loops=loops,
             names=spec.names, rep=spec.rep, samples=spec.samples, block=spec.block,
             seed=spec.seed, path="auto", formal=formal,
-            correlators=spec.correlator_indices)
+            correlators=spec.correlator_indices,
+            surface=ClosedSurface(spec.genus, spec.total_area) if spec.closed else None)
     except ArgumentError as exc:
         raise _refused(exc) from None
     return problem

@@ -180,7 +180,12 @@ def surface_references(spec, problem: LatticeProblem, i: int, *, scheme: str) ->
         ref.exact_note = (f"{NOT_AVAILABLE} (on a closed surface only the heat scheme's "
                           "lattice value is known)")
         return ref
-    lat = exact_surface_wilson_loop(problem.group, problem.rep, problem.lattice_loops[i], **kw)
+    try:  # the loop as snapped: what `heat` samples
+        lat = exact_surface_wilson_loop(problem.group, problem.rep, problem.lattice_loops[i],
+                                        **kw)
+    except ValueError as exc:  # snapped, it may draw more than the total area
+        ref.exact_note = f"{NOT_AVAILABLE} (the loop as snapped: {exc})"
+        return ref
     if lat.value is None:
         ref.exact_note = f"{NOT_AVAILABLE} ({lat.note})"
     else:

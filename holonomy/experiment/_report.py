@@ -89,13 +89,45 @@ def _snapping_warning(ref, stderr: float) -> str | None:
             "as specified")
 
 
+#: an effective sample size below this fraction of the samples is warned about
+ESS_WARNING_FRACTION = 0.01
+
+
+def _surface_fields(spec, le) -> dict:
+    """What a closed-surface estimate is (``estimate_note``), its effective sample size
+    and mean weight, and a warning when the weights leave less than
+    :data:`ESS_WARNING_FRACTION` of the samples effective."""
+    if not spec.closed:
+        return {}
+    warn = None
+    if le.ess is not None and le.ess < ESS_WARNING_FRACTION * le.samples:
+        warn = (f"effective sample size {le.ess:.4g} is below "
+                f"{100 * ESS_WARNING_FRACTION:g} % of the {le.samples} samples: the weights "
+                "are dominated by a few samples and the error bars are unreliable "
+                "(the outer face is small against the coupling: a larger surface.area, a "
+                "smaller field.coupling, or more samples)")
+    return {"estimate_note": (f"estimate, {spec.scheme} scheme, reweighted to the "
+                              f"{spec.surface} of area {spec.total_area:g} (genus "
+                              f"{spec.genus})"),
+            "ess": le.ess, "weight_mean": le.weight_mean, "weight_stderr": le.weight_stderr,
+            "ess_warning": warn}
+
+
+def _join(*texts) -> str | None:
+    kept = [t for t in texts if t]
+    return "; ".join(kept) if kept else None
+
+
 def build_results(spec, problem, estimate, provenance: dict, *,
                   references: Sequence | None = None) -> dict:
     """The results object of a run of ``spec`` (see the module docstring)."""
     if references is None:
         references = [loop_references(spec, problem, i) for i in range(len(spec.loops))]
-    rows = []
+    rows, warnings = [], []
     for i, (le, ref) in enumerate(zip(estimate.loops, references)):
+        surf = _surface_fields(spec, le)
+        if surf.get("ess_warning"):
+            warnings.append(f"{le.name}: {surf['ess_warning']}")
         rows.append({
             "loop": le.name,
             "rep": spec.rep,
@@ -118,7 +150,7 @@ def build_results(spec, problem, estimate, provenance: dict, *,
             "max_face_area_error": problem.lattice_loops[i].max_face_area_error,
             "snapped": ref.snapped,
             "snapping_error": _difference(ref.snapped, ref.continuum),
-            "warning": _snapping_warning(ref, le.stderr),
+            "warning": _join(_snapping_warning(ref, le.stderr), surf.pop("ess_warning", None)),
             "samples": le.samples,
             "drift": le.drift,
             "reprojected": le.reprojected,
@@ -126,7 +158,10 @@ def build_results(spec, problem, estimate, provenance: dict, *,
             "continuum_note": ref.continuum_note,
             "gaussian_matrix": ref.gaussian_matrix,
             "gaussian_matrix_note": ref.gaussian_matrix_note,
+            **surf,
         })
+    surface = {"surface": {"kind": spec.surface, "genus": spec.genus,
+                           "area": spec.total_area}} if spec.closed else {}
     return clean({
         "name": spec.name,
         "spec_sha256": spec.sha256,
@@ -138,7 +173,9 @@ def build_results(spec, problem, estimate, provenance: dict, *,
         "field": {"coupling": spec.coupling, "spacing": spec.spacing,
                   "gauge": spec.gauge, "reference": spec.reference,
                   "scheme": spec.scheme, "path": estimate.path},
+        **surface,
         "results": rows,
+        "warnings": warnings,
         "correlators": correlator_rows(spec, problem, estimate),
         "seed_record": {"entropy": spec.seed, "spawn_key": "(block,)",
                         "blocks": estimate.n_blocks},
@@ -216,7 +253,8 @@ _CSV_FIELDS = ("loop", "rep", "kind", "scheme", "estimate", "estimate_imag", "st
                "stderr_batch", "exact", "exact_method", "z", "continuum", "area",
                "area_error", "samples", "drift", "group", "metric", "spacing", "snapped",
                "snapping_error", "max_face_area_error", "warning", "connected",
-               "connected_stderr", "exact_connected", "z_connected")
+               "connected_stderr", "exact_connected", "z_connected", "ess", "weight_mean",
+               "weight_stderr")
 
 
 def _write_text_atomic(text: str, path: Path) -> Path:
@@ -338,9 +376,11 @@ def format_table(results: dict) -> str:
     rows = []
     for r in results["results"]:
         z = "" if r.get("z") is None else f"z = {r['z']:+.2f} vs exact"
+        how = r.get("estimate_note") or r.get("scheme", "")
+        ess = "" if r.get("ess") is None else f" (ess {r['ess']:.4g})"
         rows.append([r["loop"], r.get("kind", "estimate"),
                      fmt_value(r["estimate"], r["stderr"], "est"),
-                     f"{r.get('scheme', '')}, {r['samples']} samples; {z}".rstrip("; ")])
+                     f"{how}, {r['samples']} samples{ess}; {z}".rstrip("; ")])
         rows.extend(_reference_rows(r))
         if r.get("warning"):
             rows.append(["", "warning", "", r["warning"]])

@@ -52,6 +52,7 @@ from noise import ArgumentError
 
 from .._formal_estimate import formal_schemes
 from .._schemes import SCHEMES
+from .._surface_weights import SURFACE_SCHEMES
 from ..exact import drawn_measure
 from ..groups import FAMILIES, METRICS, MIN_N, matrix_size, parse_metric, parse_n, parse_rep, \
     rep_name
@@ -832,7 +833,7 @@ def _rep_iv(obs: dict, family: str, n: int) -> str:
     return rep_name(kind, arg)
 
 
-def _surface_iv(data: dict, loops, spacing: float, density, purpose: str):
+def _surface_iv(data: dict, loops, spacing: float, density, purpose: str, scheme: str):
     """``(kind, genus, T)`` of the ``[surface]`` table (README.md, Closed surfaces)."""
     t = _table(data, "surface", "surface", _SURFACE_KEYS, required=False)
     kind = _choice(t, "kind", "surface.kind", SURFACE_KINDS, default="plane")
@@ -855,10 +856,15 @@ def _surface_iv(data: dict, loops, spacing: float, density, purpose: str):
                         f"{fixed} (or kind \"closed\")")
     T = _number(t, "area", "surface.area", rule="a number > 0, the total area T",
                 check=lambda v: 0 < v <= 1e100)
-    if purpose in ("run", "study"):
+    if purpose == "study":
         raise SpecError("surface.kind", f"got {kind!r}; expected \"plane\" for `{purpose}`: "
-                        "sampling on closed surfaces is not available in this "
+                        "studies on closed surfaces are not available in this "
                         "version (use `whitegauge exact` for exact surface values)")
+    if purpose == "run" and scheme not in SURFACE_SCHEMES:
+        raise SpecError("field.scheme", f"got {scheme!r} with surface kind {kind!r}; expected "
+                        f"{' or '.join(map(repr, SURFACE_SCHEMES))}: a closed surface is "
+                        "sampled by weighting the plane's heat-kernel lattice measure, which "
+                        "only the heat scheme samples")
     if (density < 0) if isinstance(density, float) else any(r[4] < 0 for r in density):
         raise SpecError("surface.kind", f"got {kind!r} with a density that changes sign; "
                         "expected a non-negative density on a closed surface")
@@ -935,7 +941,7 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
     seed = _integer(r, "seed", "run.seed", rule="an integer >= 0",
                     check=lambda v: v >= 0, required=sampling)
 
-    surface, genus, total_area = _surface_iv(data, loops, spacing, density, purpose)
+    surface, genus, total_area = _surface_iv(data, loops, spacing, density, purpose, scheme)
 
     return Spec(
         surface=surface, genus=genus, total_area=total_area,

@@ -86,7 +86,7 @@ def test_cli_exact_and_bad_input(tmp_path):
     assert "Traceback" not in proc.stderr
 
 
-@pytest.mark.parametrize("purpose", ["run", "study"])
+@pytest.mark.parametrize("purpose", ["study"])
 def test_sampling_on_surfaces_refused(purpose):
     with pytest.raises(SpecError) as err:
         surface_spec('[surface]\nkind = "sphere"\narea = 3.0\n', purpose=purpose)
