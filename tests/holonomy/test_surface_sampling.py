@@ -126,7 +126,8 @@ def test_so3_simple_loop_on_the_sphere():
     check(res.loops[0], ex.value.real, problem.n_blocks)
 
 
-@pytest.mark.parametrize("family, n, metric", [("SU", 3, "physics"), ("U", 2, "trace")])
+@pytest.mark.parametrize("family, n, metric", [("SU", 3, "physics"), ("U", 2, "trace"),
+                                               ("SU", 4, "physics"), ("U", 4, "trace")])
 def test_higher_rank_simple_loop_on_the_sphere(family, n, metric):
     problem, res = estimate(family, n, metric, [BOX], 0, 3.0, 8192, block=1024)
     ex = exact_surface_wilson_loop(problem.group, "fundamental", BOX, coupling=1.0,

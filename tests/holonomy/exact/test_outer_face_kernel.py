@@ -61,3 +61,30 @@ def test_at_the_identity_no_division():
     K = OuterFaceKernel(G, 0, 0.5)
     want = sum((n + 1) ** 2 * math.exp(-(n / 2) * (n / 2 + 1) * 0.25) for n in range(200))
     assert K(np.eye(2)[None]) == pytest.approx([want], rel=1e-13)
+
+
+@pytest.mark.parametrize("family, n, metric", [("U", 2, "trace"), ("U", 3, "large-n"),
+                                               ("SU", 3, "physics"), ("SU", 4, "physics"),
+                                               ("U", 4, "trace")])
+def test_theta_determinant_equals_the_weyl_character_route(family, n, metric):
+    """U(n), SU(n) on the sphere: the determinant of theta sums against the Weyl
+    character formula summed over the irreducibles (Weyl 1939, The Classical Groups,
+    ch. VII), on Haar elements and near the identity (a small heat-kernel time)."""
+    G = make_group(family, n, metric)
+    rng = np.random.default_rng(7)
+    U = np.concatenate([G.haar(40, rng=rng), G.heat_kernel(np.array([0.05]), 40, rng=rng)[:, 0]])
+    for t in (0.4, 3.0):
+        K = OuterFaceKernel(G, 0, t)
+        assert K._theta is not None
+        weyl = K._W.character_sum(K._nus, K._coef, U).real
+        assert np.allclose(K(U), weyl, rtol=1e-9, atol=1e-12 * abs(weyl).max())
+
+
+def test_theta_determinant_at_the_identity_takes_the_weyl_route():
+    # all eigenvalues equal: A_rho = 0; K(e) = sum_a d_a^2 e^{-c_a t/2} = Z
+    from holonomy.exact import surface_partition_function
+
+    G = make_group("U", 2, "trace")
+    K = OuterFaceKernel(G, 0, 1.5)
+    Z = surface_partition_function(G, 0, 1.5, coupling=1.0)
+    assert K(np.eye(2, dtype=complex)[None]) == pytest.approx([Z], rel=1e-10)
