@@ -109,9 +109,15 @@ class SurfaceWeights:
         self.times = tuple(lam * (T - r) for r in regions)
         try:
             kernels = {t: OuterFaceKernel(group, g, t) for t in sorted(set(self.times))}
-        except ValueError as exc:  # SO(2r), r >= 2: no kernel
-            raise ArgumentError("family", f"got {group}; expected a group whose outer face's "
-                                f"kernel is available on a closed surface ({exc})") from None
+        except ValueError as exc:
+            if group.family == "SO" and group.n % 2 == 0 and group.n > 2:  # no kernel
+                raise ArgumentError("family", f"got {group}; expected a group whose outer "
+                                    f"face's kernel is available on a closed surface ({exc})"
+                                    ) from None
+            # the character sum too long: an outer face too small against the coupling
+            raise ArgumentError("surface", f"got the total area {T!r}: the outer face's "
+                                f"kernel cannot be summed ({exc}); expected a larger area "
+                                "or coupling") from None
         self.kernels = tuple(kernels[t] for t in self.times)
         self.z = surface_partition_function(group, g, T, coupling=lam)
 

@@ -773,6 +773,7 @@ class OuterFaceKernel:
             a = np.zeros(int(index.max(initial=0)) + 1)
             np.add.at(a, index, self._coef.real)
             self._chebyshev = a
+        _ = self._terms  # list the irreducibles now: a sum too long fails here
 
     @cached_property
     def _terms(self):
