@@ -270,7 +270,10 @@ class WilsonProblem(LatticeProblem):
     """Everything one Monte Carlo run of Wilson loops needs: a :class:`LatticeProblem`
     (its fields come first) plus the :class:`RunSettings` (``samples``, ``block``,
     ``seed``, ``path``); picklable and frozen. ``formal=True`` admits a signed area
-    form for the formal routes (it cannot be sampled).
+    form for the formal routes (it cannot be sampled). ``surface`` (a
+    :class:`holonomy.ClosedSurface`) puts the loops on a closed surface: the ``heat``
+    scheme's plane samples are weighted into its measure
+    (:mod:`holonomy._surface_weights`) and the estimates are self-normalised.
     """
 
     samples: int = 10000
@@ -599,7 +602,8 @@ def _block_sums(problem: WilsonProblem, block: int, size: int, rng,
 def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fundamental", *,
                           samples: int, block: int = 4096, seed: int, names: Sequence[str] = (),
                           path: str = "auto", executor: Executor | None = None,
-                          correlators: Sequence[Sequence[int]] = ()) -> EstimateResult:
+                          correlators: Sequence[Sequence[int]] = (),
+                          surface: ClosedSurface | None = None) -> EstimateResult:
     """Estimate normalized Wilson loops E[chi_rep(H)] / dim with standard errors.
 
     Parameters
@@ -619,6 +623,9 @@ def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fund
     correlators : sequence of sequence of int, optional
         Loop-index sets (two or more loops each) whose correlators ``E[prod_i W(i)]``
         and connected parts are estimated (``EstimateResult.correlator_estimates``).
+    surface : ClosedSurface, optional
+        A closed surface: the ``heat`` scheme's samples weighted into its measure
+        (self-normalised estimates with ``ess``; README.md, Closed surfaces).
 
     Returns
     -------
@@ -630,7 +637,8 @@ def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fund
         family, n, metric = group.family, group.n, group.metric
     problem = WilsonProblem(family=family, n=n, metric=metric, field=field, loops=tuple(loops),
                             names=tuple(names), rep=rep, samples=samples, block=block,
-                            seed=seed, path=path, correlators=tuple(correlators))
+                            seed=seed, path=path, correlators=tuple(correlators),
+                            surface=surface)
     if executor is None:
         blocks = [run_block(problem, b) for b in range(problem.n_blocks)]
     else:
