@@ -698,9 +698,9 @@ def outer_face_kernel(group, genus: int, time: float, U) -> np.ndarray:
     r"""The outer face's kernel ``K_g(t, h) = sum_a d_a^(1-2g) chi_a(h) e^{-c_a t/2}``.
 
     On the sphere (g = 0) it is the heat kernel ``p_t(h)`` against the Haar probability
-    measure. Batched over group elements ``U (..., N, N)``; characters by the Weyl
-    character formula on the eigen-angles. The omitted irreducibles change each value by
-    less than 1e-16 of ``K_g(t, e)``.
+    measure. Batched over group elements ``U (..., N, N)``, by :class:`OuterFaceKernel`
+    (the routes are listed there). The omitted irreducibles change each value by less
+    than 1e-16 of ``K_g(t, e)``.
 
     Parameters
     ----------
@@ -760,11 +760,10 @@ class OuterFaceKernel:
                              "eigenvectors).")
         self.group, self.genus, self.time = group, g, t
         self._W = W = weight_system(group)
-        self._theta = None
+        self._theta = self._chebyshev = None
         if g == 0 and group.family in ("U", "SU") and W.r > 1:
             self._theta = _ThetaDeterminant(W, t)  # needs no list of irreducibles
             return
-        self._chebyshev = None
         if W.r == 1:
             # rank one: chi_nu is a Chebyshev polynomial of one cosine x (U(1), SO(2):
             # T_|q|(cos theta); SU(2), Sp(1): U_{nu-1}(cos theta); SO(3): U_{2l}(cos phi/2))

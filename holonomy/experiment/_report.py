@@ -93,12 +93,12 @@ def _snapping_warning(ref, stderr: float) -> str | None:
 ESS_WARNING_FRACTION = 0.01
 
 
-def _surface_fields(spec, le) -> dict:
+def _surface_fields(spec, le) -> tuple[dict, str | None]:
     """What a closed-surface estimate is (``estimate_note``), its effective sample size
     and mean weight, and a warning when the weights leave less than
     :data:`ESS_WARNING_FRACTION` of the samples effective."""
     if not spec.closed:
-        return {}
+        return {}, None
     warn = None
     if le.ess is not None and le.ess < ESS_WARNING_FRACTION * le.samples:
         warn = (f"effective sample size {le.ess:.4g} is below "
@@ -109,8 +109,8 @@ def _surface_fields(spec, le) -> dict:
     return {"estimate_note": (f"estimate, {spec.scheme} scheme, reweighted to the "
                               f"{spec.surface} of area {spec.total_area:g} (genus "
                               f"{spec.genus})"),
-            "ess": le.ess, "weight_mean": le.weight_mean, "weight_stderr": le.weight_stderr,
-            "ess_warning": warn}
+            "ess": le.ess, "weight_mean": le.weight_mean,
+            "weight_stderr": le.weight_stderr}, warn
 
 
 def _join(*texts) -> str | None:
@@ -125,9 +125,9 @@ def build_results(spec, problem, estimate, provenance: dict, *,
         references = [loop_references(spec, problem, i) for i in range(len(spec.loops))]
     rows, warnings = [], []
     for i, (le, ref) in enumerate(zip(estimate.loops, references)):
-        surf = _surface_fields(spec, le)
-        if surf.get("ess_warning"):
-            warnings.append(f"{le.name}: {surf['ess_warning']}")
+        surf, ess_warning = _surface_fields(spec, le)
+        if ess_warning:
+            warnings.append(f"{le.name}: {ess_warning}")
         rows.append({
             "loop": le.name,
             "rep": spec.rep,
@@ -150,7 +150,7 @@ def build_results(spec, problem, estimate, provenance: dict, *,
             "max_face_area_error": problem.lattice_loops[i].max_face_area_error,
             "snapped": ref.snapped,
             "snapping_error": _difference(ref.snapped, ref.continuum),
-            "warning": _join(_snapping_warning(ref, le.stderr), surf.pop("ess_warning", None)),
+            "warning": _join(_snapping_warning(ref, le.stderr), ess_warning),
             "samples": le.samples,
             "drift": le.drift,
             "reprojected": le.reprojected,
