@@ -73,7 +73,7 @@ def test_theta_determinant_equals_the_weyl_character_route(family, n, metric):
     G = make_group(family, n, metric)
     rng = np.random.default_rng(7)
     U = np.concatenate([G.haar(40, rng=rng), G.heat_kernel(np.array([0.05]), 40, rng=rng)[:, 0]])
-    for t in (0.4, 3.0):
+    for t in (0.4 if G.N < 4 else 1.0, 3.0):  # (the Weyl sums at U(4), t = 0.4: 57535 terms)
         K = OuterFaceKernel(G, 0, t)
         assert K._theta is not None
         weyl = K._W.character_sum(K._nus, K._coef, U).real
