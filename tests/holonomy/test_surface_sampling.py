@@ -115,8 +115,9 @@ def test_su2_figure_eight_on_the_sphere():
     check(res.loops[1], su2_sum(1.0, 2.0), problem.n_blocks)
     sv = exact_surface_wilson_loop(problem.group, "fundamental", EIGHT, coupling=1.0,
                                    genus=0, total_area=3.0)
-    if sv.value is not None:  # a non-simple exact route on the surface, where it exists
-        assert sv.value.real == pytest.approx(su2_figure_eight(0.25, 0.25, 3.0), abs=1e-9)
+    # the exact route for non-simple loops on the surface (surface-outer-face-expansion)
+    assert sv.value.real == pytest.approx(su2_figure_eight(0.25, 0.25, 3.0), abs=1e-9)
+    check(res.loops[0], sv.value.real, problem.n_blocks)
 
 
 def test_so3_simple_loop_on_the_sphere():
