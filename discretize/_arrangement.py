@@ -53,8 +53,10 @@ from fractions import Fraction
 from functools import cmp_to_key
 
 import numpy as np
+from scipy.spatial import cKDTree
 
-__all__ = ["Arrangement", "arrangement", "joint_arrangement"]
+__all__ = ["Arrangement", "arrangement", "joint_arrangement", "check_crossings",
+           "MAX_SCREENED_PAIRS", "MAX_EXACT_PAIRS"]
 
 
 @dataclass(frozen=True)
@@ -266,46 +268,228 @@ class _Components:
         self.parent[self.find(i)] = self.find(j)
 
 
-def _intersect(segs, owner, adjacent, tol, scale_pts):
+#: candidate pairs of segments screened at once (bounds the memory of the screening:
+#: a few hundred bytes per pair, whatever the number of segments)
+_CHUNK = 1 << 18
+#: pairs of segments whose bounding boxes meet, screened in floating point (vectorized)
+MAX_SCREENED_PAIRS = 10**8
+#: pairs of segments too close for the float screen, decided in exact arithmetic
+MAX_EXACT_PAIRS = 10**6
+
+
+def _unique_segments(segs):
+    """Each geometric segment once: ``(first occurrence, index of each segment's
+    unique segment, multiplicity)``. A polygon that runs over the same edge many times
+    (a path repeated, a spike) is screened once per distinct edge. ``segs`` holds the
+    float endpoints (exact: they are the binary values the Fractions were made of)."""
+    uid: dict = {}
+    index = np.empty(len(segs), dtype=np.intp)
+    first: list[int] = []
+    for s, (a, b) in enumerate(segs):
+        key = (a, b) if a <= b else (b, a)
+        u = uid.get(key)
+        if u is None:
+            u = uid[key] = len(first)
+            first.append(s)
+        index[s] = u
+    mult = np.bincount(index, minlength=len(first))
+    return np.array(first, dtype=np.intp), index, mult
+
+
+def _sweep(lo, hi, axis):
+    """Segments sorted along ``axis`` and, for each, the end of its overlap run."""
+    order = np.argsort(lo[:, axis], kind="stable")
+    end = np.searchsorted(lo[order, axis], hi[order, axis], side="right")
+    counts = np.maximum(end - np.arange(len(order)) - 1, 0)
+    return order, counts
+
+
+def _point_segment_distances(p, a, b):
+    ab = b - a
+    den = np.einsum("ij,ij->i", ab, ab)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = np.clip(np.einsum("ij,ij->i", p - a, ab) / den, 0.0, 1.0)
+    d = np.hypot(*(p - a - t[:, None] * ab).T)
+    return np.where(den > 0, d, 0.0)  # a degenerate segment: never screened out
+
+
+def _orient_f(a, b, c):
+    return (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (c[:, 0] - a[:, 0])
+
+
+def _same(p, q):
+    return (p[:, 0] == q[:, 0]) & (p[:, 1] == q[:, 1])
+
+
+def _straddle(o1, o2, err):
+    """The two points may lie on both sides of (or on) the line, up to ``err``."""
+    return ((o1 <= err) & (o2 >= -err)) | ((o1 >= -err) & (o2 <= err))
+
+
+def _close_pairs(A, B, tol):
+    """Pairs ``(i, j)``, ``i < j``, of segments that may touch or come within ``tol``,
+    and the signs of their orientations ``(a b c, a b d, c d a, c d b)`` where floating
+    point decides them (2 where it cannot).
+
+    Bounding boxes are swept along the axis with fewer overlaps (O(m log m) plus the
+    overlapping pairs), in chunks of at most ``_CHUNK`` pairs, and a pair is dropped only
+    when its floating-point distance exceeds ``tol`` by a margin far above rounding, so
+    the exact tests downstream see every pair that matters.
+    """
+    n = len(A)
+    lo, hi = np.minimum(A, B) - tol, np.maximum(A, B) + tol
+    sweeps = [_sweep(lo, hi, axis) for axis in (0, 1)]
+    totals = [int(c.sum()) for _, c in sweeps]
+    axis = int(np.argmin(totals))
+    order, counts = sweeps[axis]
+    if totals[axis] > MAX_SCREENED_PAIRS:
+        raise ValueError(
+            f"`vertices`: the loop's {n} distinct edges have {totals[axis]:.3g} pairs "
+            f"with overlapping extents, more than the limit {MAX_SCREENED_PAIRS:.0e} of the "
+            "crossing check; use a loop with fewer edges or crossings."
+        )
+    margin = tol + 1e-12 * (float(np.abs(np.vstack([A, B])).max()) + float(
+        np.hypot(*(hi.max(axis=0) - lo.min(axis=0)))))
+    # rounding of a float orientation (twice a triangle's area): far below this
+    area_err = margin * float(np.hypot(*(hi.max(axis=0) - lo.min(axis=0)))) + 1e-300
+    # rounding of a float orientation: below 8 eps diam^2 for float inputs
+    round_err = 1e-12 * float(np.hypot(*(hi.max(axis=0) - lo.min(axis=0)))) ** 2
+    other = 1 - axis
+    found, signs = [], []
+    kept = 0
+    cum = np.cumsum(counts)
+    k0 = 0
+    while k0 < n:
+        # a run of sweep positions holding at most _CHUNK pairs (at least one position)
+        k1 = max(int(np.searchsorted(cum, (cum[k0 - 1] if k0 else 0) + _CHUNK, "right")),
+                 k0 + 1)
+        cnt = counts[k0:k1]
+        total = int(cnt.sum())
+        if total:
+            rows = np.repeat(np.arange(k0, k1), cnt)
+            offs = np.arange(total) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+            i, j = order[rows], order[rows + 1 + offs]
+            meet = (lo[i, other] <= hi[j, other]) & (lo[j, other] <= hi[i, other])
+            i, j = i[meet], j[meet]
+            d = np.minimum.reduce([
+                _point_segment_distances(A[j], A[i], B[i]),
+                _point_segment_distances(B[j], A[i], B[i]),
+                _point_segment_distances(A[i], A[j], B[j]),
+                _point_segment_distances(B[i], A[j], B[j])]) if len(i) else np.zeros(0)
+            # two segments that cross are at distance 0 but their ends need not be near:
+            # keep a pair whose ends straddle each other's line, up to rounding
+            o1, o2 = _orient_f(A[i], B[i], A[j]), _orient_f(A[i], B[i], B[j])
+            o3, o4 = _orient_f(A[j], B[j], A[i]), _orient_f(A[j], B[j], B[i])
+            near = ~(d > margin) | (_straddle(o1, o2, area_err) & _straddle(o3, o4, area_err))
+            i, j = i[near], j[near]
+            o = np.stack([o1, o2, o3, o4], axis=1)[near]
+            if len(i):
+                # the sign of an orientation whose float value is far beyond its
+                # rounding, or 0 for an end shared with the other segment; 2 where only
+                # exact arithmetic can tell
+                on_end = np.stack([_same(A[j], A[i]) | _same(A[j], B[i]),
+                                   _same(B[j], A[i]) | _same(B[j], B[i]),
+                                   _same(A[i], A[j]) | _same(A[i], B[j]),
+                                   _same(B[i], A[j]) | _same(B[i], B[j])], axis=1)
+                sgn = np.where(on_end, 0, np.where(np.abs(o) > round_err, np.sign(o), 2))
+                swap = i > j  # the caller wants (i, j) with i < j: exchange the roles
+                sgn[swap] = sgn[swap][:, [2, 3, 0, 1]]
+                signs.append(sgn.astype(np.int8))
+            kept += len(i)
+            if kept > MAX_EXACT_PAIRS:
+                raise ValueError(
+                    f"`vertices`: the loop's {n} distinct edges have more than "
+                    f"{MAX_EXACT_PAIRS:.0e} pairs that cross or come close, the limit of "
+                    "the exact crossing check; use a loop with fewer edges or crossings."
+                )
+            found.append(np.stack([np.minimum(i, j), np.maximum(i, j)], axis=1))
+        k0 = k1
+    if not found:
+        return np.zeros((0, 2), dtype=np.intp), np.zeros((0, 4), dtype=np.int8)
+    return np.concatenate(found), np.concatenate(signs)
+
+
+def check_crossings(curves, *, rtol: float = 1e-9) -> int:
+    """The number of edge pairs the crossing check of ``curves`` would decide exactly.
+
+    Raises the ``ValueError`` of :func:`arrangement` when the check is beyond its limits
+    (:data:`MAX_SCREENED_PAIRS`, :data:`MAX_EXACT_PAIRS`), in O(m log m) time and bounded
+    memory, without building anything: callers use it to refuse a loop before numerics.
+    """
+    polys = [_polygon_iv(c) for c in curves]
+    allpts = np.vstack(polys)
+    tol = _rtol_iv(rtol) * float(np.hypot(*(allpts.max(axis=0) - allpts.min(axis=0))))
+    A, B = [], []
+    for v in polys:
+        keys = {}
+        for a, b in zip(map(tuple, v.tolist()), map(tuple, np.roll(v, -1, 0).tolist())):
+            keys.setdefault((a, b) if a <= b else (b, a), None)
+        seg = np.array(list(keys), dtype=float).reshape(-1, 2, 2)
+        A.append(seg[:, 0])
+        B.append(seg[:, 1])
+    return len(_close_pairs(np.vstack(A), np.vstack(B), tol)[0])
+
+
+def _intersect(segs, owner, consecutive, adjacent, tol, fsegs=None):
     """Split points of every segment, proper crossings and curve components.
 
     ``segs[s] = (a, b)`` exact endpoints; ``owner[s]`` the curve (or bridge) index;
-    ``adjacent(s, t)`` tells whether two segments are consecutive on one curve (they
-    share the vertex ``b`` of the first and ``a`` of the second).
+    ``consecutive`` the pairs ``(s, t)`` of segments that follow each other on a curve,
+    ``adjacent(s, t)`` their shared vertex and other ends (or None).
+
+    Each distinct segment is tested once (repeats share its split points; a crossing of
+    repeated segments counts every pair of copies); the pairs to test come from
+    :func:`_close_pairs` in bounded memory and are decided in the order of their first
+    occurrences, so the graph is numbered as if every pair of segments were tested.
     """
     ns = len(segs)
     comps = _Components(max(owner) + 1)
-    A = np.array([[float(x) for x in s[0]] for s in segs])
-    B = np.array([[float(x) for x in s[1]] for s in segs])
-    lo, hi = np.minimum(A, B) - tol, np.maximum(A, B) + tol
-    overlap = np.all(
-        (lo[:, None, :] <= hi[None, :, :]) & (lo[None, :, :] <= hi[:, None, :]), axis=-1
-    )
-    ii, jj = np.nonzero(np.triu(overlap, k=1))
-    splits: list[set] = [set() for _ in range(ns)]
+    if fsegs is None:
+        fsegs = [((float(a[0]), float(a[1])), (float(b[0]), float(b[1]))) for a, b in segs]
+    first, index, mult = _unique_segments(fsegs)
+    for s in range(ns):  # copies of one segment join their curves
+        comps.union(owner[s], owner[first[index[s]]])
+    adjacent_pairs: dict = {}  # distinct segments consecutive somewhere on a curve
+    for s, t in consecutive:
+        shared = adjacent(s, t)
+        if shared:
+            u, v = int(index[s]), int(index[t])
+            adjacent_pairs.setdefault((min(u, v), max(u, v)), shared)
+    useg = [segs[s] for s in first.tolist()]
+    fu = np.array([fsegs[s] for s in first.tolist()], dtype=float).reshape(-1, 2, 2)
+    A, B = fu[:, 0], fu[:, 1]
+    pairs, signs = _close_pairs(A, B, tol)
+    # decide in the order the pairs of first occurrences would come (distinct segments
+    # are numbered in the order of their first occurrence)
+    order = np.lexsort((pairs[:, 1], pairs[:, 0]))
+    pairs, signs = pairs[order], signs[order]
+    usplits: list[set] = [set() for _ in useg]
     crossing_order: list = []
     crossing_count: dict = {}
-    for i, j in zip(ii.tolist(), jj.tolist()):
-        a, b = segs[i]
-        c, d = segs[j]
-        o1, o2 = _orient(a, b, c), _orient(a, b, d)
-        o3, o4 = _orient(c, d, a), _orient(c, d, b)
-        s1, s2, s3, s4 = map(_sign, (o1, o2, o3, o4))
-        adj = adjacent(i, j)
+    for (i, j), known in zip(pairs.tolist(), signs.tolist()):
+        a, b = useg[i]
+        c, d = useg[j]
+        oi, oj = owner[first[i]], owner[first[j]]
+        if 2 in known:
+            s1, s2, s3, s4 = (_sign(_orient(*abc)) for abc in
+                              ((a, b, c), (a, b, d), (c, d, a), (c, d, b)))
+        else:
+            s1, s2, s3, s4 = known
         if s1 == 0 and s2 == 0:
             # collinear: each endpoint lying on the other segment splits it
             touched = False
             for p in (c, d):
                 if _on_segment(p, a, b):
-                    splits[i].add(p)
+                    usplits[i].add(p)
                     touched = True
             for p in (a, b):
                 if _on_segment(p, c, d):
-                    splits[j].add(p)
+                    usplits[j].add(p)
                     touched = True
             if touched:
-                comps.union(owner[i], owner[j])
+                comps.union(oi, oj)
             continue
+        adj = adjacent_pairs.get((min(i, j), max(i, j)))
         if adj:
             # consecutive edges share one vertex; refuse an almost-fold back
             s, p, q = adj
@@ -319,24 +503,25 @@ def _intersect(segs, owner, adjacent, tol, scale_pts):
                 )
             continue
         if s1 * s2 <= 0 and s3 * s4 <= 0:
+            o3, o4 = _orient(c, d, a), _orient(c, d, b)
             t = o3 / (o3 - o4)
             x = (a[0] + t * (b[0] - a[0]), a[1] + t * (b[1] - a[1]))
-            splits[i].add(x)
-            splits[j].add(x)
-            comps.union(owner[i], owner[j])
+            usplits[i].add(x)
+            usplits[j].add(x)
+            comps.union(oi, oj)
             if 0 in (s1, s2, s3, s4):
                 continue  # a touching point: a vertex of one segment on the other
             xf = (float(x[0]), float(x[1]))
             near = min(np.hypot(xf[0] - float(z[0]), xf[1] - float(z[1])) for z in (a, b, c, d))
             if near <= tol:
                 raise ValueError(
-                    f"`vertices`: edges {i} and {j} cross within `rtol` of a vertex at "
-                    f"{xf}; the arrangement is too close to degenerate."
+                    f"`vertices`: edges {first[i]} and {first[j]} cross within `rtol` of a "
+                    f"vertex at {xf}; the arrangement is too close to degenerate."
                 )
             if x not in crossing_count:
                 crossing_order.append(x)
                 crossing_count[x] = 0
-            crossing_count[x] += 1
+            crossing_count[x] += int(mult[i] * mult[j])
         else:
             dist = min(
                 _point_segment_distance(c, a, b), _point_segment_distance(d, a, b),
@@ -344,10 +529,11 @@ def _intersect(segs, owner, adjacent, tol, scale_pts):
             )
             if dist <= tol:
                 raise ValueError(
-                    f"`vertices`: edges {i} and {j} come within {dist:.3g} of each "
-                    f"other (`rtol` * diameter = {tol:.3g}) without touching; the "
+                    f"`vertices`: edges {first[i]} and {first[j]} come within {dist:.3g} of "
+                    f"each other (`rtol` * diameter = {tol:.3g}) without touching; the "
                     "arrangement is too close to degenerate."
                 )
+    splits = [usplits[u] for u in index.tolist()]
     return splits, crossing_order, crossing_count, comps
 
 
@@ -357,15 +543,17 @@ def _build(polys, turns, rtol, bridges=()):
     allpts = np.vstack(polys)
     scale = float(np.hypot(*(allpts.max(axis=0) - allpts.min(axis=0))))
     tol = rtol * scale
-    segs, owner, local = [], [], []
-    for c, pts in enumerate(P):
+    segs, owner, local, fsegs = [], [], [], []
+    for c, (pts, fpts) in enumerate(zip(P, (p.tolist() for p in polys))):
         m = len(pts)
         for i in range(m):
             segs.append((pts[i], pts[(i + 1) % m]))
+            fsegs.append((tuple(fpts[i]), tuple(fpts[(i + 1) % m])))
             owner.append(c)
             local.append((c, i, m))
     for k, (a, b) in enumerate(bridges):
         segs.append((a, b))
+        fsegs.append(((float(a[0]), float(a[1])), (float(b[0]), float(b[1]))))
         owner.append(len(P) + k)  # a bridge: its own component, run by no curve
         local.append(None)
 
@@ -383,8 +571,10 @@ def _build(polys, turns, rtol, bridges=()):
             return segs[s][0], segs[s][1], segs[t][0]
         return None
 
+    consecutive = [(s, s - i + (i + 1) % m) for s, loc in enumerate(local)
+                   if loc is not None for _, i, m in (loc,)]
     splits, crossing_order, crossing_count, comps = _intersect(
-        segs, owner, adjacent, tol, allpts)
+        segs, owner, consecutive, adjacent, tol, fsegs)
 
     # graph vertices: the polygons' distinct vertices in order, then the crossings
     vid: dict = {}
@@ -563,11 +753,13 @@ def _check_crossings_apart(g):
     cf = np.array([(float(x), float(y)) for x, y in g["crossing_order"]],
                   dtype=float).reshape(-1, 2)
     if len(cf) > 1:
-        dd = np.hypot(*(cf[:, None, :] - cf[None, :, :]).transpose(2, 0, 1))
-        np.fill_diagonal(dd, np.inf)
-        if dd.min() <= g["tol"]:
+        # pairs within tol from a k-d tree: memory in the number of close pairs, not nc^2
+        close = cKDTree(cf).query_pairs(g["tol"], output_type="ndarray") if g["tol"] > 0 \
+            else np.zeros((0, 2), dtype=int)
+        if len(close):
+            dmin = float(np.hypot(*(cf[close[:, 0]] - cf[close[:, 1]]).T).min())
             raise ValueError(
-                f"`vertices`: two distinct crossings lie within {dd.min():.3g} of each "
+                f"`vertices`: two distinct crossings lie within {dmin:.3g} of each "
                 "other; the arrangement is too close to degenerate."
             )
 
@@ -586,6 +778,11 @@ def _arrange(polys, turns, rtol) -> Arrangement:
             bridges.append(seg)
             g = trial
             break
+        else:  # every candidate failed (before this guard: an endless loop)
+            raise ValueError(
+                "`curves`: no segment joins the separate curves without touching them; "
+                "the arrangement is too close to degenerate."
+            )
     _check_crossings_apart(g)
     return _finish(g, polys, turns)
 

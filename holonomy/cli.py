@@ -21,6 +21,7 @@ import traceback
 
 from holonomy import SCHEMES, __version__, study_schemes
 from holonomy.experiment import (DEMO_GROUPS, MAX_SERIES_ORDER, MAX_WORKERS, BlockFailed,
+                                 build_lattice, build_problem,
                                  Progress, SpecError, claim_folder, default_out,
                                  exact_results, format_exact_table, format_series_table,
                                  format_spec_keys, format_table, load_spec, printable,
@@ -401,6 +402,12 @@ def _cmd_spec(args) -> int:
         print(format_spec_keys())
         return 0
     spec = load_spec(args.check, purpose=args.purpose, overrides=args.overrides)
+    # the problem the command would build (loops snapped, group, scheme, reference line):
+    # what every command refuses, --check refuses too
+    if args.purpose in ("run", "study"):
+        build_problem(spec, formal=spec.signed)
+    else:
+        build_lattice(spec)
     if args.show:
         print(spec.text, end="" if spec.text.endswith("\n") else "\n")
         return 0
@@ -438,8 +445,9 @@ def _cmd_decompactify(args) -> int:
                                                    plot_decompactify)
 
     spec = load_spec(args.spec, purpose="exact", overrides=args.overrides)
-    for i, loop in enumerate(spec.loops):
-        drawn = drawn_measure(loop.build(spec.spacing), spec.area_form())
+    problem = build_lattice(spec)  # refuses what exact refuses, before any work
+    for i, loop in enumerate(problem.loops):
+        drawn = drawn_measure(loop, spec.area_form())
         if min(args.areas) <= drawn:
             raise _UsageError(f"--areas: got {min(args.areas)!r}; expected total areas "
                               f"larger than the drawn measure {drawn:.6g} of loops[{i}]")

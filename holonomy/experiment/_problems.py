@@ -9,7 +9,7 @@ argument comes from (:data:`ARGUMENT_KEYS`), never by reading the message.
 
 from __future__ import annotations
 
-from discretize import Loop
+from discretize import Loop, check_crossings
 from holonomy import ClosedSurface, Field, LatticeProblem, WilsonProblem
 from noise import ArgumentError
 
@@ -31,9 +31,12 @@ def _loops(spec: Spec, h: float) -> tuple[Loop, ...]:
     loops = []
     for i, ls in enumerate(spec.loops):
         try:
-            loops.append(ls.build(h))
+            loop = ls.build(h)
+            # the crossing check's size limits, in bounded memory, before any numerics
+            check_crossings([loop.vertices])
         except (ValueError, TypeError) as exc:
             raise SpecError(f"loops[{i}]", str(exc)) from None
+        loops.append(loop)
     return tuple(loops)
 
 

@@ -871,7 +871,10 @@ def _surface_iv(data: dict, loops, spacing: float, density, purpose: str, scheme
     area = AreaForm(base=density) if isinstance(density, float) else \
         AreaForm(base=1.0, rects=density)
     for i, loop in enumerate(loops):
-        drawn = drawn_measure(loop.build(spacing), area)
+        try:
+            drawn = drawn_measure(loop.build(spacing), area)
+        except ValueError as exc:  # the loop's arrangement refused (size or geometry)
+            raise SpecError(f"loops[{i}]", str(exc)) from None
         if not T > drawn:
             raise SpecError("surface.area", f"got {T!r}; expected a total area larger than "
                             f"the drawn measure {drawn:.6g} of loops[{i}] ({loop.name!r})")

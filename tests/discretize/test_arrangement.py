@@ -229,3 +229,100 @@ class TestBadInput:
     def test_turns(self, turns):
         with pytest.raises(ValueError, match="`turns` must be a positive integer"):
             arrangement([(0, 0), (1, 0), (1, 1)], turns=turns)
+
+
+class TestSizeAndMemory:
+    """The crossing check works in bounded memory (issue 17: it used to build m x m
+    arrays, 4.7 GiB for a 50000-gon) and refuses what it cannot finish."""
+
+    @staticmethod
+    def _brute_close(v, tol):
+        # every pair of edges that meet (exact orientation tests, O'Rourke 1998,
+        # sec. 7.2) or come within tol (float point-segment distances)
+        m = len(v)
+        P = [(Fraction(x), Fraction(y)) for x, y in v.tolist()]
+        seg = [(P[i], P[(i + 1) % m]) for i in range(m)]
+
+        def orient(a, b, c):
+            return (b[0] - a[0]) * (c[1] - a[1]) - (b[1] - a[1]) * (c[0] - a[0])
+
+        def dist(p, a, b):
+            p, a, b = (np.array(z, float) for z in (p, a, b))
+            s = np.clip(np.dot(p - a, b - a) / np.dot(b - a, b - a), 0, 1)
+            return float(np.hypot(*(p - a - s * (b - a))))
+
+        out = set()
+        for i in range(m):
+            for j in range(i + 1, m):
+                (a, b), (c, d) = seg[i], seg[j]
+                o = [orient(a, b, c), orient(a, b, d), orient(c, d, a), orient(c, d, b)]
+                meet = o[0] * o[1] <= 0 and o[2] * o[3] <= 0 and any(o)
+                near = min(dist(c, a, b), dist(d, a, b), dist(a, c, d), dist(b, c, d)) <= tol
+                if meet or near:
+                    out.add((i, j))
+        return out
+
+    @pytest.mark.parametrize("seed", range(6))
+    def test_screen_keeps_every_pair_that_meets(self, seed):
+        from discretize._arrangement import _close_pairs
+
+        rng = np.random.default_rng(seed)
+        m = 25
+        v = rng.integers(0, 5, size=(m, 2)) + (seed % 2) * rng.normal(size=(m, 2)) * 1e-9
+        v = v[np.any(v != np.roll(v, -1, axis=0), axis=1)]
+        tol = 1e-9 * float(np.hypot(*np.ptp(v, axis=0)))
+        pairs, _ = _close_pairs(v, np.roll(v, -1, axis=0), tol)
+        assert self._brute_close(v, tol) <= set(map(tuple, pairs.tolist()))
+
+    @pytest.mark.parametrize("reps,budget", [
+        (2000, 40e6), pytest.param(20000, 300e6, marks=pytest.mark.slow)])
+    def test_repeated_path_is_one_face_wound_many_times(self, reps, budget):
+        import tracemalloc
+
+        square = np.array([(0, 0), (1, 0), (1, 1), (0, 1)] * reps, float)
+        tracemalloc.start()
+        try:
+            arr = arrangement(square)
+            peak = tracemalloc.get_traced_memory()[1]
+        finally:
+            tracemalloc.stop()
+        # 4 reps edges over 4 distinct ones: no (4 reps)^2 array (11.9 GiB before for
+        # 20000 reps, 0.4 GiB for 2000)
+        assert peak < budget
+        assert arr.n_faces == 1 and arr.winding.tolist() == [reps]
+        assert arr.signed_area == pytest.approx(shoelace(square))
+
+    def test_large_polygon_screen_is_bounded(self):
+        import tracemalloc
+
+        from discretize import check_crossings
+
+        t = 2 * np.pi * np.arange(50000) / 50000
+        circle = np.c_[np.cos(t), np.sin(t)]
+        tracemalloc.start()
+        try:
+            pairs = check_crossings([circle])
+            peak = tracemalloc.get_traced_memory()[1]
+        finally:
+            tracemalloc.stop()
+        assert pairs == 50000 and peak < 200e6  # the neighbours only; 4.7 GiB before
+
+    def test_too_many_crossings_refused_before_the_exact_work(self, monkeypatch):
+        from discretize import _arrangement, check_crossings
+
+        monkeypatch.setattr(_arrangement, "MAX_EXACT_PAIRS", 2000)
+        # a {101/50} star: every edge crosses almost every other
+        with pytest.raises(ValueError, match="more than 2e\\+03 pairs"):
+            check_crossings([star(101, 50)])
+        with pytest.raises(ValueError, match="exact crossing check"):
+            arrangement(star(101, 50))
+        assert check_crossings([star(31, 15)]) < 2000
+
+    def test_separate_degenerate_curves_refused_not_endless(self):
+        from discretize import joint_arrangement
+
+        # a spike tree and a collinear curve that no bridge can join without touching
+        # (this used to loop forever)
+        tree = [(-1, 0), (-2, 0), (-1, 0), (-1, 1), (-1, 2), (-1, 3)] * 2
+        with pytest.raises(ValueError, match="no segment joins"):
+            joint_arrangement([tree, [(0, 0), (1, 0), (3, 0)]])

@@ -524,19 +524,24 @@ INVALID = [
     ("nul-in-name", _m(('name = "robust"', 'name = "a\\u0000"')), "name"),
 ]
 COMMANDS = {"run": ["--quiet"], "exact": [], "series": ["--order", "2"],
-            "study": ["--spacings", "0.25,0.125", "--quiet"]}
+            "study": ["--spacings", "0.25,0.125", "--quiet"], "spec": []}
+
+
+def _command_args(command, spec, out):
+    """The command line of ``command`` on the spec file (``spec`` is ``spec --check``)."""
+    if command == "spec":
+        return ["spec", "--check", str(spec)]
+    args = [command, str(spec), *COMMANDS[command]]
+    return args + ["--out", str(out)] if command in ("run", "study") else args
 
 
 @pytest.mark.parametrize("text,key", [c[1:] for c in INVALID], ids=[c[0] for c in INVALID])
 def test_every_command_refuses_alike_before_any_work(text, key, tmp_path, capsys):
     spec = _write(tmp_path, text)
     lines = set()
-    for command, extra in COMMANDS.items():
+    for command in COMMANDS:
         out = tmp_path / command
-        args = [command, str(spec), *extra]
-        if command in ("run", "study"):
-            args += ["--out", str(out)]
-        assert main(args) == 2, command
+        assert main(_command_args(command, spec, out)) == 2, command
         lines.add(_one_line(capsys.readouterr().err, f"whitegauge: error: {key}: "))
         assert not out.exists()  # refused before any work: not even the folder
     assert len(lines) == 1, lines  # the same message from every command
@@ -554,3 +559,35 @@ def test_decompactify_refuses_a_run_folder_unless_fresh(tmp_path, capsys):
     _one_line(capsys.readouterr().err, "`whitegauge run`", "not of `whitegauge decompactify`")
     assert main(args + ["--fresh"]) == 0
     assert (out / "decompactify.json").exists() and not (out / "results.json").exists()
+
+
+# --------------------------------------------------------------------------- limits
+
+def _star(p, q):
+    import math
+    return [[round(math.cos(2 * math.pi * q * i / p + 0.1), 9),
+             round(math.sin(2 * math.pi * q * i / p + 0.1), 9)] for i in range(p)]
+
+
+# (id, text, key, {module attribute: lowered limit}): sizes that explode, refused before
+# numerics by every command (limits lowered so that the specs stay small)
+LIMIT_CASES = [
+    ("crossings", _m((BOX, f"vertices = {_star(101, 50)}")), "loops[0]",
+     {"discretize._arrangement.MAX_EXACT_PAIRS": 2000}),
+]
+
+
+@pytest.mark.parametrize("command", list(COMMANDS))
+@pytest.mark.parametrize("text,key,limits", [c[1:] for c in LIMIT_CASES],
+                         ids=[c[0] for c in LIMIT_CASES])
+def test_every_command_refuses_sizes_beyond_the_limits(text, key, limits, command, tmp_path,
+                                                       capsys, monkeypatch):
+    import importlib
+    for where, value in limits.items():
+        module, attr = where.rsplit(".", 1)
+        monkeypatch.setattr(importlib.import_module(module), attr, value)
+    spec = _write(tmp_path, text)
+    out = tmp_path / command
+    assert main(_command_args(command, spec, out)) == 2
+    _one_line(capsys.readouterr().err, f"whitegauge: error: {key}: ")
+    assert not out.exists()
