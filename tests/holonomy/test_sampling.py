@@ -302,6 +302,22 @@ def test_problem_bad_input(kwargs, match):
         WilsonProblem(**base)
 
 
+@pytest.mark.parametrize("family,n", [("SU", 2), ("SU", 3)])
+def test_linear_scheme_results_do_not_depend_on_the_chunks(family, n, monkeypatch):
+    # the linear scheme's draws are one stream of normals however the samples are cut
+    # into chunks, so the chunk size (which may follow the kernel in use) cannot change
+    # its numbers: bitwise equal block sums (common practice, no source)
+    import holonomy._sampling as sampling
+
+    p = WilsonProblem(family=family, n=n, metric="physics", samples=300, block=300, seed=2,
+                      field=Field(1.0, 0.125, scheme="linear"), loops=(_rect(1.0, 0.5),))
+    a = run_block(p, 0)
+    monkeypatch.setattr(sampling, "CHUNK_BYTES", 1)  # 64 samples per chunk
+    b = run_block(p, 0)
+    assert sampling.chunk_size(p, "perimeter") == 64
+    assert np.array_equal(a.sum_re, b.sum_re) and np.array_equal(a.sum_im, b.sum_im)
+
+
 def test_loop_leaving_the_grid_is_refused():
     grid = Grid((0.0, 0.0), 0.5, (2, 2))
     with pytest.raises(ValueError, match="grid"):
