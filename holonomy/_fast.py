@@ -348,3 +348,247 @@ def u3_holonomies_algebra(x, side, order, parent, links, dirs, offsets, rows, co
             o[1, 0], o[1, 1], o[1, 2] = m10, m11, m12
             o[2, 0], o[2, 1], o[2, 2] = m20, m21, m22
     return out
+
+
+# ------------------------------------------------ exact heat kernels on the maximal torus
+@njit(cache=True)
+def _eig3_herm(a, b, c, d, e, f, x):
+    """Eigenvalues of one Hermitian 3 x 3 matrix with diagonal ``a, b, c`` and upper
+    entries ``d = H_01, e = H_02, f = H_12`` into ``x`` (3,), by the trigonometric
+    solution of `holonomy.groups._heat._eig3` (Smith 1961), scalar by scalar."""
+    q = (a + b + c) / 3.0
+    a, b, c = a - q, b - q, c - q
+    dd = d.real * d.real + d.imag * d.imag
+    ee = e.real * e.real + e.imag * e.imag
+    ff = f.real * f.real + f.imag * f.imag
+    c1 = 0.5 * (a * a + b * b + c * c) + dd + ee + ff
+    dfr = d.real * f.real - d.imag * f.imag
+    dfi = d.real * f.imag + d.imag * f.real
+    c0 = a * b * c + 2.0 * (dfr * e.real + dfi * e.imag) - a * ff - b * ee - c * dd
+    p = math.sqrt(c1 / 3.0)
+    arg = c0 / (2.0 * p * p * p) if p > 0 else 0.0
+    phi = math.acos(min(max(arg, -1.0), 1.0)) / 3.0
+    for k in range(3):
+        x[k] = q + 2.0 * p * math.cos(phi - _TWO_PI * k / 3.0)
+    return c0, c1
+
+
+@njit(cache=True)
+def _su3_exp_herm(a, b, c, d, e, f, c0, c1, E):
+    """``E = exp(iQ)`` for one traceless Hermitian 3 x 3 ``Q`` with diagonal ``a, b, c``,
+    upper entries ``d, e, f`` and ``c0 = det Q``, ``c1 = tr(Q^2) / 2``: the closed form
+    of `holonomy.groups.expm_u3` (Morningstar and Peardon 2004, eqs. (23)-(34)),
+    ``exp(iQ) = f_0 + f_1 Q + f_2 Q^2``, scalar by scalar from the six entries."""
+    dd = d.real * d.real + d.imag * d.imag
+    ee = e.real * e.real + e.imag * e.imag
+    ff = f.real * f.real + f.imag * f.imag
+    s00, s11, s22 = a * a + dd + ee, dd + b * b + ff, ee + ff + c * c  # Q^2
+    s01 = (a + b) * d + e * f.conjugate()
+    s02 = (a + c) * e + d * f
+    s12 = d.conjugate() * e + (b + c) * f
+    neg = c0 < 0
+    c0 = abs(c0)
+    if c1 < 1e-30:
+        f0, f1, f2 = 1.0 + 0j, 1j, -0.5 + 0j
+    else:
+        c0max = 2.0 * (c1 / 3.0) ** 1.5
+        theta = math.acos(min(max(c0 / c0max, -1.0), 1.0))
+        u = math.sqrt(c1 / 3.0) * math.cos(theta / 3.0)
+        w = math.sqrt(c1) * math.sin(theta / 3.0)
+        xi0 = math.sin(w) / w if w != 0 else 1.0
+        cw = math.cos(w)
+        e2iu = complex(math.cos(2 * u), math.sin(2 * u))
+        emiu = complex(math.cos(u), -math.sin(u))
+        u2, w2 = u * u, w * w
+        h0 = (u2 - w2) * e2iu + emiu * (8 * u2 * cw + 2j * u * (3 * u2 + w2) * xi0)
+        h1 = 2 * u * e2iu - emiu * (2 * u * cw - 1j * (3 * u2 - w2) * xi0)
+        h2 = e2iu - emiu * (cw + 3j * u * xi0)
+        den = 9 * u2 - w2
+        f0, f1, f2 = h0 / den, h1 / den, h2 / den
+    if neg:
+        f0, f1, f2 = f0.conjugate(), -f1.conjugate(), f2.conjugate()
+    E[0, 0] = f0 + f1 * a + f2 * s00
+    E[1, 1] = f0 + f1 * b + f2 * s11
+    E[2, 2] = f0 + f1 * c + f2 * s22
+    E[0, 1] = f1 * d + f2 * s01
+    E[1, 0] = f1 * d.conjugate() + f2 * s01.conjugate()
+    E[0, 2] = f1 * e + f2 * s02
+    E[2, 0] = f1 * e.conjugate() + f2 * s02.conjugate()
+    E[1, 2] = f1 * f + f2 * s12
+    E[2, 1] = f1 * f.conjugate() + f2 * s12.conjugate()
+
+
+@njit(cache=True)
+def _torus_ratio(x, t, roots, images, c, lattice_a, xr, e, y):
+    """The acceptance r(x) of `holonomy.groups._heat._torus_accept` for one torus point
+    ``x`` (m,) at time ``t``: nearest representative, then the image sums (``xr``,
+    ``e``, ``y``: work arrays of length m)."""
+    m = x.size
+    delta = 0.0
+    for j in range(m):
+        z = x[j] / _TWO_PI
+        f = np.rint(z)
+        e[j] = z - f
+        xr[j] = f
+        delta += f
+    if lattice_a:  # A_{m-1}: the coefficients must sum to zero
+        for j in range(m):
+            rank = 0
+            for i in range(m):
+                if e[i] < e[j] or (e[i] == e[j] and i < j):
+                    rank += 1
+            if rank < delta:
+                xr[j] -= 1.0
+            if rank >= m + delta:
+                xr[j] += 1.0
+    xx = 0.0
+    for j in range(m):
+        xr[j] = x[j] - _TWO_PI * xr[j]
+        xx += xr[j] * xr[j]
+    num, den = 0.0, 0.0
+    for g in range(images.shape[0]):
+        yy = 0.0
+        for j in range(m):
+            y[j] = xr[j] + images[g, j]
+            yy += y[j] * y[j]
+        arg = -c * (yy - xx) / (2.0 * t)
+        if arg < -746.0:  # exp underflows to 0 (as in numpy): no roots to evaluate
+            continue
+        expo = math.exp(arg)
+        w, sw = 1.0, 1.0
+        for r in range(roots.shape[0]):
+            a = 0.0
+            for j in range(m):
+                a += roots[r, j] * y[j]
+            w *= a * a
+            sw *= 2.0 * math.sin(0.5 * a) * a
+        num += sw * expo
+        den += w * expo
+    return num / den
+
+
+@njit(cache=True)
+def torus_draw(t, basis, roots, images, c, lattice_a, rng, coords, mats):
+    """The rejection loop of `holonomy.groups._heat._torus_draw`, one entry per time
+    ``t`` (k,), for the torus data of `holonomy.groups._heat._torus_law`. SU(3)
+    (``basis`` (8, 3, 3), A lattice): writes the accepted elements into ``mats``
+    (k, 3, 3) (eigenvalues of ``H = -iX`` by `_eig3_herm`, ``exp(iH)`` by
+    `_su3_exp_herm` from the same invariants); otherwise writes the accepted
+    proposal's coordinates into ``coords`` (k, d) (eigenvalues by ``eigvalsh``, the last
+    ``m`` for SO and Sp, whose eigenvalues come in pairs +-x). The proposal is the
+    algebra element with variance t per orthonormal coordinate; same draws, same order
+    as the numpy path: per round ``standard_normal((todo, d))`` then ``random(todo)``."""
+    k, d, N = t.size, basis.shape[0], basis.shape[1]
+    m = roots.shape[1]
+    small = N == 3 and lattice_a
+    hr = np.empty((d, N, N))  # -i X_a, real and imaginary parts
+    hi = np.empty((d, N, N))
+    for a in range(d):
+        for r in range(N):
+            for cc in range(N):
+                hr[a, r, cc] = basis[a, r, cc].imag
+                hi[a, r, cc] = -basis[a, r, cc].real
+    todo = np.arange(k)
+    tt = t.copy()
+    H = np.empty((N, N), dtype=np.complex128)
+    x = np.empty(m)
+    xr = np.empty(m)
+    e = np.empty(m)
+    y = np.empty(m)
+    h00 = h11 = h22 = c0 = c1 = 0.0
+    d01 = d02 = d12 = 0j
+    while todo.size:
+        nk = todo.size
+        Z = rng.standard_normal((nk, d))
+        u = rng.random(nk)
+        keep = np.empty(nk, dtype=np.bool_)
+        for j in range(nk):
+            s = math.sqrt(tt[j])
+            for a in range(d):
+                Z[j, a] *= s
+            if small:  # the diagonal and the upper triangle of H = -i X
+                h00, h11, h22 = 0.0, 0.0, 0.0
+                r01 = i01 = r02 = i02 = r12 = i12 = 0.0
+                for a in range(d):
+                    z = Z[j, a]
+                    h00 += z * hr[a, 0, 0]
+                    h11 += z * hr[a, 1, 1]
+                    h22 += z * hr[a, 2, 2]
+                    r01 += z * hr[a, 0, 1]
+                    i01 += z * hi[a, 0, 1]
+                    r02 += z * hr[a, 0, 2]
+                    i02 += z * hi[a, 0, 2]
+                    r12 += z * hr[a, 1, 2]
+                    i12 += z * hi[a, 1, 2]
+                q = (h00 + h11 + h22) / 3.0
+                h00, h11, h22 = h00 - q, h11 - q, h22 - q
+                d01, d02, d12 = complex(r01, i01), complex(r02, i02), complex(r12, i12)
+                c0, c1 = _eig3_herm(h00, h11, h22, d01, d02, d12, x)
+            else:
+                for r in range(N):
+                    for cc in range(N):
+                        vr, vi = 0.0, 0.0
+                        for a in range(d):
+                            vr += Z[j, a] * hr[a, r, cc]
+                            vi += Z[j, a] * hi[a, r, cc]
+                        H[r, cc] = complex(vr, vi)
+                w = np.linalg.eigvalsh(H)
+                for i in range(m):
+                    x[i] = w[N - m + i]
+            ok = u[j] <= _torus_ratio(x, tt[j], roots, images, c, lattice_a, xr, e, y)
+            if ok and small:
+                _su3_exp_herm(h00, h11, h22, d01, d02, d12, c0, c1, mats[todo[j]])
+            elif ok:
+                coords[todo[j]] = Z[j]
+            keep[j] = not ok
+        todo = todo[keep]
+        tt = tt[keep]
+
+
+@njit(cache=True)
+def matrix_holonomies_group(q, side, order, parent, links, flips, offsets):
+    """`quaternion_holonomies_group` for (n, K, N, N) matrices: interval products ``q``
+    cumulated outward (``C_k = C_parent B_k`` above the reference, ``B_k C_parent``
+    below), then per loop the product of ``C_link`` (its conjugate transpose where
+    ``flips``) over its links, left to right. Output (n, loops, N, N)."""
+    n, K, N = q.shape[0], q.shape[1], q.shape[2]
+    nl = offsets.size - 1
+    out = np.empty((n, nl, N, N), dtype=q.dtype)
+    cum = np.empty((K, N, N), dtype=q.dtype)
+    acc = np.empty((N, N), dtype=q.dtype)
+    tmp = np.empty((N, N), dtype=q.dtype)
+    for i in range(n):
+        for kk in range(K):
+            k = order[kk]
+            p = parent[k]
+            if p < 0:
+                cum[k] = q[i, k]
+            elif side[k] > 0:
+                for r in range(N):
+                    for c in range(N):
+                        s = cum[p, r, 0] * q[i, k, 0, c]
+                        for j in range(1, N):
+                            s += cum[p, r, j] * q[i, k, j, c]
+                        cum[k, r, c] = s
+            else:
+                for r in range(N):
+                    for c in range(N):
+                        s = q[i, k, r, 0] * cum[p, 0, c]
+                        for j in range(1, N):
+                            s += q[i, k, r, j] * cum[p, j, c]
+                        cum[k, r, c] = s
+        for loop in range(nl):
+            for r in range(N):
+                for c in range(N):
+                    acc[r, c] = 1.0 if r == c else 0.0
+            for e in range(offsets[loop], offsets[loop + 1]):
+                lk = links[e]
+                for r in range(N):
+                    for c in range(N):
+                        s = acc[r, 0] * 0.0
+                        for j in range(N):
+                            s += acc[r, j] * (np.conj(cum[lk, c, j]) if flips[e] else cum[lk, j, c])
+                        tmp[r, c] = s
+                acc[:, :] = tmp
+            out[i, loop] = acc
+    return out

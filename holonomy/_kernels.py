@@ -25,7 +25,8 @@ import numpy as np
 from ._solver import (MatrixStorage, QuaternionStorage, complex_product_components,
                       quaternion_mul_components, quaternion_product_components)
 from .groups._expmap import expm_u3_components
-from .groups._heat import _IMAGE_LOG_TOL, _TAU_REJECT, _su2_heat_columns, sample_su2_angle
+from .groups._heat import (_IMAGE_LOG_TOL, _TAU_REJECT, _heat_torus, _su2_heat_columns,
+                           exact_heat_route, sample_su2_angle)
 
 __all__ = ["MatrixKernel", "QuaternionKernel", "FastMatrixKernel", "FastQuaternionKernel",
            "kernel_for", "kernel_path", "fast_available", "KERNEL_ENV"]
@@ -311,15 +312,41 @@ class FastMatrixKernel(MatrixKernel):
         return self._fast.matrix_product(np.ascontiguousarray(factors))
 
     def holonomies(self, plan, variables, algebra: bool):
-        """The linear scheme's holonomies for U(3) and SU(3) in one compiled pass per
-        sample; None (the numpy route) otherwise."""
-        if not (algebra and self.fuses_algebra) or variables.shape[1] == 0:
+        """The linear scheme's holonomies for U(3) and SU(3), and the group schemes'
+        for every group, in one compiled pass per sample; None (the numpy route)
+        otherwise."""
+        if variables.shape[1] == 0:
+            return None
+        if not algebra:
+            order, parent, side, links, flips, offsets = _flat_plan(self, plan, False)
+            out = self._fast.matrix_holonomies_group(np.ascontiguousarray(variables), side,
+                                                     order, parent, links, flips, offsets)
+            return [out[:, j] for j in range(out.shape[1])]
+        if not self.fuses_algebra:
             return None
         order, parent, side, links, dirs, offsets = _flat_plan(self, plan, True)
         out = self._fast.u3_holonomies_algebra(np.ascontiguousarray(variables, dtype=float),
                                                side, order, parent, links, dirs, offsets,
                                                *self._hermitian_map)
         return [out[:, j] for j in range(out.shape[1])]
+
+    def heat(self, t, size, rng):
+        """The torus route of `holonomy.groups.heat_kernel` with a compiled rejection
+        loop (and, for 3 x 3, exponential); other routes as the numpy kernel."""
+        if exact_heat_route(self.group) != "torus":
+            return super().heat(t, size, rng)
+        return _heat_torus(self.group, np.asarray(t, float), size, rng, draw=self._torus_draw)
+
+    def _torus_draw(self, base, law, t, rng):
+        basis = self.__dict__.get("_torus_basis")
+        if basis is None:  # the SU(n) part's basis for U(n)
+            basis = self._torus_basis = np.ascontiguousarray(base.basis, dtype=complex)
+        k, small = t.size, base.N == 3 and law.lattice == "A"
+        coords = np.empty((0 if small else k, base.dim))
+        mats = np.empty((k if small else 0, 3, 3), dtype=complex)
+        self._fast.torus_draw(np.ascontiguousarray(t, dtype=float), basis, law.roots,
+                              law.images, law.c, law.lattice == "A", rng, coords, mats)
+        return mats if small else base.exp_matrix(base.algebra(coords))
 
 
 class FastQuaternionKernel(QuaternionKernel):

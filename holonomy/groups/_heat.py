@@ -935,8 +935,11 @@ def _torus_draw(group, law: _TorusLaw, t: np.ndarray, rng) -> np.ndarray:
     return out if out is not None else np.empty(t.shape + (group.N, group.N), group.dtype)
 
 
-def _heat_torus(group, tt, size, rng):
+def _heat_torus(group, tt, size, rng, draw=None):
     """Exact heat kernel through `_torus_law`, U(n) as centre times SU(n).
+
+    ``draw(base, law, t, rng)``: the sampler of one piece per entry of ``t``
+    (`_torus_draw`; the compiled kernels pass theirs, which draws the same numbers).
 
     U(n) Brownian motion is ``exp(i b / sqrt(k n)) V`` with ``b`` a standard Brownian
     motion along the unit central direction ``i Id / sqrt(k n)`` and V the SU(n)
@@ -948,17 +951,25 @@ def _heat_torus(group, tt, size, rng):
     # u(n) = centre + su(n), orthogonal: the SU(n) part with the same metric
     base = group.special_part if group.family == "U" else group
     law = _torus_law(base.family, base.n, float(base.k)) if base.N > 2 else None
-    U = np.empty((size, t1.size, group.N, group.N), dtype=group.dtype)
     if law is None:  # U(2): centre times the SU(2) sampler
-        U[...] = heat_kernel(base, t1, size, rng=rng)
+        U = np.asarray(heat_kernel(base, t1, size, rng=rng), dtype=group.dtype)
     else:
         pieces = np.where(t1 > 0, np.ceil(t1 / law.piece), 0).astype(np.intp)
-        U[...] = base.identity(())
+        U = None
         for i in range(int(pieces.max()) if t1.size else 0):
             cols = np.flatnonzero(pieces > i)
             tp = np.broadcast_to(t1[cols] / pieces[cols], (size, cols.size)).ravel()
-            V = _torus_draw(base, law, tp, rng).reshape(size, cols.size, group.N, group.N)
-            U[:, cols] = V if i == 0 else U[:, cols] @ V
+            V = (draw or _torus_draw)(base, law, tp, rng).reshape(size, cols.size, group.N, group.N)
+            if U is None and cols.size == t1.size:  # every time drawn: no identity fill
+                U = V
+            elif U is None:
+                U = np.empty((size, t1.size, group.N, group.N), dtype=group.dtype)
+                U[...] = base.identity(())
+                U[:, cols] = V
+            else:
+                U[:, cols] = U[:, cols] @ V
+        if U is None:  # no positive time
+            U = base.identity((size, t1.size))
     if group.family == "U":
         beta = rng.standard_normal((size, t1.size)) * np.sqrt(t1 / (group.k * group.n))
         U *= np.exp(1j * beta)[..., None, None]

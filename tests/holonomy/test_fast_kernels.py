@@ -34,14 +34,20 @@ CASES = [("SU", 2, "physics", s) for s in ("heat", "linear", "gauss", "wilson")]
     ("Sp", 1, "trace", "heat"), ("U", 1, "trace", "heat"), ("SU", 3, "physics", "linear"),
     ("SU", 3, "physics", "heat"), ("U", 3, "trace", "linear"), ("U", 4, "large-n", "gauss"),
     ("SO", 3, "trace", "heat"),
-    ("U", 2, "trace", "linear"), ("SO", 4, "trace", "heat")]
+    ("U", 2, "trace", "linear"), ("SO", 4, "trace", "heat"), ("U", 3, "trace", "heat"),
+    ("U", 4, "large-n", "heat"), ("SU", 5, "trace", "heat"), ("SO", 5, "physics", "heat"),
+    ("Sp", 2, "trace", "heat"), ("U", 2, "trace", "heat")]
 
 
 @pytest.mark.parametrize("family,n,metric,scheme,coupling",
-                         [c + (1.3,) for c in CASES] + [("SU", 2, "trace", "heat", 40.0)])
+                         [c + (1.3,) for c in CASES] + [("SU", 2, "trace", "heat", 40.0),
+                                                        ("SU", 3, "trace", "heat", 40.0),
+                                                        ("U", 3, "physics", "heat", 12.0)])
 @pytest.mark.parametrize("path", ["perimeter", "dense"])
 def test_fast_and_numpy_kernels_agree_per_sample(family, n, metric, scheme, coupling, path):
-    # coupling 40: heat times on both sides of the SU(2) sampler's switch (tau = 0.5)
+    # coupling 40: heat times on both sides of the SU(2) sampler's switch (tau = 0.5);
+    # SU(3) and U(3) at couplings 40 and 12: cell times of several torus pieces, with
+    # rejections (acceptance exp(-|rho|^2 t / 2) per piece)
     field = Field(coupling=coupling, spacing=0.25, scheme=scheme)
     prob = WilsonProblem(family=family, n=n, metric=metric, field=field, loops=(LOOP, RING),
                          samples=300, block=300, seed=5)
