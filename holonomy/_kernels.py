@@ -26,7 +26,7 @@ from ._solver import (MatrixStorage, QuaternionStorage, complex_product_componen
                       quaternion_mul_components, quaternion_product_components)
 from .groups._expmap import expm_u3_components
 from .groups._heat import (_IMAGE_LOG_TOL, _TAU_REJECT, _heat_torus, _su2_heat_columns,
-                           exact_heat_route, sample_su2_angle)
+                           _torus_draw, exact_heat_route, sample_su2_angle)
 
 __all__ = ["MatrixKernel", "QuaternionKernel", "FastMatrixKernel", "FastQuaternionKernel",
            "kernel_for", "kernel_path", "fast_available", "KERNEL_ENV"]
@@ -338,6 +338,8 @@ class FastMatrixKernel(MatrixKernel):
         return _heat_torus(self.group, np.asarray(t, float), size, rng, draw=self._torus_draw)
 
     def _torus_draw(self, base, law, t, rng):
+        if law.algebra:  # large groups: one batched eigh per round dominates (numpy's)
+            return _torus_draw(base, law, t, rng)
         basis = self.__dict__.get("_torus_basis")
         if basis is None:  # the SU(n) part's basis for U(n)
             basis = self._torus_basis = np.ascontiguousarray(base.basis, dtype=complex)

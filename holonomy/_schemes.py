@@ -15,9 +15,8 @@ convention):
     heat kernel exp(-c s/2) at order s^2 per plaquette.
 ``heat``
     Plaquettes drawn exactly from the heat kernel at time s = lambda mu(c) (exact in
-    law for U(1), where Q_c = exp(X_c) is already heat-kernel distributed, and for the
-    groups of :func:`holonomy.groups.exact_heat_route`; by Brownian sub-stepping for
-    larger groups, as :meth:`Group.heat_kernel` states). Products of
+    law for U(1), where Q_c = exp(X_c) is already heat-kernel distributed, and for every
+    other group by the route :func:`holonomy.groups.exact_heat_route` names). Products of
     independent heat-kernel variables are heat-kernel variables of the summed time, so
     interval products can be drawn directly (perimeter-only path) and lattice loops are
     exact at every spacing.
@@ -241,14 +240,7 @@ class HeatScheme(Scheme):
     series_route = "heat"
 
     def lattice_value(self, problem, i: int) -> LatticeValue:
-        G = problem.group
-        if not G.exact_heat_kernel:
-            # larger groups draw the kernel by sub-stepping (holonomy.groups.heat_kernel):
-            # its law is off by O(dt), so the continuum value is not what it samples
-            return LatticeValue(None, None, (
-                f"{NOT_AVAILABLE} (the heat kernel of {G.family}({G.n}) is drawn by "
-                "Brownian sub-stepping, whose law differs from the heat kernel by O(dt), "
-                "dt <= 0.01; exact kernels: holonomy.groups.exact_heat_route)"))
+        # every group's kernel is drawn exactly in law (holonomy.groups.exact_heat_route)
         return heat_lattice_value(problem, i)
 
     def series(self, problem, i: int, order: int, *, exact: bool = False):
@@ -264,11 +256,6 @@ class HeatScheme(Scheme):
         return "heat (continuum, as snapped)"
 
     def correlator_value(self, problem, indices) -> LatticeValue:
-        G = problem.group
-        if not G.exact_heat_kernel:  # sampled by sub-stepping: see lattice_value
-            return LatticeValue(None, None, (
-                f"{NOT_AVAILABLE} (the heat kernel of {G.family}({G.n}) is drawn by "
-                "Brownian sub-stepping; exact kernels: holonomy.groups.exact_heat_route)"))
         return heat_correlator_value(problem, indices)
 
     def reads_noise(self, group) -> bool:

@@ -33,6 +33,7 @@ from typing import Any, Callable
 from holonomy import formal_block, run_block
 from holonomy._estimate import BlockSums
 from holonomy._kernels import kernel_path
+from holonomy.groups import heat_kernel_law
 
 from ._faults import fault_point, maybe_fail_block
 from ._problems import build_lattice, build_problem
@@ -399,6 +400,8 @@ def run_spec(spec: Spec | str | os.PathLike, *, out: str | Path | None = None,
             # extra); the two agree to rounding, not bit for bit
             "kernel": kernel_path(),
         })
+        if spec.scheme == "heat":  # the kernel's route and law error bound per draw
+            provenance["heat_kernel"] = heat_kernel_law(problem.group)
         if bar is not None:
             bar.step(f"{spec.name}: exact values")
         results = build_results(spec, problem, estimate, provenance)

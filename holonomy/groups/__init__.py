@@ -5,7 +5,7 @@ Ad-invariant metric ``<X, Y> = -k Re tr(XY)`` (``trace`` k = 1, ``physics`` k = 
 ``large-n`` k = N, or a number); orthonormal Lie-algebra bases; representations,
 characters and Casimir constants computed from the basis; batched exponentials (closed
 forms for U(1), SU(2) = Sp(1), SO(3), eigendecomposition otherwise); Brownian motion and
-heat-kernel samplers (exact in law up to rank 3-4, see `exact_heat_route`); irreducibles by highest
+heat-kernel samplers (exact in law for every group, see `exact_heat_route`); irreducibles by highest
 weight (Weyl dimension and character formulas, Casimirs, Brauer-Klimyk fusion).
 
 Examples

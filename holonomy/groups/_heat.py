@@ -37,17 +37,20 @@ Exact samplers:
 
 - ``U(2)``: ``exp(i b) V`` with V from the SU(2) sampler and ``b ~ N(0, t/(2k))``
   (centre and su(2) are orthogonal and commute).
-- ``U(n)``, ``SU(n)`` (3 <= n <= 5), ``SO(n)`` (4 <= n <= 7), ``Sp(n)`` (n = 2, 3): the
+- ``U(n)``, ``SU(n)`` (n >= 3), ``SO(n)`` (n >= 4), ``Sp(n)`` (n >= 2): the
   class-function route on the maximal torus (`_torus_law`): rejection from the
   exponential of a Gaussian algebra element, accepted with the ratio of the heat
-  kernel's lattice sum to the proposal's (acceptance rate ``exp(-|rho|^2 t/2)``),
+  kernel's lattice sum to the proposal's (acceptance rate ``exp(-|rho|^2 t/2)`` per
+  piece of time, pieces of at most ``2/|rho|^2``, so at least ``exp(-1)``),
   eigenvectors of the proposal (Haar-distributed given the eigenvalues); U(n) as its
-  centre times SU(n). Law error below 1e-18 per draw (stated there).
+  centre times SU(n). For SU(n) n <= 5, SO(n) n <= 7, Sp(n) n <= 3 the lattice sums
+  run over the nearest images; larger groups read the same formula on the algebra
+  (no image sums). Law error below 1e-18 in total variation per draw (stated there).
 
-Other groups (larger ones): `heat_kernel` runs the geodesic random walk with a step
-count per time, ``max(MIN_STEPS, ceil(t_k / HEAT_KERNEL_DT))`` (``HEAT_KERNEL_DT =
-0.01``, ``MIN_STEPS = 8``); its law error per unit time is O(dt) (see `heat_kernel`);
-`exact_heat_route` tells which route a group takes.
+So every group is sampled exactly in law (`exact_heat_route` names the route);
+`brownian` (the geodesic random walk with ``max(MIN_STEPS, ceil(t / HEAT_KERNEL_DT))``
+steps by default, law error O(dt)) is Brownian motion by sub-stepping, used by no
+sampler.
 
 References
 ----------
@@ -84,6 +87,7 @@ __all__ = [
     "HEAT_KERNEL_DT",
     "MIN_STEPS",
     "exact_heat_route",
+    "heat_kernel_law",
     "su2_heat_quaternions",
 ]
 
@@ -189,17 +193,10 @@ def brownian(group, t, size: int, *, rng=None, steps: int | None = None) -> Brow
 def heat_kernel(group, t, size: int, *, rng=None) -> np.ndarray:
     """Samples of the heat kernel p_t (the law of Brownian motion at time t).
 
-    Exact in law for the groups of `exact_heat_route` (U(1), SO(2), SU(2), Sp(1), SO(3),
-    U(n) and SU(n) for n <= 5, SO(n) for n <= 7, Sp(n) for n <= 3); otherwise the
-    geodesic random walk of `brownian`
-    with a step count per time, ``max(MIN_STEPS, ceil(t_k / HEAT_KERNEL_DT))`` (cost
-    proportional to the sum of the step counts). The law error of the walk per unit
-    time is O(dt): for an irreducible pi one step has
-    ``E[pi(exp(sqrt(dt) Z.X))] = exp(-c dt/2 - c_ss c_ad dt^2/48 + O(dt^3)) Id``
-    (fourth Gaussian moment by Isserlis' theorem; ``c_ad`` the adjoint Casimir of the
-    semisimple part, ``c_ss`` the Casimir of pi without the centre of u(n); checked in
-    the tests), so at time t every Fourier coefficient of the law is
-    ``exp(-c t/2) (1 - c_ss c_ad t dt/48 + O(dt^2))`` with ``dt = t / steps``.
+    Exact in law for every group (`exact_heat_route` names the route: a Gaussian for
+    U(1) and SO(2), the SU(2) angle law for SU(2), Sp(1), SO(3) and U(2), the maximal
+    torus for the rest; the torus route's law error is below 1e-18 in total variation
+    per draw, `_torus_law`).
 
     Parameters
     ----------
@@ -219,9 +216,6 @@ def heat_kernel(group, t, size: int, *, rng=None) -> np.ndarray:
     .. [1] L. Gross, Springer LNM 1158, 1986.
     .. [2] H. Weyl, "The Classical Groups", Princeton, 1939.
     .. [3] M. Liao, "Levy Processes in Lie Groups", Cambridge, 2004, Section 1.3.
-    .. [4] L. Isserlis, "On a formula for the product-moment coefficient of any order of
-       a normal frequency distribution in any number of variables", Biometrika 12
-       (1918) 134.
 
     Examples
     --------
@@ -259,39 +253,7 @@ def heat_kernel(group, t, size: int, *, rng=None) -> np.ndarray:
         axis = rng.standard_normal(batch + (3,))
         axis *= (theta * np.sqrt(2.0 * group.k) / np.sqrt(np.einsum("...i,...i->...", axis, axis)))[..., None]
         return group.exp(axis, coords=True)
-    if exact_heat_route(group) is not None:
-        return _heat_torus(group, tt, size, rng)
-    return _heat_substeps(group, tt, size, rng)
-
-
-def _heat_substeps(group, tt, size, rng):
-    """Heat kernel by sub-stepping with a step count per time.
-
-    Time ``t_k`` gets ``s_k = max(MIN_STEPS, ceil(t_k / HEAT_KERNEL_DT))`` steps of
-    ``dt_k = t_k / s_k`` (``t_k = 0``: the identity, no steps), so the cost is
-    proportional to ``sum_k s_k`` rather than ``m * max_k s_k``. The times are sorted by
-    step count (descending) so that the paths still moving at sub-step ``i`` are a
-    contiguous leading block; each step draws fresh Gaussians for that block only.
-    The law of each column is exactly that of `brownian` with ``steps = s_k``.
-    """
-    scalar = tt.ndim == 0
-    t1 = np.atleast_1d(tt)
-    m = t1.size
-    steps = np.where(t1 > 0, np.maximum(MIN_STEPS, np.ceil(t1 / HEAT_KERNEL_DT)), 0).astype(np.intp)
-    order = np.argsort(-steps, kind="stable")
-    s_sorted = steps[order]
-    sq = np.sqrt(np.where(s_sorted > 0, t1[order] / np.maximum(s_sorted, 1), 0.0))
-    # Time-major layout (m, size, N, N): the active block U[:a] is contiguous.
-    U = group.identity((m, size))
-    smax = int(s_sorted[0]) if m else 0
-    for i in range(smax):
-        a = int(np.count_nonzero(s_sorted > i))  # leading block still moving
-        Z = rng.standard_normal((a, size, group.dim))
-        Z *= sq[:a, None, None]
-        U[:a] = U[:a] @ group.exp(Z, coords=True)
-    out = np.empty((size, m, group.N, group.N), dtype=U.dtype)
-    out[:, order] = np.swapaxes(U, 0, 1)
-    return out[:, 0] if scalar else out
+    return _heat_torus(group, tt, size, rng)
 
 
 # ------------------------------------------------------------ SU(2) angle law
@@ -753,6 +715,9 @@ class _TorusLaw:
     lattice: str
     dim: int
     bound: float
+    #: the large-group route: acceptance from the proposal's algebra element (no images,
+    #: no reduction to the torus), ``max(0, prod_a sinc(a(y)/2pi))`` (see `_torus_law`)
+    algebra: bool = False
 
 
 def _images(m: int, lattice: str) -> np.ndarray:
@@ -764,7 +729,7 @@ def _images(m: int, lattice: str) -> np.ndarray:
 
 @lru_cache(maxsize=None)
 def _torus_law(family: str, n: int, k: float):
-    """Torus data of SU(n) (n <= 5), SO(n) (4 <= n <= 7) or Sp(n) (2 <= n <= 3), else None.
+    """Torus data of SU(n) (n >= 3), SO(n) (n >= 4) or Sp(n) (n >= 2), else None.
 
     The heat kernel of a compact connected group, as a density against Haar measure at
     ``exp(X)``, ``X`` conjugate to the torus point ``x``, is [1]_ [2]_
@@ -794,6 +759,19 @@ def _torus_law(family: str, n: int, k: float):
     (the semigroup property) of length ``piece``, the smaller of ``2/|rho|^2`` (least
     work per unit time) and the time where that bound reaches ``_TORUS_TV``.
 
+    Larger groups (SU(n), n >= 6; SO(n), n >= 8; Sp(n), n >= 4), where the image sums
+    would run over 3^m points, take the same formula read on the algebra ("algebra"
+    route): the heat kernel is the image under exp of the signed measure
+    ``e^{|rho|^2 t/2} s(y) gamma_t(X)`` on the algebra (``y`` the torus point of X
+    itself, ``gamma_t`` the proposal's Gaussian density; summing over the preimages
+    gives the lattice sum above). Accepting the proposal X with probability
+    ``max(0, s(y))`` draws ``exp(X)`` from that measure with its negative part left out;
+    ``s(y) < 0`` needs a root with ``|a(y)| > 2 pi``, hence
+    ``|X|^2 > c (2 pi)^2 / max_a |a|^2``. The law error in total variation is at most
+    ``2 e^{|rho|^2 t/2}`` times the proposal's mass there,
+    ``P(chi^2_d >= c (2 pi)^2 / (max_a |a|^2 t))``, and the acceptance rate is
+    ``exp(-|rho|^2 t/2)`` minus that mass. Pieces as above.
+
     References
     ----------
     .. [1] R. Eskin, "Heat equation on Lie groups", in: In Memoriam I. G. Petrovskii
@@ -807,13 +785,14 @@ def _torus_law(family: str, n: int, k: float):
     .. [4] J. H. Conway and N. J. A. Sloane, "Sphere Packings, Lattices and Groups",
        Springer, 1988, Ch. 20 (closest points of A_n and Z^n; covering radii in Ch. 4).
     """
-    if family == "SU" and 3 <= n <= 5:
+    algebra = (family == "SU" and n > 5) or (family == "SO" and n > 7) or (family == "Sp" and n > 3)
+    if family == "SU" and 3 <= n:
         m, lattice, c = n, "A", k
         eye = np.eye(n)
         roots = np.array([eye[i] - eye[j] for i in range(n) for j in range(i + 1, n)])
         G2, R2 = 6.0, (n // 2) * (n - n // 2) / n
         dim = n * n - 1
-    elif (family == "SO" and 4 <= n <= 7) or (family == "Sp" and 2 <= n <= 3):
+    elif (family == "SO" and 4 <= n) or (family == "Sp" and 2 <= n):
         m = n // 2 if family == "SO" else n
         lattice, c = "Z", 2.0 * k
         eye = np.eye(m)
@@ -831,17 +810,25 @@ def _torus_law(family: str, n: int, k: float):
     if lattice == "A":
         rho = rho - rho.mean()
     rho2 = float(rho @ rho) / c
-    D2 = c * (2 * np.pi) ** 2 * (math.sqrt(G2) - math.sqrt(R2)) ** 2
+    if algebra:  # no root value beyond 2 pi
+        D2 = c * (2 * np.pi) ** 2 / float(np.max(np.sum(roots * roots, axis=1)))
+    else:
+        D2 = c * (2 * np.pi) ** 2 * (math.sqrt(G2) - math.sqrt(R2)) ** 2
+
+    def log_bound(t):  # log of the neglected mass (algebra route: with its factor)
+        extra = math.log(2.0) + rho2 * t / 2 if algebra else 0.0
+        return stats.chi2.logsf(D2 / t, dim) + extra
 
     def excess(t):  # log10 of the neglected mass minus log10 of the tolerance
-        return stats.chi2.logsf(D2 / t, dim) / math.log(10) - math.log10(_TORUS_TV)
+        return log_bound(t) / math.log(10) - math.log10(_TORUS_TV)
 
     from scipy.optimize import brentq
 
-    safe = brentq(excess, 1e-3, 1e3) if excess(1e3) > 0 else 1e3
+    safe = brentq(excess, 1e-6, 1e3) if excess(1e3) > 0 else 1e3
     piece = min(2.0 / rho2, safe)
-    bound = float(stats.chi2.sf(D2 / piece, dim))
-    return _TorusLaw(family, n, m, roots, _images(m, lattice), c, piece, rho2, lattice, dim, bound)
+    bound = float(math.exp(log_bound(piece)))
+    images = np.zeros((1, m)) if algebra else _images(m, lattice)
+    return _TorusLaw(family, n, m, roots, images, c, piece, rho2, lattice, dim, bound, algebra)
 
 
 def _nearest_representative(x: np.ndarray, lattice: str) -> np.ndarray:
@@ -915,8 +902,30 @@ def _torus_accept(law: _TorusLaw, x: np.ndarray, t: np.ndarray) -> np.ndarray:
     return sw.sum(axis=1) / w.sum(axis=1)
 
 
+def _torus_draw_algebra(group, law: _TorusLaw, t: np.ndarray, rng) -> np.ndarray:
+    """`_torus_draw` for the algebra route of `_torus_law`: acceptance
+    ``max(0, prod_a sinc(a(y) / 2 pi))`` from the eigenvalues y of ``H = -iX``; the
+    exponential of the accepted proposals only."""
+    out = np.empty(t.shape + (group.N, group.N), group.dtype)
+    todo = np.arange(t.size)
+    tt = t
+    while todo.size:
+        Z = rng.standard_normal((todo.size, group.dim))
+        u = rng.random(todo.size)
+        Z *= np.sqrt(tt)[:, None]
+        X = group.algebra(Z)
+        y = _torus_coords(law, -1j * X)
+        r = np.prod(np.sinc((y @ law.roots.T) / (2 * np.pi)), axis=-1)
+        ok = u < r  # never where r <= 0 (the left-out negative part)
+        out[todo[ok]] = group.exp_matrix(X[ok])
+        todo, tt = todo[~ok], tt[~ok]
+    return out
+
+
 def _torus_draw(group, law: _TorusLaw, t: np.ndarray, rng) -> np.ndarray:
     """One exact heat-kernel sample per entry of t (1-D, each <= law.piece)."""
+    if law.algebra:
+        return _torus_draw_algebra(group, law, t, rng)
     out = None
     todo = np.arange(t.size)
     tt = t
@@ -977,11 +986,11 @@ def _heat_torus(group, tt, size, rng, draw=None):
 
 
 def exact_heat_route(group) -> str | None:
-    """How `heat_kernel` samples ``group`` exactly in law, or None (sub-stepping).
+    """How `heat_kernel` samples ``group`` exactly in law (None: no exact route).
 
     ``"gaussian"`` (U(1), SO(2)), ``"su2-angle"`` (SU(2), Sp(1), SO(3), U(2) with its
-    centre), ``"torus"`` (U(n), SU(n) for 3 <= n <= 5, SO(n) for 4 <= n <= 7, Sp(n) for
-    n = 2, 3; see `_torus_law`).
+    centre), ``"torus"`` (U(n) and SU(n) for n >= 3, SO(n) for n >= 4, Sp(n) for
+    n >= 2; see `_torus_law`). Every group of `make_group` has one.
     """
     fam, n, N = group.family, group.n, group.N
     if N == 1 or (fam == "SO" and N == 2):
@@ -992,3 +1001,30 @@ def exact_heat_route(group) -> str | None:
     if _torus_law(base, n, 1.0) is not None:
         return "torus"
     return None
+
+
+def heat_kernel_law(group) -> dict:
+    """What `heat_kernel` guarantees for ``group``: ``route`` (`exact_heat_route`),
+    ``law_error_bound`` (total variation per draw of one piece of time: 0 where the
+    route is exact with no truncation, None where no bound is stated), and for the
+    torus route ``piece`` (the longest time drawn in one go; longer times are products
+    of pieces), ``acceptance`` (``exp(-|rho|^2 piece/2)``, the rejection sampler's rate
+    at a full piece, higher for shorter ones) and ``images`` (``"nearest"`` or
+    ``"algebra"``, see `_torus_law`). The results of a `heat` run carry this as
+    ``provenance.heat_kernel`` (README.md, "Results").
+    """
+    route = exact_heat_route(group)
+    out = {"route": route, "law_error_bound": None}
+    if route == "gaussian":
+        out["law_error_bound"] = 0.0
+    elif route == "su2-angle":
+        out["note"] = ("SU(2) angle law: rejection with the images |m| <= 1 for tau < 0.5 "
+                       "(the rest carry mass below 1e-17), inverse CDF with quantiles to "
+                       "about 1e-14 otherwise")
+    elif route == "torus":
+        base = group.special_part if group.family == "U" else group
+        law = _torus_law(base.family, base.n, float(base.k))
+        out.update(law_error_bound=law.bound, piece=law.piece,
+                   acceptance=math.exp(-law.rho2 * law.piece / 2),
+                   images="algebra" if law.algebra else "nearest")
+    return out

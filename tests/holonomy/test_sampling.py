@@ -39,8 +39,8 @@ SIMPLE_LOOPS = {
 
 
 def _simple_cases():
-    # groups without an exact heat-kernel sampler use Brownian sub-stepping, which is
-    # slower: their non-rectangular loops run in the slow suite
+    # the other groups' heat kernels cost more per draw than those of U(1) and SU(2):
+    # their non-rectangular loops run in the slow suite
     for family, n, metric in SIMPLE_GROUPS:
         for shape in sorted(SIMPLE_LOOPS):
             slow = (family, n) not in {("U", 1), ("SU", 2)} and shape != "rectangle"

@@ -294,8 +294,7 @@ class TestMonteCarlo:
     @pytest.mark.slow
     @pytest.mark.parametrize("spec", [("U", 2, "large-n"), ("SO", 3, "trace")])
     def test_other_groups_entangled(self, spec):
-        # U(2), SO(3): heat kernel by Brownian sub-stepping (holonomy.groups), whose
-        # step bias is far below the 4-standard-error tolerance at this sample size
+        # U(2), SO(3): heat kernel exact in law (the SU(2) angle law, holonomy.groups)
         G = make_group(*spec)
         r = evaluate_polygon(G, ENTANGLED_2, coupling=0.25)
         mean, se = lattice_loop_mc(G, ENTANGLED_2, 0.25, 12000, seed=20261204)

@@ -54,7 +54,9 @@ def _two_characters(G, U):
 
 
 FAST = [("U", 3, "trace"), ("SU", 3, "physics"), ("SO", 4, "trace"), ("Sp", 2, "physics")]
-HEAVY = [("U", 4, "large-n"), ("SU", 4, "physics"), ("SO", 5, "trace"), ("U", 5, "trace")]
+HEAVY = [("U", 4, "large-n"), ("SU", 6, "trace"), ("SU", 4, "physics"), ("SO", 5, "trace"), ("U", 5, "trace"),
+         ("U", 6, "physics"), ("SO", 8, "trace"), ("SO", 9, "physics"), ("Sp", 4, "trace"),
+         ("SU", 8, "large-n")]
 
 
 def _check_characters(family, n, metric, size, seed):
@@ -178,20 +180,23 @@ def _class_law(G, t, M=None):
     weight = (np.conj(A_rho) * total).real
     assert weight.min() > -1e-8 * weight.max()  # a density
     weight = np.maximum(weight, 0) / weight.sum()
-    trace = np.cos(pts).sum(axis=1)
-    if fam != "SU":
-        trace = 2 * trace + (1 if kind == "SO_odd" else 0)
-    return trace, weight
+    if fam == "SU":  # the eigenangles themselves (tr U = sum_j exp(i x_j))
+        return pts, weight
+    trace = 2 * np.cos(pts).sum(axis=1)
+    return trace + (1 if kind == "SO_odd" else 0), weight
+
+
+def _cdf_from(values, weight):
+    order = np.argsort(values)
+    xs, cdf = values[order], np.cumsum(weight[order])
+    return lambda x: np.interp(x, xs, cdf, left=0.0, right=1.0)
 
 
 def _ks(G, t, size, seed):
     trace, weight = _class_law(G, t)
-    order = np.argsort(trace)
-    xs, cdf = trace[order], np.cumsum(weight[order])
-
-    def F(x):
-        return np.interp(x, xs, cdf, left=0.0, right=1.0)
-
+    if G.family == "SU":
+        trace = np.cos(trace).sum(axis=1)
+    F = _cdf_from(trace, weight)
     U = G.heat_kernel(t, size, rng=np.random.default_rng(seed))
     sample = np.einsum("...ii->...", U).real
     return stats.kstest(sample, F).pvalue
@@ -208,6 +213,45 @@ def test_torus_kernel_trace_law(family, n, metric, t):
                                                ("SU", 3, "trace", 0.05)])
 def test_torus_kernel_trace_law_large(family, n, metric, t):
     assert _ks(make_group(family, n, metric), t, 50_000, 6) > 1e-3
+
+
+def _ks_unitary(G, t, size, seed, nodes=96, bins=None):
+    """KS of Re tr U for U(n): U(n) = (U(1) x SU(n)) / Z_n, so the U(n) heat kernel is
+    the image of exp(i b) V with V the SU(n) kernel (class law from the Weyl character
+    series) and b ~ N(0, s^2) independent, s^2 = (c_U - c_SU) t from the two Casimirs of
+    the defining representation (header; the centre's share 1 / (n k)). The law of
+    Re(exp(i b) tr V) is a mixture: grid points (optionally binned in the plane) times
+    ``nodes`` Gaussian nodes in b."""
+    n, k = G.n, G.k
+    pts, weight = _class_law(G.special_part, t)
+    z = np.exp(1j * pts).sum(axis=1)
+    if bins:
+        edges = np.linspace(-n, n, bins + 1)
+        h, _, _ = np.histogram2d(z.real, z.imag, bins=(edges, edges), weights=weight)
+        mid = (edges[1:] + edges[:-1]) / 2
+        keep = h.ravel() > 0
+        z = (mid[:, None] + 1j * mid[None, :]).ravel()[keep]
+        weight = h.ravel()[keep]
+    s = np.sqrt(t / (n * k))  # c_U - c_SU = 1 / (n k) (defining representation)
+    u = np.linspace(-7, 7, nodes)
+    omega = np.exp(-u * u / 2)
+    omega /= omega.sum()
+    values = (np.exp(1j * s * u)[None, :] * z[:, None]).real
+    F = _cdf_from(values.ravel(), (weight[:, None] * omega[None, :]).ravel())
+    U = G.heat_kernel(t, size, rng=np.random.default_rng(seed))
+    return stats.kstest(np.einsum("...ii->...", U).real, F).pvalue
+
+
+def test_unitary_kernel_trace_law():
+    assert _ks_unitary(make_group("U", 3, "trace"), 0.4, 3000, 21) > 1e-3
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("n,metric,t", [(3, "physics", 0.05), (3, "large-n", 5.0),
+                                        (4, "trace", 0.5)])
+def test_unitary_kernel_trace_law_large(n, metric, t):
+    bins = 700 if n == 4 else None
+    assert _ks_unitary(make_group("U", n, metric), t, 20_000, 22, bins=bins) > 1e-3
 
 
 def test_acceptance_rate_is_exp_minus_rho2_t_over_2():
@@ -231,21 +275,82 @@ def test_routes():
     assert exact_heat_route(make_group("U", 2, "trace")) == "su2-angle"
     assert exact_heat_route(make_group("SO", 3, "trace")) == "su2-angle"
     assert exact_heat_route(make_group("Sp", 2, "trace")) == "torus"
-    assert exact_heat_route(make_group("SU", 6, "trace")) is None
-    assert make_group("SU", 4, "physics").exact_heat_kernel
-    assert not make_group("SU", 6, "physics").exact_heat_kernel
+    # every size the spec accepts (matrix size <= 32) has an exact route
+    for family, n in (("SU", 6), ("U", 32), ("SO", 8), ("SO", 32), ("Sp", 4), ("Sp", 16)):
+        assert exact_heat_route(make_group(family, n, "trace")) == "torus"
+        assert make_group(family, n, "physics").exact_heat_kernel
 
 
-def test_heat_reference_says_whether_the_kernel_is_exact():
-    # The heat scheme's exact value is the continuum value of the lattice loop only where
-    # the kernel is exact in law (README, "exact"); sub-stepped groups get null + a note.
+def test_heat_reference_is_exact_for_large_groups():
+    # The heat scheme's exact value is the continuum value of the lattice loop where the
+    # kernel is exact in law (README, "exact"): now every group. SU(N) physics metric:
+    # c_fund = (N^2 - 1) / (2N) (Casimir table above, k = 2).
     from discretize import Loop
     from holonomy import Field, LatticeProblem
     from holonomy._schemes import HeatScheme
 
     loop = Loop.polygon([(0, 0), (1, 0), (1, 1), (0, 1)])
     field = Field(1.0, 0.5, scheme="heat")
-    exact = HeatScheme().lattice_value(LatticeProblem("SU", 4, "physics", field, (loop,)), 0)
-    assert exact.value is not None and abs(exact.value - np.exp(-15 / 8 / 2)) < 1e-12
-    sub = HeatScheme().lattice_value(LatticeProblem("SU", 6, "physics", field, (loop,)), 0)
-    assert sub.value is None and "sub-stepping" in sub.note
+    for n in (4, 6):
+        exact = HeatScheme().lattice_value(LatticeProblem("SU", n, "physics", field, (loop,)), 0)
+        assert abs(exact.value - np.exp(-(n * n - 1) / (2 * n) / 2)) < 1e-12
+
+
+# ------------------------------------------------- the algebra route of large groups
+def _algebra_law(family, n, k):
+    """The algebra route's data for a group that normally takes the image route, so
+    that route can be checked against the class law where the grid integration is
+    feasible (the formula does not depend on the size)."""
+    import dataclasses
+
+    from holonomy.groups import _heat
+
+    law = _heat._torus_law(family, n, k)
+    return dataclasses.replace(law, algebra=True, images=np.zeros((1, law.m)),
+                               piece=min(law.piece, 0.5 / law.rho2))
+
+
+@pytest.mark.parametrize("family,n,metric,t", [("SU", 3, "trace", 0.3), ("SO", 4, "trace", 0.7),
+                                               ("Sp", 2, "trace", 0.4)])
+def test_algebra_route_trace_law(monkeypatch, family, n, metric, t):
+    # The acceptance max(0, prod_a sinc(a(y)/2pi)) on the algebra (large groups) against
+    # the Weyl character series (Weyl 1939), one-sample KS, on groups small enough for
+    # the grid integration.
+    from holonomy.groups import _heat
+
+    G = make_group(family, n, metric)
+    law = _algebra_law(family, n, float(G.k))
+    monkeypatch.setattr(_heat, "_torus_law", lambda *a: law)
+    assert _ks(G, t, 3000, 8) > 1e-3
+
+
+def test_algebra_route_acceptance_rate():
+    # Acceptance exp(-|rho|^2 t/2) per piece (the proposal's mass beyond the first zero
+    # of s is far below the resolution); SU(6) trace metric: |rho|^2 = N (N^2 - 1)/12
+    # = 17.5 (Freudenthal-de Vries strange formula, from memory).
+    from holonomy.groups._heat import _torus_law
+
+    G = make_group("SU", 6, "trace")
+    law = _torus_law("SU", 6, 1.0)
+    assert law.algebra and law.rho2 == pytest.approx(17.5) and law.bound < 1e-18
+    t = law.piece
+    Z = np.random.default_rng(4).standard_normal((40_000, G.dim)) * np.sqrt(t)
+    y = np.linalg.eigvalsh(-1j * G.algebra(Z))
+    r = np.maximum(np.prod(np.sinc((y @ law.roots.T) / (2 * np.pi)), axis=-1), 0)
+    assert abs(r.mean() - np.exp(-law.rho2 * t / 2)) < 4 * r.std() / np.sqrt(r.size)
+
+
+def test_heat_kernel_law_reports_route_and_bound():
+    # what `provenance.heat_kernel` carries (README.md, "Results"): SU(3) with the trace
+    # metric has |rho|^2 = 2 (strange formula above), pieces of 2/|rho|^2 = 1 and
+    # acceptance exp(-1) at a full piece
+    from holonomy.groups import heat_kernel_law
+
+    info = heat_kernel_law(make_group("SU", 3, "trace"))
+    assert info["route"] == "torus" and info["images"] == "nearest"
+    assert info["piece"] == pytest.approx(1.0) and info["acceptance"] == pytest.approx(np.exp(-1))
+    assert 0 <= info["law_error_bound"] <= 1e-18
+    big = heat_kernel_law(make_group("U", 32, "large-n"))
+    assert big["images"] == "algebra" and 0 <= big["law_error_bound"] <= 1e-18
+    assert heat_kernel_law(make_group("U", 1, "trace"))["law_error_bound"] == 0.0
+    assert heat_kernel_law(make_group("SU", 2, "trace"))["law_error_bound"] is None
