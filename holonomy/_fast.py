@@ -351,78 +351,72 @@ def u3_holonomies_algebra(x, side, order, parent, links, dirs, offsets, rows, co
 
 
 # ------------------------------------------------ exact heat kernels on the maximal torus
-@njit(cache=True)
-def _eig3_herm(a, b, c, d, e, f, x):
-    """Eigenvalues of one Hermitian 3 x 3 matrix with diagonal ``a, b, c`` and upper
-    entries ``d = H_01, e = H_02, f = H_12`` into ``x`` (3,), by the trigonometric
-    solution of `holonomy.groups._heat._eig3` (Smith 1961), scalar by scalar."""
-    q = (a + b + c) / 3.0
-    a, b, c = a - q, b - q, c - q
-    dd = d.real * d.real + d.imag * d.imag
-    ee = e.real * e.real + e.imag * e.imag
-    ff = f.real * f.real + f.imag * f.imag
-    c1 = 0.5 * (a * a + b * b + c * c) + dd + ee + ff
-    dfr = d.real * f.real - d.imag * f.imag
-    dfi = d.real * f.imag + d.imag * f.real
-    c0 = a * b * c + 2.0 * (dfr * e.real + dfi * e.imag) - a * ff - b * ee - c * dd
-    p = math.sqrt(c1 / 3.0)
-    arg = c0 / (2.0 * p * p * p) if p > 0 else 0.0
-    phi = math.acos(min(max(arg, -1.0), 1.0)) / 3.0
-    for k in range(3):
-        x[k] = q + 2.0 * p * math.cos(phi - _TWO_PI * k / 3.0)
-    return c0, c1
+_SQRT3 = math.sqrt(3.0)
 
 
 @njit(cache=True)
-def _su3_exp_herm(a, b, c, d, e, f, c0, c1, E):
-    """``E = exp(iQ)`` for one traceless Hermitian 3 x 3 ``Q`` with diagonal ``a, b, c``,
-    upper entries ``d, e, f`` and ``c0 = det Q``, ``c1 = tr(Q^2) / 2``: the closed form
-    of `holonomy.groups.expm_u3` (Morningstar and Peardon 2004, eqs. (23)-(34)),
-    ``exp(iQ) = f_0 + f_1 Q + f_2 Q^2``, scalar by scalar from the six entries."""
-    dd = d.real * d.real + d.imag * d.imag
-    ee = e.real * e.real + e.imag * e.imag
-    ff = f.real * f.real + f.imag * f.imag
-    s00, s11, s22 = a * a + dd + ee, dd + b * b + ff, ee + ff + c * c  # Q^2
-    s01 = (a + b) * d + e * f.conjugate()
-    s02 = (a + c) * e + d * f
-    s12 = d.conjugate() * e + (b + c) * f
-    neg = c0 < 0
-    c0 = abs(c0)
+def _su3_exp_from_angle(a0, a1, a2, x01, y01, x02, y02, x12, y12, c1, p, cphi, sphi, neg, E):
+    """``E = exp(iQ)`` for one traceless Hermitian 3 x 3 ``Q`` (diagonal ``a0, a1, a2``,
+    upper entries ``x + iy``) given ``c1 = tr(Q^2) / 2``, ``p = sqrt(c1 / 3)`` and the
+    angle ``phi = arccos(det Q / (2 p^3)) / 3`` of its eigenvalues
+    ``2 p cos(phi - 2 pi k / 3)`` (``cphi``, ``sphi``; ``neg``: det Q < 0): the closed
+    form of `holonomy.groups.expm_u3` (Morningstar and Peardon 2004, eqs. (23)-(34)),
+    whose ``theta / 3`` is ``phi`` for ``det Q >= 0`` and ``pi / 3 - phi`` otherwise,
+    so no further inverse cosine is needed."""
+    n01, n02, n12 = x01 * x01 + y01 * y01, x02 * x02 + y02 * y02, x12 * x12 + y12 * y12
+    d0, d1, d2 = a0 * a0 + n01 + n02, a1 * a1 + n01 + n12, a2 * a2 + n02 + n12  # Q^2
+    p01r = x01 * (a0 + a1) + (x02 * x12 + y02 * y12)
+    p01i = y01 * (a0 + a1) + (y02 * x12 - x02 * y12)
+    p02r = x02 * (a0 + a2) + (x01 * x12 - y01 * y12)
+    p02i = y02 * (a0 + a2) + (x01 * y12 + y01 * x12)
+    p12r = x12 * (a1 + a2) + (x01 * x02 + y01 * y02)
+    p12i = y12 * (a1 + a2) + (x01 * y02 - y01 * x02)
     if c1 < 1e-30:
         f0, f1, f2 = 1.0 + 0j, 1j, -0.5 + 0j
     else:
-        c0max = 2.0 * (c1 / 3.0) ** 1.5
-        theta = math.acos(min(max(c0 / c0max, -1.0), 1.0))
-        u = math.sqrt(c1 / 3.0) * math.cos(theta / 3.0)
-        w = math.sqrt(c1) * math.sin(theta / 3.0)
+        if neg:  # theta / 3 = pi / 3 - phi
+            ct, st = 0.5 * cphi + 0.5 * _SQRT3 * sphi, 0.5 * _SQRT3 * cphi - 0.5 * sphi
+        else:
+            ct, st = cphi, sphi
+        u = p * ct
+        w = _SQRT3 * p * st
         xi0 = math.sin(w) / w if w != 0 else 1.0
         cw = math.cos(w)
-        e2iu = complex(math.cos(2 * u), math.sin(2 * u))
-        emiu = complex(math.cos(u), -math.sin(u))
+        cu, su = math.cos(u), math.sin(u)
+        e2iu = complex(cu * cu - su * su, 2.0 * su * cu)
+        emiu = complex(cu, -su)
         u2, w2 = u * u, w * w
-        h0 = (u2 - w2) * e2iu + emiu * (8 * u2 * cw + 2j * u * (3 * u2 + w2) * xi0)
-        h1 = 2 * u * e2iu - emiu * (2 * u * cw - 1j * (3 * u2 - w2) * xi0)
-        h2 = e2iu - emiu * (cw + 3j * u * xi0)
-        den = 9 * u2 - w2
-        f0, f1, f2 = h0 / den, h1 / den, h2 / den
+        h0 = (u2 - w2) * e2iu + emiu * complex(8 * u2 * cw, 2 * u * (3 * u2 + w2) * xi0)
+        h1 = 2 * u * e2iu - emiu * complex(2 * u * cw, -(3 * u2 - w2) * xi0)
+        h2 = e2iu - emiu * complex(cw, 3 * u * xi0)
+        inv = 1.0 / (9 * u2 - w2)
+        f0, f1, f2 = h0 * inv, h1 * inv, h2 * inv
     if neg:
         f0, f1, f2 = f0.conjugate(), -f1.conjugate(), f2.conjugate()
-    E[0, 0] = f0 + f1 * a + f2 * s00
-    E[1, 1] = f0 + f1 * b + f2 * s11
-    E[2, 2] = f0 + f1 * c + f2 * s22
-    E[0, 1] = f1 * d + f2 * s01
-    E[1, 0] = f1 * d.conjugate() + f2 * s01.conjugate()
-    E[0, 2] = f1 * e + f2 * s02
-    E[2, 0] = f1 * e.conjugate() + f2 * s02.conjugate()
-    E[1, 2] = f1 * f + f2 * s12
-    E[2, 1] = f1 * f.conjugate() + f2 * s12.conjugate()
+    E[0, 0] = f0 + f1 * a0 + f2 * d0
+    E[1, 1] = f0 + f1 * a1 + f2 * d1
+    E[2, 2] = f0 + f1 * a2 + f2 * d2
+    E[0, 1] = f1 * complex(x01, y01) + f2 * complex(p01r, p01i)
+    E[1, 0] = f1 * complex(x01, -y01) + f2 * complex(p01r, -p01i)
+    E[0, 2] = f1 * complex(x02, y02) + f2 * complex(p02r, p02i)
+    E[2, 0] = f1 * complex(x02, -y02) + f2 * complex(p02r, -p02i)
+    E[1, 2] = f1 * complex(x12, y12) + f2 * complex(p12r, p12i)
+    E[2, 1] = f1 * complex(x12, -y12) + f2 * complex(p12r, -p12i)
+
+
+#: an image whose weight is below this fraction of the sum so far is left out of the
+#: compiled acceptance (its sine products skipped): the acceptance moves by less than
+#: 2e-20 per image, far below the law error bound of the torus route (1e-18 per draw)
+_IMAGE_SKIP = 1e-20
 
 
 @njit(cache=True)
-def _torus_ratio(x, t, roots, images, c, lattice_a, xr, e, y):
+def _torus_ratio(x, t, roots, images, signs, gnorm, amax, c, lattice_a, xr, e, y):
     """The acceptance r(x) of `holonomy.groups._heat._torus_accept` for one torus point
     ``x`` (m,) at time ``t``: nearest representative, then the image sums (``xr``,
-    ``e``, ``y``: work arrays of length m)."""
+    ``e``, ``y``: work arrays of length m), ``images[0]`` the zero vector, ``signs``
+    as in `holonomy.groups._heat._TorusLaw`, ``gnorm`` the images' norms and ``amax``
+    the largest root value on them."""
     m = x.size
     delta = 0.0
     for j in range(m):
@@ -431,7 +425,7 @@ def _torus_ratio(x, t, roots, images, c, lattice_a, xr, e, y):
         e[j] = z - f
         xr[j] = f
         delta += f
-    if lattice_a:  # A_{m-1}: the coefficients must sum to zero
+    if lattice_a and delta != 0:  # A_{m-1}: the coefficients must sum to zero
         for j in range(m):
             rank = 0
             for i in range(m):
@@ -445,8 +439,25 @@ def _torus_ratio(x, t, roots, images, c, lattice_a, xr, e, y):
     for j in range(m):
         xr[j] = x[j] - _TWO_PI * xr[j]
         xx += xr[j] * xr[j]
-    num, den = 0.0, 0.0
-    for g in range(images.shape[0]):
+    # one bound for all other images: |x + g|^2 - |x|^2 >= |g| (|g| - 2 |x|) and
+    # |a(x + g)| <= |a(x)| + amax, so their weights are below exp(best) * pmax each
+    rx = math.sqrt(xx)
+    den0, pmax, prod0 = 1.0, 1.0, 1.0
+    for r in range(roots.shape[0]):
+        a = 0.0
+        for j in range(m):
+            a += roots[r, j] * xr[j]
+        den0 *= a * a
+        prod0 *= a
+        pmax *= (abs(a) + amax) * (abs(a) + amax)
+    best = -np.inf
+    for g in range(1, images.shape[0]):
+        best = max(best, -c * gnorm[g] * (gnorm[g] - 2.0 * rx) / (2.0 * t))
+    if best < -746.0 or (images.shape[0] - 1) * math.exp(best) * pmax < _IMAGE_SKIP * den0:
+        num, den, first = signs[0] * prod0, den0, images.shape[0]  # the representative only
+    else:
+        num, den, first = 0.0, 0.0, 0
+    for g in range(first, images.shape[0]):
         yy = 0.0
         for j in range(m):
             y[j] = xr[j] + images[g, j]
@@ -454,30 +465,50 @@ def _torus_ratio(x, t, roots, images, c, lattice_a, xr, e, y):
         arg = -c * (yy - xx) / (2.0 * t)
         if arg < -746.0:  # exp underflows to 0 (as in numpy): no roots to evaluate
             continue
-        expo = math.exp(arg)
-        w, sw = 1.0, 1.0
+        expo = 1.0 if arg == 0.0 else math.exp(arg)  # the representative itself: 1
+        w = 1.0
         for r in range(roots.shape[0]):
             a = 0.0
             for j in range(m):
                 a += roots[r, j] * y[j]
             w *= a * a
-            sw *= 2.0 * math.sin(0.5 * a) * a
-        num += sw * expo
-        den += w * expo
-    return num / den
+        w *= expo
+        if g > 0 and w < _IMAGE_SKIP * den:
+            # |s w| <= w: r moves by less than 2 _IMAGE_SKIP (images[0] is the
+            # representative, so den is its term at least)
+            continue
+        sw = expo * signs[g]
+        for r in range(roots.shape[0]):
+            a = 0.0
+            for j in range(m):
+                a += roots[r, j] * y[j]
+            sw *= a
+        num += sw
+        den += w
+    # the sines of every image are the representative's up to `signs`
+    sines = 1.0
+    for r in range(roots.shape[0]):
+        a = 0.0
+        for j in range(m):
+            a += roots[r, j] * xr[j]
+        sines *= 2.0 * math.sin(0.5 * a)
+    return sines * num / den
 
 
 @njit(cache=True)
-def torus_draw(t, basis, roots, images, c, lattice_a, rng, coords, mats):
+def torus_draw(t, basis, roots, images, signs, gnorm, amax, c, lattice_a, rng, coords, mats,
+               rows, cols, coef):
     """The rejection loop of `holonomy.groups._heat._torus_draw`, one entry per time
     ``t`` (k,), for the torus data of `holonomy.groups._heat._torus_law`. SU(3)
-    (``basis`` (8, 3, 3), A lattice): writes the accepted elements into ``mats``
-    (k, 3, 3) (eigenvalues of ``H = -iX`` by `_eig3_herm`, ``exp(iH)`` by
-    `_su3_exp_herm` from the same invariants); otherwise writes the accepted
-    proposal's coordinates into ``coords`` (k, d) (eigenvalues by ``eigvalsh``, the last
-    ``m`` for SO and Sp, whose eigenvalues come in pairs +-x). The proposal is the
-    algebra element with variance t per orthonormal coordinate; same draws, same order
-    as the numpy path: per round ``standard_normal((todo, d))`` then ``random(todo)``."""
+    (``basis`` (8, 3, 3), A lattice): the proposal's ``H = -iX`` as nine reals through
+    the sparse map ``(rows, cols, coef)`` (as in `u3_holonomies_algebra`), its
+    eigenvalues by the trigonometric solution of `holonomy.groups._heat._eig3` (Smith
+    1961) and, when accepted, ``exp(iH)`` by `_su3_exp_from_angle` from the same angle,
+    written into ``mats`` (k, 3, 3). Other groups: the accepted proposal's coordinates
+    into ``coords`` (k, d) (eigenvalues by ``eigvalsh``, the last ``m`` for SO and Sp,
+    whose eigenvalues come in pairs +-x). The proposal is the algebra element with
+    variance t per orthonormal coordinate; same draws, same order as the numpy path:
+    per round ``standard_normal((todo, d))`` then ``random(todo)``."""
     k, d, N = t.size, basis.shape[0], basis.shape[1]
     m = roots.shape[1]
     small = N == 3 and lattice_a
@@ -495,8 +526,8 @@ def torus_draw(t, basis, roots, images, c, lattice_a, rng, coords, mats):
     xr = np.empty(m)
     e = np.empty(m)
     y = np.empty(m)
-    h00 = h11 = h22 = c0 = c1 = 0.0
-    d01 = d02 = d12 = 0j
+    h = np.empty(9)
+    a0 = a1 = a2 = x01 = x02 = x12 = y01 = y02 = y12 = c0 = c1 = p = cphi = sphi = 0.0
     while todo.size:
         nk = todo.size
         Z = rng.standard_normal((nk, d))
@@ -506,24 +537,28 @@ def torus_draw(t, basis, roots, images, c, lattice_a, rng, coords, mats):
             s = math.sqrt(tt[j])
             for a in range(d):
                 Z[j, a] *= s
-            if small:  # the diagonal and the upper triangle of H = -i X
-                h00, h11, h22 = 0.0, 0.0, 0.0
-                r01 = i01 = r02 = i02 = r12 = i12 = 0.0
-                for a in range(d):
-                    z = Z[j, a]
-                    h00 += z * hr[a, 0, 0]
-                    h11 += z * hr[a, 1, 1]
-                    h22 += z * hr[a, 2, 2]
-                    r01 += z * hr[a, 0, 1]
-                    i01 += z * hi[a, 0, 1]
-                    r02 += z * hr[a, 0, 2]
-                    i02 += z * hi[a, 0, 2]
-                    r12 += z * hr[a, 1, 2]
-                    i12 += z * hi[a, 1, 2]
-                q = (h00 + h11 + h22) / 3.0
-                h00, h11, h22 = h00 - q, h11 - q, h22 - q
-                d01, d02, d12 = complex(r01, i01), complex(r02, i02), complex(r12, i12)
-                c0, c1 = _eig3_herm(h00, h11, h22, d01, d02, d12, x)
+            if small:
+                for r in range(9):
+                    v = 0.0
+                    for i in range(rows[r], rows[r + 1]):
+                        v += coef[i] * Z[j, cols[i]]
+                    h[r] = v
+                q = (h[0] + h[1] + h[2]) / 3.0
+                a0, a1, a2 = h[0] - q, h[1] - q, h[2] - q
+                x01, x02, x12, y01, y02, y12 = h[3], h[4], h[5], h[6], h[7], h[8]
+                n01 = x01 * x01 + y01 * y01
+                n02 = x02 * x02 + y02 * y02
+                n12 = x12 * x12 + y12 * y12
+                c1 = 0.5 * (a0 * a0 + a1 * a1 + a2 * a2) + n01 + n02 + n12
+                re3 = (x01 * x12 - y01 * y12) * x02 + (x01 * y12 + y01 * x12) * y02
+                c0 = a0 * a1 * a2 + 2.0 * re3 - a0 * n12 - a1 * n02 - a2 * n01
+                p = math.sqrt(c1 / 3.0)
+                arg = c0 / (2.0 * p * p * p) if p > 0 else 0.0
+                phi = math.acos(min(max(arg, -1.0), 1.0)) / 3.0
+                cphi, sphi = math.cos(phi), math.sin(phi)
+                x[0] = q + 2.0 * p * cphi  # 2 p cos(phi - 2 pi k / 3), k = 0, 1, 2
+                x[1] = q + p * (-cphi + _SQRT3 * sphi)
+                x[2] = q + p * (-cphi - _SQRT3 * sphi)
             else:
                 for r in range(N):
                     for cc in range(N):
@@ -535,9 +570,11 @@ def torus_draw(t, basis, roots, images, c, lattice_a, rng, coords, mats):
                 w = np.linalg.eigvalsh(H)
                 for i in range(m):
                     x[i] = w[N - m + i]
-            ok = u[j] <= _torus_ratio(x, tt[j], roots, images, c, lattice_a, xr, e, y)
+            ok = u[j] <= _torus_ratio(x, tt[j], roots, images, signs, gnorm, amax, c, lattice_a, xr,
+                                      e, y)
             if ok and small:
-                _su3_exp_herm(h00, h11, h22, d01, d02, d12, c0, c1, mats[todo[j]])
+                _su3_exp_from_angle(a0, a1, a2, x01, y01, x02, y02, x12, y12, c1, p, cphi,
+                                    sphi, c0 < 0, mats[todo[j]])
             elif ok:
                 coords[todo[j]] = Z[j]
             keep[j] = not ok

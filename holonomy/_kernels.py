@@ -45,6 +45,23 @@ def _norm3(x: np.ndarray, y: np.ndarray, z: np.ndarray) -> np.ndarray:
     return np.sqrt(out, out=out)
 
 
+def _hermitian_map(basis) -> tuple:
+    """(rows, cols, coef, traceless) for a U(3) / SU(3) basis (d, 3, 3): the sparse
+    (9, d) matrix, in compressed rows, taking coordinates to the nine reals of
+    ``H = -i X`` (diagonal; real, then imaginary parts of H_01, H_02, H_12);
+    ``traceless`` when every basis element has zero trace."""
+    B = np.asarray(basis, complex)
+    rows = [B[:, j, j].imag for j in range(3)]
+    rows += [B[:, r, c].imag for r, c in ((0, 1), (0, 2), (1, 2))]
+    rows += [-B[:, r, c].real for r, c in ((0, 1), (0, 2), (1, 2))]
+    traceless = bool(np.all(np.abs(np.trace(B, axis1=1, axis2=2)) < 1e-14))
+    A = np.array(rows, dtype=float)
+    A[np.abs(A) < 1e-15] = 0.0  # rounding of the basis: keep the map sparse
+    r, c = np.nonzero(A)  # row by row (compressed rows for the compiled loop)
+    starts = np.searchsorted(r, np.arange(10)).astype(np.intp)
+    return starts, c.astype(np.intp), A[r, c], traceless
+
+
 class MatrixKernel(MatrixStorage):
     """Elements as (..., N, N) matrices; any group."""
 
@@ -59,20 +76,8 @@ class MatrixKernel(MatrixStorage):
 
     @cached_property
     def _hermitian_map(self) -> tuple:
-        """(rows, cols, coef, traceless) for U(3) / SU(3): the sparse (9, d) matrix, in
-        compressed rows, taking coordinates to the nine reals of ``H = -i X``
-        (diagonal; real, then imaginary parts of H_01, H_02, H_12); ``traceless`` when
-        every basis element has zero trace."""
-        B = np.asarray(self.group.basis, complex)
-        rows = [B[:, j, j].imag for j in range(3)]
-        rows += [B[:, r, c].imag for r, c in ((0, 1), (0, 2), (1, 2))]
-        rows += [-B[:, r, c].real for r, c in ((0, 1), (0, 2), (1, 2))]
-        traceless = bool(np.all(np.abs(np.trace(B, axis1=1, axis2=2)) < 1e-14))
-        A = np.array(rows, dtype=float)
-        A[np.abs(A) < 1e-15] = 0.0  # rounding of the basis: keep the map sparse
-        r, c = np.nonzero(A)  # row by row (compressed rows for the compiled loop)
-        starts = np.searchsorted(r, np.arange(10)).astype(np.intp)
-        return starts, c.astype(np.intp), A[r, c], traceless
+        """`_hermitian_map` of this group's basis (U(3) and SU(3))."""
+        return _hermitian_map(self.group.basis)
 
     def holonomies(self, plan, variables: np.ndarray, algebra: bool) -> list | None:
         """The linear scheme's holonomies for U(3) and SU(3) with elements as real and
@@ -340,14 +345,25 @@ class FastMatrixKernel(MatrixKernel):
     def _torus_draw(self, base, law, t, rng):
         if law.algebra:  # large groups: one batched eigh per round dominates (numpy's)
             return _torus_draw(base, law, t, rng)
-        basis = self.__dict__.get("_torus_basis")
-        if basis is None:  # the SU(n) part's basis for U(n)
-            basis = self._torus_basis = np.ascontiguousarray(base.basis, dtype=complex)
-        k, small = t.size, base.N == 3 and law.lattice == "A"
+        small = base.N == 3 and law.lattice == "A"
+        data = self.__dict__.get("_torus_data")
+        if data is None:  # the SU(n) part's basis (for U(n)) and, for SU(3), its map to H
+            basis = np.ascontiguousarray(base.basis, dtype=complex)
+            sparse = (_hermitian_map(basis)[:3] if small else
+                      (np.zeros(10, np.intp), np.zeros(0, np.intp), np.zeros(0)))
+            # the representative's own term first (the compiled sum skips negligible
+            # images against it)
+            order = np.argsort(np.abs(law.images).sum(axis=1), kind="stable")
+            images = law.images[order]
+            data = self._torus_data = (basis, images, law.signs[order],
+                                       np.sqrt(np.einsum("ij,ij->i", images, images)),
+                                       float(np.abs(images @ law.roots.T).max())) + sparse
+        k = t.size
         coords = np.empty((0 if small else k, base.dim))
         mats = np.empty((k if small else 0, 3, 3), dtype=complex)
-        self._fast.torus_draw(np.ascontiguousarray(t, dtype=float), basis, law.roots,
-                              law.images, law.c, law.lattice == "A", rng, coords, mats)
+        self._fast.torus_draw(np.ascontiguousarray(t, dtype=float), data[0], law.roots,
+                              *data[1:5], law.c, law.lattice == "A", rng, coords, mats,
+                              *data[5:])
         return mats if small else base.exp_matrix(base.algebra(coords))
 
 

@@ -718,6 +718,8 @@ class _TorusLaw:
     #: the large-group route: acceptance from the proposal's algebra element (no images,
     #: no reduction to the torus), ``max(0, prod_a sinc(a(y)/2pi))`` (see `_torus_law`)
     algebra: bool = False
+    #: per image g, prod_a (-1)^{a(g) / 2 pi}: sin(a(x + g)/2) = (-1)^{a(g)/2pi} sin(a(x)/2)
+    signs: np.ndarray | None = None
 
 
 def _images(m: int, lattice: str) -> np.ndarray:
@@ -828,7 +830,10 @@ def _torus_law(family: str, n: int, k: float):
     piece = min(2.0 / rho2, safe)
     bound = float(math.exp(log_bound(piece)))
     images = np.zeros((1, m)) if algebra else _images(m, lattice)
-    return _TorusLaw(family, n, m, roots, images, c, piece, rho2, lattice, dim, bound, algebra)
+    turns = np.rint(images @ roots.T / (2 * np.pi)).astype(np.int64)
+    signs = np.where(turns.sum(axis=1) % 2, -1.0, 1.0)
+    return _TorusLaw(family, n, m, roots, images, c, piece, rho2, lattice, dim, bound, algebra,
+                     signs)
 
 
 def _nearest_representative(x: np.ndarray, lattice: str) -> np.ndarray:
@@ -896,10 +901,12 @@ def _torus_accept(law: _TorusLaw, x: np.ndarray, t: np.ndarray) -> np.ndarray:
     a = y @ law.roots.T  # root values
     expo = np.exp(-law.c * (np.einsum("sim,sim->si", y, y) - np.einsum("sm,sm->s", x, x)[:, None])
                   / (2 * t[:, None]))
-    # s(y) w(y) = prod_a 2 sin(a/2) a * expo: no division (sin(a/2)/(a/2) times a^2)
+    # s(y) w(y) = prod_a 2 sin(a/2) a * expo: no division (sin(a/2)/(a/2) times a^2);
+    # the sines of an image are those of the representative up to law.signs
     w = np.prod(a * a, axis=-1) * expo
-    sw = np.prod(2.0 * np.sin(0.5 * a) * a, axis=-1) * expo
-    return sw.sum(axis=1) / w.sum(axis=1)
+    sw = np.prod(a, axis=-1) * expo
+    sines = np.prod(2.0 * np.sin(0.5 * (x @ law.roots.T)), axis=-1)
+    return sines * (sw @ law.signs) / w.sum(axis=1)
 
 
 def _torus_draw_algebra(group, law: _TorusLaw, t: np.ndarray, rng) -> np.ndarray:
