@@ -7,8 +7,10 @@ bitwise numpy's), in the same order as the numpy path (per rejection round all t
 proposal normals, then all the uniforms), so the two paths agree to rounding (tested
 to 1e-12 per sample). The loops run per sample over small elements, with no
 temporaries: the heat kernel of SU(2) fuses the proposal, the acceptance test and the
-quaternion; products of quaternions and of small complex matrices run as a
-left-to-right loop over the steps.
+quaternion; the torus heat kernels (U(n), SU(n), SO(n), Sp(n) of the image route)
+fuse the proposal, its eigenvalues and the acceptance, and for SU(3) the exponential;
+products of quaternions and of small complex matrices run as a left-to-right loop over
+the steps.
 
 Every function is module-level and compiled with ``cache=True`` (the compiled code is
 kept on disk beside the module after the first call).
@@ -27,7 +29,7 @@ import numpy as np
 from numba import njit
 
 __all__ = ["quaternion_exp", "quaternion_mul", "quaternion_product", "matrix_mul",
-           "matrix_product", "su2_heat_small"]
+           "matrix_product", "su2_heat_small", "torus_draw", "matrix_holonomies_group"]
 
 _TWO_PI = 2.0 * math.pi
 

@@ -772,7 +772,7 @@ def _torus_law(family: str, n: int, k: float):
     ``|X|^2 > c (2 pi)^2 / max_a |a|^2``. The law error in total variation is at most
     ``2 e^{|rho|^2 t/2}`` times the proposal's mass there,
     ``P(chi^2_d >= c (2 pi)^2 / (max_a |a|^2 t))``, and the acceptance rate is
-    ``exp(-|rho|^2 t/2)`` minus that mass. Pieces as above.
+    ``exp(-|rho|^2 t/2)`` plus at most that mass. Pieces as above.
 
     References
     ----------
