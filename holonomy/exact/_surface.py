@@ -44,7 +44,9 @@ A simple loop wound p times uses the weights of V times p (Adams operation), so
 ``power:p`` and wound loops share the route.
 
 - ``surface-outer-face-expansion``: any other loop of a group whose irreducibles have
-  matrices (SU(2), Sp(1), SO(3): :func:`holonomy.groups.irreducible_representation`):
+  matrices (U(n), SU(n), Sp(1), SO(3): :func:`holonomy.groups.irreducible_representation`;
+  refused above about 3e9 operations, a size limit reached at small ``t_out`` for
+  rank >= 2):
   the kernel of the outer face expanded in characters,
   ``W = sum_a d_a^(1-2g) e^{-c_a t_out/2} E_plane[chi_V(w) chi_a(h)] / (Z dim V)``, each
   term the plane's exact contraction of the loop's word w and the drawn region's boundary
@@ -94,6 +96,7 @@ __all__ = ["SurfaceValue", "surface_partition_function", "surface_simple_loop",
 
 _REL = 1e-16  # omitted terms below this fraction of the sum
 _MAX_TERMS = 400_000  # irreducibles (or dual lattice points) a route may sum over
+_MAX_FLOPS = 3e9  # eigen-decompositions the outer face's expansion may spend (a few s)
 ROUTES = ("auto", "characters", "dual")
 
 
@@ -1103,7 +1106,7 @@ def exact_surface_wilson_loop(group, rep, loop, *, coupling: float, genus: int,
     of measure T minus the drawn measure and carries the g handles. Routes: U(1) and
     SO(2), any loop (:func:`surface_abelian_loop`); a simple loop, or one wound several
     times around a simple curve, in any representation of any family
-    (:func:`surface_simple_loop`); any other loop of SU(2), Sp(1) or SO(3) by the outer
+    (:func:`surface_simple_loop`); any other loop of U(n), SU(n), Sp(1) or SO(3) by the outer
     face's character expansion contracted with the plane's exact evaluation
     (``surface-outer-face-expansion``). Otherwise ``value`` is None with a note naming
     the limit.
@@ -1199,7 +1202,7 @@ def _outer_face_expansion(group, rep, shape, lam: float, g: int, T: float) -> Su
             f"representation limit: no exact route for a non-simple loop of {group} on a "
             "closed surface; the outer face's character expansion contracts the plane's "
             "words in every irreducible up to the truncation, and matrices of the "
-            "irreducibles exist for SU(2), Sp(1) and SO(3) only")
+            "irreducibles exist for U(n), SU(n), Sp(1) and SO(3) only")
     try:
         if shape.arrangement is not None:  # a curve: its exact face areas
             arr, mu = shape.arrangement, np.asarray(shape.measures, float)
@@ -1224,6 +1227,18 @@ def _outer_face_expansion(group, rep, shape, lam: float, g: int, T: float) -> Su
     except ValueError as exc:  # _TooManyTerms
         return null(f"size limit: {exc} (the outer face's time lambda (T - drawn) is "
                     "too small)")
+    # cost guard: each term diagonalizes one moment matrix per variable, of size the
+    # product of the dimensions of its occurrences (V in w, a in h)
+    dV = float(rep.dim)
+    occ = {abs(x): (sum(abs(y) == abs(x) for y in words[0]),
+                    sum(abs(y) == abs(x) for y in words[1])) for x in words[0] + words[1]}
+    da = np.abs(W.dimension(nus))
+    cost = float(sum(np.sum((dV ** p * da ** q) ** 3) for p, q in occ.values()))
+    if cost > _MAX_FLOPS:
+        return null(f"size limit: the outer face's expansion needs {len(nus)} irreducibles "
+                    f"(up to dimension {int(da.max())}) and about {cost:.2g} operations "
+                    f"(more than {_MAX_FLOPS:.0e}); lambda (T - drawn) is too small for "
+                    f"this route with {group}")
     total = 0.0 + 0.0j
     try:
         for nu in nus:

@@ -30,10 +30,12 @@ References
 
 from __future__ import annotations
 
+import itertools
 import math
 import re
 from dataclasses import dataclass, field
 from fractions import Fraction
+from functools import lru_cache
 from typing import Any, Callable
 
 import numpy as np
@@ -289,17 +291,23 @@ def irreducible_representation(group, highest_weight) -> Representation:
     its matrices (what the tensor route contracts).
 
     Available where the irreducibles have matrices: SU(2) and Sp(1) (``spin:j``, highest
-    weight ``(2j, 0)`` resp. ``(2j,)`` in e-coordinates, :mod:`holonomy.groups._weights`)
-    and SO(3) (spin l, highest weight ``(l,)``): the spin-l matrices of su(2) at the
+    weight ``(2j, 0)`` resp. ``(2j,)`` in e-coordinates, :mod:`holonomy.groups._weights`);
+    SO(3) (spin l, highest weight ``(l,)``): the spin-l matrices of su(2) at the
     element ``-i x . sigma / 2`` that corresponds to ``X = sum_a x_a L_a``,
-    ``(L_a)_{bc} = -epsilon_{abc}`` (both bases satisfy ``[e_1, e_2] = e_3``). The
-    trivial highest weight gives ``trivial`` for every group. Otherwise ArgumentError on
-    ``rep``.
+    ``(L_a)_{bc} = -epsilon_{abc}`` (both bases satisfy ``[e_1, e_2] = e_3``); U(n) and
+    SU(n) (any other n, highest weight ``m_1 >= ... >= m_n``): the Gelfand-Tsetlin basis,
+    orthonormal, so that ``pi(E_ji) = pi(E_ij)^T`` and the group acts unitarily;
+    ``pi(X) = sum_ij X_ij pi(E_ij)``. The trivial highest weight gives ``trivial`` for
+    every group. Otherwise ArgumentError on ``rep``.
 
     References
     ----------
     .. [1] B. C. Hall, "Lie Groups, Lie Algebras, and Representations", 2nd ed., Springer,
        2015, Sections 4.6 and 1.2 (SU(2), SO(3) and the isomorphism su(2) = so(3)).
+    .. [2] I. M. Gelfand and M. L. Tsetlin, "Finite-dimensional representations of the
+       group of unimodular matrices", Dokl. Akad. Nauk SSSR 71 (1950) 825-828; A. I.
+       Molev, "Gelfand-Tsetlin bases for classical Lie algebras", Handbook of Algebra 4
+       (2006) 109-170, Theorem 2.3 (the matrix elements of E_{k,k+1}, E_{k+1,k}).
     """
     lam = tuple(int(x) for x in np.ravel(highest_weight))
     fam, n = group.family, group.n
@@ -309,11 +317,13 @@ def irreducible_representation(group, highest_weight) -> Representation:
         return make_representation(group, rep_name("spin", Fraction(lam[0], 2)))
     if fam == "SO" and n == 3 and len(lam) == 1 and lam[0] >= 0:
         return _so3_spin(group, lam[0])
+    if fam in ("U", "SU") and len(lam) == n and all(a >= b for a, b in zip(lam, lam[1:])):
+        return _gelfand_tsetlin(group, lam)
     if not any(lam):
         return make_representation(group, "trivial")
     raise ArgumentError(
         "rep", f"got the highest weight {lam} of {fam}({n}); matrices of irreducibles by "
-        "highest weight exist for SU(2), Sp(1) and SO(3)")
+        "highest weight exist for U(n), SU(n), Sp(1) and SO(3)")
 
 
 def _so3_spin(group, l: int) -> Representation:
@@ -336,5 +346,73 @@ def _so3_spin(group, l: int) -> Representation:
 
     r = Representation(group, f"highest-weight:({l},)", 2 * l + 1, True,
                        _algebra=algebra, _character=character)
+    object.__setattr__(r, "casimir", _scalar_casimir(r.casimir_operator()))
+    return r
+
+
+@lru_cache(maxsize=256)
+def _gt_generators(top: tuple) -> tuple:
+    """``pi(E_ij)`` (real, ``(n, n, d, d)``) of the gl(n) irreducible with highest weight
+    ``top`` in the orthonormal Gelfand-Tsetlin basis.
+
+    Patterns ``m_{ik}`` (row k has k entries, rows interlace); with ``l_ik = m_ik - i``
+    (0-based i) the unnormalized basis has (Molev 2006, Theorem 2.3)
+    ``E_{k,k+1} xi = -sum_i prod_j (l_ik - l_{j,k+1}) / prod_{j != i} (l_ik - l_jk) xi_{+i}``
+    and ``E_{k+1,k} xi = sum_i prod_j (l_ik - l_{j,k-1}) / prod_{j != i} (l_ik - l_jk)
+    xi_{-i}``; in the orthonormal basis each matrix element is the square root of the
+    product of the raising and lowering coefficients between the two patterns, and
+    ``E_{k+1,k}`` is the transpose of ``E_{k,k+1}``. The other ``E_ij`` follow by
+    commutators. (The commutation relations are checked by the tests.)
+    """
+    n = len(top)
+    pats = [(tuple(top),)]
+    for _ in range(n - 1):
+        pats = [p + (r,) for p in pats for r in itertools.product(
+            *[range(p[-1][i + 1], p[-1][i] + 1) for i in range(len(p[-1]) - 1)])]
+    index = {p: i for i, p in enumerate(pats)}
+    d = len(pats)
+    E = np.zeros((n, n, d, d))
+
+    def row(p, k):  # the row with k entries (k = 0: empty)
+        return p[n - k] if k else ()
+
+    for p, a in index.items():
+        for k in range(1, n + 1):
+            E[k - 1, k - 1, a, a] = sum(row(p, k)) - sum(row(p, k - 1))
+        for k in range(1, n):
+            rk, up_row, down_row = row(p, k), row(p, k + 1), row(p, k - 1)
+            for i in range(k):
+                q = list(p)
+                q[n - k] = tuple(m + (j == i) for j, m in enumerate(rk))
+                b = index.get(tuple(q))
+                if b is None:
+                    continue
+                qk = q[n - k]
+                up = -math.prod(rk[i] - i - (up_row[j] - j) for j in range(k + 1)) / math.prod(
+                    rk[i] - i - (rk[j] - j) for j in range(k) if j != i)
+                down = math.prod(qk[i] - i - (down_row[j] - j) for j in range(k - 1)) / \
+                    math.prod(qk[i] - i - (qk[j] - j) for j in range(k) if j != i)
+                E[k - 1, k, b, a] = math.sqrt(up * down)
+        # (E_{k+1,k} is set below as the transpose)
+    for k in range(n - 1):
+        E[k + 1, k] = E[k, k + 1].T
+    for gap in range(2, n):
+        for i in range(n - gap):
+            j = i + gap
+            E[i, j] = E[i, j - 1] @ E[j - 1, j] - E[j - 1, j] @ E[i, j - 1]
+            E[j, i] = E[i, j].T
+    E.setflags(write=False)
+    return E
+
+
+def _gelfand_tsetlin(group, lam: tuple) -> Representation:
+    E = _gt_generators(tuple(int(x) for x in lam))
+    n = len(lam)
+
+    def algebra(X):
+        return np.einsum("...ij,ijab->...ab", np.asarray(X)[..., :n, :n], E)
+
+    r = Representation(group, f"highest-weight:{tuple(int(x) for x in lam)}", E.shape[-1],
+                       True, _algebra=algebra)
     object.__setattr__(r, "casimir", _scalar_casimir(r.casimir_operator()))
     return r

@@ -381,12 +381,12 @@ class TestLimitsAndLoops:
         got_t = exact_surface_wilson_loop(G, "fundamental", poly, coupling=1.0, genus=1, total_area=5.0)
         assert got_t.value.real == pytest.approx(su2_sum(2.0, 3.0, 2, genus=1), abs=1e-12)
         # a figure-eight: SU(2) by the outer face's expansion (tested against a Weyl
-        # integration in test_surface_outer_face.py); SU(3) has no route, a note says why
+        # integration in test_surface_outer_face.py); Sp(2) has no route, a note says why
         eight = Loop.polygon([(0, 0), (1, 1), (2, 0), (2, 1), (1, 0), (0, 1)])
         got = exact_surface_wilson_loop(G, "fundamental", eight, coupling=1.0, genus=0,
                                         total_area=5.0)
         assert got.method == "surface-outer-face-expansion"
-        none = exact_surface_wilson_loop(make_group("SU", 3, "physics"), "fundamental", eight,
+        none = exact_surface_wilson_loop(make_group("Sp", 2, "physics"), "fundamental", eight,
                                          coupling=1.0, genus=0, total_area=5.0)
         assert none.value is None and "non-simple" in none.note
 

@@ -150,7 +150,7 @@ def test_so3_irreducibles_are_representations_with_published_casimirs():
         assert r.casimir == pytest.approx(l * (l + 1) / 4, abs=1e-12)
         assert r.casimir == pytest.approx(float(W.casimir(W.shifted([l]))), abs=1e-12)
     with pytest.raises(ValueError, match="highest weight"):
-        irreducible_representation(make_group("SU", 3, "physics"), [1, 0, 0])
+        irreducible_representation(make_group("Sp", 2, "physics"), [1, 0])
 
 
 # --------------------------------------------------------------------- the values
@@ -227,7 +227,52 @@ def test_lattice_figure_eight_and_torus_and_refusals():
     c = exact_surface_wilson_loop(G, "fundamental", poly, coupling=1.0, genus=0,
                                   total_area=5.0)
     assert abs(a.value - c.value) > 1e-4
-    # no matrices for the irreducibles of SU(3): null with the limit named
-    r = exact_surface_wilson_loop(make_group("SU", 3, "physics"), "fundamental",
+    # no matrices for the irreducibles of Sp(2): null with the limit named
+    r = exact_surface_wilson_loop(make_group("Sp", 2, "physics"), "fundamental",
                                   Loop.polygon(FIG8), coupling=1.0, genus=0, total_area=5.0)
     assert r.value is None and "representation limit" in r.note
+
+
+@pytest.mark.parametrize("family, n, hw", [("SU", 3, (2, 1, 0)), ("U", 3, (2, 0, -1)),
+                                           ("SU", 4, (2, 1, 0, 0)), ("U", 2, (0, -1))])
+def test_gelfand_tsetlin_irreducibles(family, n, hw):
+    # a representation of gl(n) (commutation relations of the E_ij, E_ji = E_ij^T, so
+    # unitary) with the Weyl dimension and the Casimir <lam, lam + 2 rho> of its highest
+    # weight (Fulton and Harris 1991, Sections 24.1 and 25.1)
+    G = make_group(family, n, "physics")
+    W = weight_system(G)
+    r = irreducible_representation(G, hw)
+    nu = W.shifted(hw)
+    assert r.dim == round(float(W.dimension(nu)))
+    assert r.casimir == pytest.approx(float(W.casimir(nu)), abs=1e-12)
+    B = np.asarray(G.basis)
+    M = r.algebra_matrix(B)
+    for a in range(len(B)):
+        assert np.allclose(M[a].conj().T, -M[a], atol=1e-12)
+        for b in range(a):
+            br = r.algebra_matrix(B[a] @ B[b] - B[b] @ B[a])
+            assert np.allclose(M[a] @ M[b] - M[b] @ M[a], br, atol=1e-11)
+
+
+@pytest.mark.parametrize("family, n, T", [("U", 2, 4.0), ("SU", 3, 20.0)])
+def test_outer_face_route_on_a_simple_loop_matches_the_character_sum(family, n, T):
+    # the expansion forced on a simple loop against the Brauer-Klimyk character sum
+    # (Migdal 1975; Rusakov 1990): Gelfand-Tsetlin matrices and mixed contraction
+    from discretize import AreaForm
+    from holonomy.exact._surface import _outer_face_expansion, _shape
+
+    G = make_group(family, n, "physics")
+    sq = Loop.polygon([(0, 0), (1, 0), (1, 1), (0, 1)])
+    forced = _outer_face_expansion(G, G.rep("fundamental"), _shape(sq, AreaForm()), 1.0, 0, T)
+    assert forced.method == "surface-outer-face-expansion"
+    direct = exact_surface_wilson_loop(G, "fundamental", sq, coupling=1.0, genus=0,
+                                       total_area=T)
+    assert direct.method != forced.method
+    assert abs(forced.value - direct.value) < 1e-10
+
+
+def test_outer_face_size_limit_is_a_note():
+    G = make_group("SU", 3, "physics")
+    r = exact_surface_wilson_loop(G, "fundamental", Loop.polygon(FIG8), coupling=1.0,
+                                  genus=0, total_area=2.0)
+    assert r.value is None and "size limit" in r.note
