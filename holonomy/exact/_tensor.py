@@ -299,7 +299,6 @@ def contract_mixed(algebras, words, times) -> complex:
     algebras = [np.asarray(a) for a in algebras]
     factors: dict[int, list] = {}
     base = 0
-    dims: dict[int, int] = {}
     empty = 1.0 + 0j
     for w, alg in zip(words, algebras):
         n, d = len(w), alg.shape[-1]
@@ -307,7 +306,6 @@ def contract_mixed(algebras, words, times) -> complex:
             empty *= d
             continue
         for k, x in enumerate(w):
-            dims[base + k] = d
             row, col = (base + k, base + (k + 1) % n) if x > 0 else (base + (k + 1) % n, base + k)
             factors.setdefault(abs(x), []).append((alg if x > 0 else alg.conj(), row, col))
         base += n
