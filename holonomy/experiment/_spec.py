@@ -793,12 +793,21 @@ def _extent_iv(loops: tuple[LoopSpec, ...], spacing: float, reference: float | N
     boxes = [_loop_bbox(lp, spacing) for lp in loops]
     x0, y0 = min(b[0] for b in boxes), min(b[1] for b in boxes)
     x1, y1 = max(b[2] for b in boxes), max(b[3] for b in boxes)
+    loops_only = ((x1 - x0) / spacing + 3) * ((y1 - y0) / spacing + 3)
     if reference is not None:
         if gauge == "axial-y":
             y0, y1 = min(y0, reference), max(y1, reference)
         else:
             x0, x1 = min(x0, reference), max(x1, reference)
     with_margin = ((x1 - x0) / spacing + 3) * ((y1 - y0) / spacing + 3)
+    if math.isfinite(loops_only) and loops_only <= MAX_CELLS and not (
+            math.isfinite(with_margin) and with_margin <= MAX_CELLS):
+        # the loops fit; the reference line's distance makes the grid too large
+        raise SpecError("field.reference", f"got {reference!r}: the grid reaching from the "
+                        f"loops to the reference line ({x1 - x0:.6g} x {y1 - y0:.6g}) would "
+                        f"have about {with_margin:.3g} cells at spacing {spacing!r}; "
+                        f"expected at most {MAX_CELLS:.0e} (a reference line nearer the "
+                        "loops, or the default: the loops' lowest point)")
     if not math.isfinite(with_margin) or with_margin > MAX_CELLS:
         raise SpecError("field.spacing", f"got {spacing!r}: the grid covering the loops "
                         f"({x1 - x0:.6g} x {y1 - y0:.6g}) would have about "

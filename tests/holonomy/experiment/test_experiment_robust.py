@@ -519,6 +519,8 @@ INVALID = [
      "observable.rep"),
     ("reference-off-the-grid", _m(('scheme = "heat"', 'scheme = "heat"\nreference = 0.1')),
      "field.reference"),
+    ("reference-far-away", _m(('scheme = "heat"', 'scheme = "heat"\nreference = 1e7')),
+     "field.reference"),
     ("unicode-digit-in-moves", _m(('"R2 U1 L1 U1 L1 D2"', '"R\u0662 U1 L1 U1 L1 D2"')),
      "loops[1].moves"),
     ("nul-in-name", _m(('name = "robust"', 'name = "a\\u0000"')), "name"),
@@ -591,3 +593,23 @@ def test_every_command_refuses_sizes_beyond_the_limits(text, key, limits, comman
     assert main(_command_args(command, spec, out)) == 2
     _one_line(capsys.readouterr().err, f"whitegauge: error: {key}: ")
     assert not out.exists()
+
+
+_CONSOLE = Path(sys.executable).with_name("whitegauge")
+
+
+@pytest.mark.skipif(not (_CONSOLE.is_file() and "whitegauge_console" in _CONSOLE.read_text()),
+                    reason="the console script of this checkout is not installed")
+@pytest.mark.parametrize("delay", [0.1, 0.4])
+def test_ctrl_c_while_importing_exits_130_with_one_line(delay, tmp_path):
+    """SIGINT while numpy, scipy and the engine are still being imported (the first
+    second of the command): exit 130, one line, no traceback, nothing written."""
+    p = subprocess.Popen([str(_CONSOLE), "run", str(_write(tmp_path)), "--out",
+                          str(tmp_path / "o"), "--quiet"], stdout=subprocess.PIPE,
+                         stderr=subprocess.PIPE, text=True, start_new_session=True)
+    time.sleep(delay)
+    os.killpg(p.pid, signal.SIGINT)
+    _, err = p.communicate(timeout=60)
+    assert p.returncode == 130, err
+    _one_line(err, "whitegauge: interrupted")
+    assert not (tmp_path / "o" / "results.json").exists()
