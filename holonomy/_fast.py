@@ -28,6 +28,8 @@ import math
 import numpy as np
 from numba import njit
 
+from .groups._heat import _IMAGE_SKIP
+
 __all__ = ["quaternion_exp", "quaternion_mul", "quaternion_product", "matrix_mul",
            "matrix_product", "su2_heat_small", "torus_draw", "matrix_holonomies_group"]
 
@@ -404,12 +406,6 @@ def _su3_exp_from_angle(a0, a1, a2, x01, y01, x02, y02, x12, y12, c1, p, cphi, s
     E[2, 0] = f1 * complex(x02, -y02) + f2 * complex(p02r, -p02i)
     E[1, 2] = f1 * complex(x12, y12) + f2 * complex(p12r, p12i)
     E[2, 1] = f1 * complex(x12, -y12) + f2 * complex(p12r, -p12i)
-
-
-#: an image whose weight is below this fraction of the sum so far is left out of the
-#: compiled acceptance (its sine products skipped): the acceptance moves by less than
-#: 2e-20 per image, far below the law error bound of the torus route (1e-18 per draw)
-_IMAGE_SKIP = 1e-20
 
 
 @njit(cache=True)

@@ -354,3 +354,23 @@ def test_heat_kernel_law_reports_route_and_bound():
     assert big["images"] == "algebra" and 0 <= big["law_error_bound"] <= 1e-18
     assert heat_kernel_law(make_group("U", 1, "trace"))["law_error_bound"] == 0.0
     assert heat_kernel_law(make_group("SU", 2, "trace"))["law_error_bound"] is None
+
+
+@pytest.mark.parametrize("family,n", [("SU", 3), ("SO", 5), ("Sp", 2)])
+def test_skipped_images_do_not_move_the_acceptance(monkeypatch, family, n):
+    # the one-bound skip of the other images (holonomy.groups._heat._IMAGE_SKIP) against
+    # the full image sums: the same acceptance to rounding at short and long times
+    from holonomy.groups import _heat
+
+    G = make_group(family, n, "trace")
+    law = _heat._torus_law(family, n, 1.0)
+    rng = np.random.default_rng(6)
+    for t in (0.02, 0.3, law.piece):
+        Z = rng.standard_normal((4000, G.dim)) * np.sqrt(t)
+        x = _heat._torus_coords(law, -1j * G.algebra(Z))
+        tt = np.full(len(Z), t)
+        fast = _heat._torus_accept(law, x, tt)
+        monkeypatch.setattr(_heat, "_IMAGE_SKIP", 0.0)
+        full = _heat._torus_accept(law, x, tt)
+        monkeypatch.undo()
+        np.testing.assert_allclose(fast, full, rtol=0, atol=1e-14)
