@@ -251,6 +251,24 @@ def quaternion_holonomies_group(q, side, order, parent, links, flips, offsets):
 
 
 @njit(cache=True)
+def _su3_coefficients(u, w):
+    """``f0, f1, f2`` of ``exp(iQ) = f0 + f1 Q + f2 Q^2`` for a traceless Hermitian 3 x 3
+    ``Q`` from its invariants ``u`` and ``w`` (Morningstar and Peardon 2004, eqs. (29)-(33));
+    the one home of this closed form on the compiled path."""
+    xi0 = math.sin(w) / w if w != 0 else 1.0
+    cw = math.cos(w)
+    cu, su = math.cos(u), math.sin(u)
+    e2iu = complex(cu * cu - su * su, 2.0 * su * cu)
+    emiu = complex(cu, -su)
+    u2, w2 = u * u, w * w
+    h0 = (u2 - w2) * e2iu + emiu * complex(8 * u2 * cw, 2 * u * (3 * u2 + w2) * xi0)
+    h1 = 2 * u * e2iu - emiu * complex(2 * u * cw, -(3 * u2 - w2) * xi0)
+    h2 = e2iu - emiu * complex(cw, 3 * u * xi0)
+    inv = 1.0 / (9 * u2 - w2)  # a real factor (no complex division)
+    return h0 * inv, h1 * inv, h2 * inv
+
+
+@njit(cache=True)
 def u3_holonomies_algebra(x, side, order, parent, links, dirs, offsets, rows, cols, coef,
                           traceless):
     """`quaternion_holonomies_algebra` for U(3) and SU(3): ``x`` (n, K, d) interval sums;
@@ -314,17 +332,7 @@ def u3_holonomies_algebra(x, side, order, parent, links, dirs, offsets, rows, co
                     u = rt * z
                     # only w^2 enters (f_j even in w): w^2 = c1 (1 - z^2), no sine
                     w = math.sqrt(c1 * max(1.0 - z * z, 0.0))
-                    xi0 = math.sin(w) / w if w != 0 else 1.0
-                    cw = math.cos(w)
-                    cu, su = math.cos(u), math.sin(u)
-                    e2iu = complex(cu * cu - su * su, 2.0 * su * cu)
-                    emiu = complex(cu, -su)
-                    u2, w2 = u * u, w * w
-                    h0 = (u2 - w2) * e2iu + emiu * complex(8 * u2 * cw, 2 * u * (3 * u2 + w2) * xi0)
-                    h1 = 2 * u * e2iu - emiu * complex(2 * u * cw, -(3 * u2 - w2) * xi0)
-                    h2 = e2iu - emiu * complex(cw, 3 * u * xi0)
-                    inv = 1.0 / (9 * u2 - w2)  # a real factor (no complex division)
-                    f0, f1, f2 = h0 * inv, h1 * inv, h2 * inv
+                    f0, f1, f2 = _su3_coefficients(u, w)
                 if neg:
                     f0, f1, f2 = f0.conjugate(), -f1.conjugate(), f2.conjugate()
                 if not traceless:
@@ -384,17 +392,7 @@ def _su3_exp_from_angle(a0, a1, a2, x01, y01, x02, y02, x12, y12, c1, p, cphi, s
             ct, st = cphi, sphi
         u = p * ct
         w = _SQRT3 * p * st
-        xi0 = math.sin(w) / w if w != 0 else 1.0
-        cw = math.cos(w)
-        cu, su = math.cos(u), math.sin(u)
-        e2iu = complex(cu * cu - su * su, 2.0 * su * cu)
-        emiu = complex(cu, -su)
-        u2, w2 = u * u, w * w
-        h0 = (u2 - w2) * e2iu + emiu * complex(8 * u2 * cw, 2 * u * (3 * u2 + w2) * xi0)
-        h1 = 2 * u * e2iu - emiu * complex(2 * u * cw, -(3 * u2 - w2) * xi0)
-        h2 = e2iu - emiu * complex(cw, 3 * u * xi0)
-        inv = 1.0 / (9 * u2 - w2)
-        f0, f1, f2 = h0 * inv, h1 * inv, h2 * inv
+        f0, f1, f2 = _su3_coefficients(u, w)
     if neg:
         f0, f1, f2 = f0.conjugate(), -f1.conjugate(), f2.conjugate()
     E[0, 0] = f0 + f1 * a0 + f2 * d0
