@@ -86,11 +86,15 @@ class StudyProblem:
         The coarsest spacing divided by powers of 2, e.g. (0.5, 0.25, 0.125).
     schemes : sequence of str, optional
         Registered scheme names; default :func:`holonomy._schemes.study_schemes`.
+    max_cells : int, optional
+        Refuse (ArgumentError on ``spacings``) a ladder whose finest nested grid has more
+        cells, before any loop is snapped to it; None: no limit.
     """
 
     problem: WilsonProblem
     spacings: tuple
     schemes: tuple | None = None
+    max_cells: int | None = None
 
     def __post_init__(self):
         problem, spacings, schemes = _study_iv(
@@ -98,6 +102,15 @@ class StudyProblem:
             study_schemes() if self.schemes is None else self.schemes)
         object.__setattr__(self, "spacings", spacings)
         object.__setattr__(self, "schemes", schemes)
+        finest = self.grids[spacings[-1]]
+        cells = finest.nx * finest.ny
+        if self.max_cells is not None and cells > self.max_cells:
+            raise ArgumentError(
+                "spacings", f"got a finest spacing {spacings[-1]!r}: its grid, nested in the "
+                f"coarsest one, has {finest.nx} x {finest.ny} = {cells:.3g} cells; expected at "
+                f"most {self.max_cells:.0e} (a coarser finest spacing, or fewer halvings)",
+                f"`spacings`: the finest grid would have {cells:.3g} cells, more than "
+                f"{self.max_cells:.0e}.")
         _ = self.problems  # validates every (spacing, scheme)
 
     @cached_property
@@ -143,7 +156,8 @@ class StudyProblem:
         return {key: self.problems[key].finish(blocks) for key, blocks in blocks_by_key.items()}
 
     def __getstate__(self):
-        return {"problem": self.problem, "spacings": self.spacings, "schemes": self.schemes}
+        return {"problem": self.problem, "spacings": self.spacings, "schemes": self.schemes,
+                "max_cells": self.max_cells}
 
     def __setstate__(self, state):
         for k, v in state.items():

@@ -99,7 +99,7 @@ from ._references import loop_references
 from ._report import MISSING, _render, _write_text_atomic, clean, fmt_value, write_json_atomic
 from ._folder import claim_folder
 from ._runner import Job, execute, run_iv, worker_pool
-from ._spec import Spec, SpecError, spec_arg
+from ._spec import MAX_CELLS, Spec, SpecError, spec_arg
 from ._store import RunStore, versions
 
 __all__ = ["THEORY_RATES", "RateFit", "fit_rate", "fit_exact_rate", "fit_difference_rate",
@@ -368,10 +368,11 @@ def run_study(spec: Spec, *, spacings: Sequence[float], schemes: Sequence[str] |
         spec = dataclasses.replace(spec, block=block)
     base = build_problem(spec)
     try:
-        study = StudyProblem(base, spacings=spacings, schemes=schemes)
+        study = StudyProblem(base, spacings=spacings, schemes=schemes,
+                             max_cells=MAX_CELLS)
     except ArgumentError as exc:
         key = {"spacings": "--spacings", "scheme": "--schemes", "schemes": "--schemes"}
-        raise SpecError(key.get(exc.argument, "spec"), str(exc)) from None
+        raise SpecError(key.get(exc.argument, "spec"), exc.rule) from None
     job = _study_job(study)
     job_key = f"study:{list(spacings)}:{list(schemes)}:block={block}"
     with contextlib.ExitStack() as folder:

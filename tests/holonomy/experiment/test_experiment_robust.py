@@ -613,3 +613,18 @@ def test_ctrl_c_while_importing_exits_130_with_one_line(delay, tmp_path):
     assert p.returncode == 130, err
     _one_line(err, "whitegauge: interrupted")
     assert not (tmp_path / "o" / "results.json").exists()
+
+
+@pytest.mark.parametrize("ladder,words", [
+    # 14 halvings of 0.25 on loops about 1 x 1: a nested grid of ~1e9 cells, past the limit
+    # on grid cells that `run` applies to field.spacing (DEVELOPERS.md, Limits)
+    ("0.25,0.0000152587890625", ("finest spacing", "cells", "expected at most 1e+07")),
+    ("0.25,0.1", ("coarsest spacing divided by powers of 2",)),
+    ("0.25", ("at least two",)),
+])
+def test_study_ladder_is_checked_before_any_work(ladder, words, tmp_path, capsys):
+    out = tmp_path / "s"
+    assert main(["study", str(_write(tmp_path)), "--spacings", ladder, "--out", str(out),
+                 "--quiet"]) == 2
+    _one_line(capsys.readouterr().err, "whitegauge: error: --spacings: ", *words)
+    assert not out.exists()
