@@ -30,7 +30,7 @@ from ._sampling import (  # noqa: E402
     estimate_wilson_loops,
     run_block,
 )
-from ._study import EXPECTED_RATES, StudyProblem, run_study_block  # noqa: E402
+from ._study import EXPECTED_RATES, StudyProblem, run_study_block, study_spacings  # noqa: E402
 from ._lattice_series import (  # noqa: E402  (lattice series of the schemes)
     gauss_series, lattice_covariance, lattice_series, wilson_series,
 )

@@ -100,6 +100,14 @@ class Field:
             raise ArgumentError("gauge", f"got {self.gauge!r}; expected one of {GAUGES}",
                                 f"`gauge` must be one of {GAUGES}, got {self.gauge!r}.")
         get_scheme(self.scheme)  # validates the name
+        if self.reference is not None:
+            ref = self.reference
+            if isinstance(ref, bool) or not isinstance(ref, numbers.Real):
+                raise TypeError(f"`reference` must be a finite number or None, got {ref!r}.")
+            if not math.isfinite(ref):
+                raise ArgumentError("reference", f"got {ref!r}; expected a finite number",
+                                    f"`reference` must be a finite number or None, got "
+                                    f"{ref!r}.")
         if not isinstance(self.area, AreaForm):
             raise TypeError(f"`area` must be a discretize.AreaForm, got {self.area!r}.")
 

@@ -27,9 +27,10 @@ fixed area in a fixed region,
 from __future__ import annotations
 
 import math
+import numbers
 from dataclasses import dataclass, replace
 from functools import cached_property
-from typing import Mapping, Sequence
+from typing import Iterable, Mapping, Sequence
 
 
 from discretize import Grid, LatticeLoop
@@ -39,16 +40,39 @@ from ._estimate import BlockSums
 from ._sampling import LatticeProblem, WilsonProblem, _block_sums
 from ._schemes import EXPECTED_RATES, get_scheme, study_schemes
 
-__all__ = ["StudyProblem", "run_study_block", "EXPECTED_RATES"]
+__all__ = ["StudyProblem", "run_study_block", "study_spacings", "EXPECTED_RATES"]
 
 
 def _study_iv(problem, spacings, schemes):
     if not isinstance(problem, WilsonProblem):
         raise TypeError(f"`problem` must be a WilsonProblem, got {type(problem).__name__}.")
-    try:
-        spacings = tuple(float(h) for h in spacings)
-    except (TypeError, ValueError):
-        raise TypeError(f"`spacings` must be a list of positive numbers, got {spacings!r}.") from None
+    spacings = study_spacings(spacings)
+    schemes = tuple(get_scheme(s).name for s in schemes)
+    if not schemes:
+        raise ArgumentError("schemes", "got none; expected at least one scheme",
+                            "`schemes` is empty: give at least one scheme.")
+    if len(set(schemes)) != len(schemes):
+        raise ArgumentError("schemes", f"got {schemes!r}; expected distinct schemes",
+                            f"`schemes` must be distinct, got {schemes!r}.")
+    return problem, spacings, schemes
+
+
+def study_spacings(spacings) -> tuple[float, ...]:
+    """The spacings of a study, checked (at least two distinct positive finite numbers,
+    the coarsest divided by powers of 2) and sorted from the coarsest; the one rule for
+    the API and the command line.
+
+    Raises
+    ------
+    TypeError
+        If ``spacings`` is not a sequence of real numbers (a bool is not a spacing).
+    noise.ArgumentError
+        On ``spacings``, with the rule broken.
+    """
+    if isinstance(spacings, (str, bytes)) or not isinstance(spacings, Iterable) or any(
+            isinstance(h, bool) or not isinstance(h, numbers.Real) for h in spacings):
+        raise TypeError(f"`spacings` must be a list of positive numbers, got {spacings!r}.")
+    spacings = tuple(float(h) for h in spacings)
     rule = f"got {spacings!r}; expected "
     if len(spacings) < 2:
         raise ArgumentError("spacings", rule + "at least two values",
@@ -56,9 +80,17 @@ def _study_iv(problem, spacings, schemes):
     if any(not (math.isfinite(h) and h > 0) for h in spacings):
         raise ArgumentError("spacings", rule + "positive finite numbers",
                             f"`spacings` must be positive finite numbers, got {spacings!r}.")
-    spacings = tuple(sorted(set(spacings), reverse=True))
+    if len(set(spacings)) != len(spacings):
+        raise ArgumentError("spacings", rule + "distinct values",
+                            f"`spacings` must be distinct, got {spacings!r}.")
+    spacings = tuple(sorted(spacings, reverse=True))
     for h in spacings[1:]:
         ratio = spacings[0] / h
+        if not math.isfinite(ratio):  # h below the coarsest by more than double range
+            raise ArgumentError(
+                "spacings", rule + "the coarsest spacing divided by powers of 2",
+                f"`spacings` must be the coarsest spacing divided by powers of 2, got {h!r} "
+                f"against {spacings[0]!r} (a ratio beyond double range).")
         level = round(math.log2(ratio))
         if level < 1 or abs(ratio - 2.0**level) > 1e-9 * ratio:
             raise ArgumentError(
@@ -66,11 +98,7 @@ def _study_iv(problem, spacings, schemes):
                 f"`spacings` must be the coarsest spacing divided by powers of 2 (so the "
                 f"noise refines exactly), got {h!r} against {spacings[0]!r}."
             )
-    schemes = tuple(get_scheme(s).name for s in schemes)
-    if not schemes:
-        raise ArgumentError("schemes", "got none; expected at least one scheme",
-                            "`schemes` is empty: give at least one scheme.")
-    return problem, spacings, schemes
+    return spacings
 
 
 @dataclass(frozen=True)

@@ -19,13 +19,14 @@ import sys
 import threading
 import traceback
 
-from holonomy import SCHEMES, __version__, study_schemes
+from holonomy import SCHEMES, __version__, study_schemes, study_spacings
 from holonomy.experiment import (DEMO_GROUPS, MAX_SERIES_ORDER, MAX_WORKERS, BlockFailed,
                                  build_lattice, build_problem,
                                  Progress, SpecError, claim_folder, default_out,
                                  exact_results, format_exact_table, format_series_table,
                                  format_spec_keys, format_table, load_spec, printable,
                                  run_demo, run_spec, run_study, series_results, study_block)
+from noise import ArgumentError
 
 __all__ = ["build_parser", "main"]
 
@@ -42,9 +43,22 @@ class _UsageError(Exception):
     pass
 
 
+def _ascii(text: str) -> str:
+    """A number's text: ASCII only (int() and float() also read other scripts' digits)."""
+    if not text.isascii():
+        raise ValueError(text)
+    return text
+
+
+def _out(text: str) -> str:
+    if not text.strip():
+        raise argparse.ArgumentTypeError(f"got {text!r}; expected a folder path")
+    return text
+
+
 def _workers(text: str) -> int:
     try:
-        v = int(text)
+        v = int(_ascii(text))
     except ValueError:
         v = 0
     if not 1 <= v <= MAX_WORKERS:
@@ -55,7 +69,7 @@ def _workers(text: str) -> int:
 
 def _order(text: str) -> int:
     try:
-        v = int(text)
+        v = int(_ascii(text))
     except ValueError:
         v = -1
     if not 0 <= v <= MAX_SERIES_ORDER:
@@ -67,24 +81,23 @@ def _order(text: str) -> int:
 def _spacings(text: str) -> tuple[float, ...]:
     rule = "a comma-separated list of at least two distinct numbers > 0, like 0.5,0.25,0.125"
     try:
-        vals = tuple(float(t) for t in text.split(","))
+        vals = tuple(float(_ascii(t)) for t in text.split(","))
     except ValueError:
-        vals = ()
-    if len(vals) < 2 or any(not (v > 0) or v == float("inf") for v in vals) \
-            or len(set(vals)) != len(vals):
-        raise argparse.ArgumentTypeError(f"got {text!r}; expected {rule}")
-    return tuple(sorted(vals, reverse=True))
+        raise argparse.ArgumentTypeError(f"got {text!r}; expected {rule}") from None
+    try:  # the study's own rule (holonomy.study_spacings), as for the Python API
+        return study_spacings(vals)
+    except ArgumentError as exc:
+        raise argparse.ArgumentTypeError(f"{exc.rule} ({rule})") from None
 
 
 def _areas(text: str) -> tuple[float, ...]:
+    from holonomy.experiment._decompactify import areas_iv
+
     rule = "a comma-separated list of distinct total areas > 0, like 2,4,8,16"
     try:
-        vals = tuple(float(t) for t in text.split(","))
-    except ValueError:
-        vals = ()
-    if not vals or any(not (0 < v < float("inf")) for v in vals) or len(set(vals)) != len(vals):
-        raise argparse.ArgumentTypeError(f"got {text!r}; expected {rule}")
-    return tuple(sorted(vals))
+        return areas_iv(tuple(float(_ascii(t)) for t in text.split(",")))
+    except (ValueError, TypeError):  # the API's own rule (areas_iv), as text
+        raise argparse.ArgumentTypeError(f"got {text!r}; expected {rule}") from None
 
 
 def _schemes(text: str) -> tuple[str, ...]:
@@ -169,7 +182,7 @@ def build_parser() -> argparse.ArgumentParser:
              "specified. Writes results.json, results.csv and the run store run.sqlite "
              "into DIR. Needs [run] samples and seed in the spec.")
     _spec_arg(p, "run needs [run] samples and seed")
-    p.add_argument("--out", metavar="DIR", help="output folder, created if missing "
+    p.add_argument("--out", type=_out, metavar="DIR", help="output folder, created if missing "
                    "(default: whitegauge-<name> in the current folder, <name> the spec's "
                    "name with every character other than a letter, digit, '.', '_', '+' "
                    "or '-' replaced by '-')")
@@ -220,7 +233,7 @@ def build_parser() -> argparse.ArgumentParser:
                    "(required)")
     p.add_argument("--order", type=_order, required=True, metavar="M",
                    help="the highest order M, an integer from 0 to 20 (required)")
-    p.add_argument("--out", metavar="DIR", help="folder for decompactify.png and "
+    p.add_argument("--out", type=_out, metavar="DIR", help="folder for decompactify.png and "
                    "decompactify.json (default: no files)")
     p.add_argument("--fresh", action="store_true", help=_FRESH)
     _json_arg(p)
@@ -242,7 +255,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help=f"comma-separated registered schemes from {', '.join(SCHEMES)} "
                    f"(default {','.join(study_schemes())}; a scheme refuses the groups it "
                    "does not support, e.g. wilson needs U(1) or SU(2))")
-    p.add_argument("--out", metavar="DIR", help="output folder, created if missing "
+    p.add_argument("--out", type=_out, metavar="DIR", help="output folder, created if missing "
                    "(default: whitegauge-<name>-study in the current folder)")
     _workers_arg(p, "1")
     p.add_argument("--resume", action="store_true",
@@ -276,17 +289,20 @@ def build_parser() -> argparse.ArgumentParser:
              "schemes; the perturbative series of the rectangle) and write report.md, "
              "PNG plots, results.json, the specs in specs/ and their runs in runs/. "
              "About a minute on two cores.")
-    p.add_argument("--out", metavar="DIR", default="whitegauge-demo",
+    p.add_argument("--out", type=_out, metavar="DIR", default="whitegauge-demo",
                    help="output folder, created if missing (default: whitegauge-demo)")
     _workers_arg(p, "the number of cores, at most 2")
     _folder_args(p)
     return parser
 
 
-def _progress(args):
+def _progress(args, start: str | None = None):
     """The command's one progress bar (a no-op unless stderr is a terminal and neither
-    --quiet nor --json is given)."""
-    return Progress(enabled=_talk(args) and sys.stderr.isatty())
+    --quiet nor --json is given); ``start``, the command's start line, is printed when
+    its first run starts, after every check (a refusal stays the only line)."""
+    header = printable(f"whitegauge {args.command}: {start}") \
+        if start is not None and _talk(args) else None
+    return Progress(enabled=_talk(args) and sys.stderr.isatty(), header=header)
 
 
 def _talk(args) -> bool:
@@ -314,10 +330,9 @@ def _cmd_run(args) -> int:
     spec = load_spec(args.spec, purpose="run", overrides=args.overrides)
     out = args.out or default_out(spec.name)
     args.resume_hint = (out, "run.sqlite")
-    _say(args, f"{spec.name}: {spec.family}({spec.n}), {spec.scheme} scheme, spacing "
-         f"{spec.spacing:g}, {len(spec.loops)} loop(s), {_blocks(spec)}, "
-         f"{_workers_text(args.workers)}; output in {out}/")
-    bar = _progress(args)
+    bar = _progress(args, f"{spec.name}: {spec.family}({spec.n}), {spec.scheme} scheme, "
+                    f"spacing {spec.spacing:g}, {len(spec.loops)} loop(s), {_blocks(spec)}, "
+                    f"{_workers_text(args.workers)}; output in {out}/")
     try:
         outcome = run_spec(spec, out=out, workers=args.workers, resume=args.resume,
                            fresh=args.fresh, progress=bar)
@@ -375,11 +390,12 @@ def _cmd_study(args) -> int:
     out = args.out or default_out(spec.name, "-study")
     args.resume_hint = (out, "study.sqlite")
     block, note = study_block(spec)
-    _say(args, f"{spec.name}: {spec.family}({spec.n}), schemes {', '.join(args.schemes)} "
-         f"at spacings {', '.join(f'{h:g}' for h in args.spacings)} on one noise field, "
-         f"{_blocks(dataclasses.replace(spec, block=block))}"
-         f"{f' ({note})' if note else ''}, {_workers_text(args.workers)}; output in {out}/")
-    bar = _progress(args)
+    bar = _progress(args, f"{spec.name}: {spec.family}({spec.n}), schemes "
+                    f"{', '.join(args.schemes)} at spacings "
+                    f"{', '.join(f'{h:g}' for h in args.spacings)} on one noise field, "
+                    f"{_blocks(dataclasses.replace(spec, block=block))}"
+                    f"{f' ({note})' if note else ''}, {_workers_text(args.workers)}; "
+                    f"output in {out}/")
     try:
         outcome = run_study(spec, spacings=args.spacings, schemes=args.schemes, out=out,
                             workers=args.workers, resume=args.resume, fresh=args.fresh,
@@ -412,18 +428,18 @@ def _cmd_spec(args) -> int:
         print(spec.text, end="" if spec.text.endswith("\n") else "\n")
         return 0
     run = "" if spec.samples is None else f", {spec.samples} samples (seed {spec.seed})"
-    print(f"{args.check}: a valid spec for {args.purpose}: {spec.name}, "
-          f"{spec.family}({spec.n}) {spec.metric}, {spec.scheme} scheme, spacing "
-          f"{spec.spacing:g}, {len(spec.loops)} loop(s){run}; spec_sha256 {spec.sha256}")
+    print(printable(f"{args.check}: a valid spec for {args.purpose}: {spec.name}, "
+                    f"{spec.family}({spec.n}) {spec.metric}, {spec.scheme} scheme, spacing "
+                    f"{spec.spacing:g}, {len(spec.loops)} loop(s){run}; spec_sha256 "
+                    f"{spec.sha256}"))
     return 0
 
 
 def _cmd_demo(args) -> int:
     runs = sum(len(g[3]) for g in DEMO_GROUPS)
-    _say(args, f"{runs} runs ({', '.join(f'{f}({n})' for f, n, _, _ in DEMO_GROUPS)}; "
-         f"3 loops; schemes heat, gauss, linear and wilson where it applies), "
-         f"{_workers_text(args.workers or 2)}; output in {args.out}/")
-    bar = _progress(args)
+    bar = _progress(args, f"{runs} runs ({', '.join(f'{f}({n})' for f, n, _, _ in DEMO_GROUPS)}; "
+                    f"3 loops; schemes heat, gauss, linear and wilson where it applies), "
+                    f"{_workers_text(args.workers or 2)}; output in {args.out}/")
     try:
         outcome = run_demo(out=args.out, workers=args.workers, progress=bar,
                            fresh=args.fresh)
@@ -439,19 +455,12 @@ def _cmd_demo(args) -> int:
 
 
 def _cmd_decompactify(args) -> int:
-    from holonomy.exact import drawn_measure
     from holonomy.experiment._decompactify import (decompactify_results,
                                                    format_decompactify_table,
                                                    plot_decompactify)
 
     spec = load_spec(args.spec, purpose="exact", overrides=args.overrides)
-    problem = build_lattice(spec)  # refuses what exact refuses, before any work
-    for i, loop in enumerate(problem.loops):
-        drawn = drawn_measure(loop, spec.area_form())
-        if min(args.areas) <= drawn:
-            raise _UsageError(f"--areas: got {min(args.areas)!r}; expected total areas "
-                              f"larger than the drawn measure {drawn:.6g} of loops[{i}]")
-    obj = decompactify_results(spec, args.areas, args.order)
+    obj = decompactify_results(spec, args.areas, args.order)  # checks before any work
     if args.out:  # the folder belongs to this command and job, as for run and study
         job = f"{spec.sha256}:decompactify:{list(args.areas)}:{args.order}"
         with claim_folder(args.out, command="decompactify", identity=job, name=spec.name,

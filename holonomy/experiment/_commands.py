@@ -8,9 +8,10 @@ from __future__ import annotations
 
 import math
 import multiprocessing as mp
+import numbers
 import os
 import time
-from typing import Sequence
+from typing import Iterable, Sequence
 
 import numpy as np
 
@@ -21,6 +22,7 @@ from holonomy._series import _key_graph
 from holonomy.exact import ExactRouteError, exact_master_field, master_field_series
 
 from ._problems import build_lattice
+from ._progress import Progress
 from ._references import NOT_AVAILABLE, loop_references
 from ._report import clean, correlator_rows
 from ._runner import worker_init
@@ -152,6 +154,22 @@ def _order_iv(order) -> int:
     if not 0 <= order <= MAX_SERIES_ORDER:
         raise ValueError(f"`order` must be {rule}; got {order!r}.")
     return order
+
+
+def _loops_iv(loops, count: int) -> tuple[int, ...] | None:
+    """``loops`` of :func:`series_results`: None or loop indices from 0 to count - 1."""
+    rule = f"a sequence of loop indices from 0 to {count - 1} or None"
+    if loops is None:
+        return None
+    if isinstance(loops, (str, bytes)) or not isinstance(loops, Iterable):
+        raise TypeError(f"`loops` must be {rule}; got {loops!r}.")
+    out = tuple(loops)
+    for i in out:
+        if isinstance(i, bool) or not isinstance(i, numbers.Integral):
+            raise TypeError(f"`loops` must be {rule}; got {loops!r}.")
+        if not 0 <= i < count:
+            raise ValueError(f"`loops` must be {rule}; got the index {i!r}.")
+    return tuple(int(i) for i in out)
 
 
 class SeriesBudgetExceeded(ArithmeticError):
@@ -288,12 +306,14 @@ def series_results(spec: Spec | str | os.PathLike, order: int, *, loops: Sequenc
     """
     spec = spec_arg(spec, "series")
     order = _order_iv(order)
+    loops = _loops_iv(loops, len(spec.loops))
+    if not isinstance(rationals, bool):
+        raise TypeError(f"`rationals` must be True or False; got {rationals!r}.")
+    if progress is not None and not isinstance(progress, Progress):
+        raise TypeError("`progress` must be a Progress or None; got "
+                        f"{type(progress).__name__}.")
     if spec.large_n:
         return _master_field_results(spec, build_lattice(spec), order)
-    if loops is not None and (isinstance(loops, (str, bytes)) or not all(
-            isinstance(i, int) and not isinstance(i, bool) for i in loops)):
-        raise TypeError(f"`loops` must be a sequence of loop indices or None; got "
-                        f"{loops!r}.")
     limit = _series_deadline()
     if spec.closed:
         return _surface_series_results(spec, order, loops, limit, progress)

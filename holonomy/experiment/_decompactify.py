@@ -19,17 +19,20 @@ References
 from __future__ import annotations
 
 import math
+import numbers
 import os
+from typing import Iterable
 
 import numpy as np
 
-from holonomy.exact import (exact_surface_wilson_loop, exact_wilson_loop,
+from holonomy.exact import (drawn_measure, exact_surface_wilson_loop, exact_wilson_loop,
                             zero_instanton_series)
 
-from ._commands import geometry_problem
-from ._spec import Spec, SpecError
+from ._commands import _order_iv, geometry_problem
+from ._report import printable, short_label
+from ._spec import Spec, SpecError, spec_arg
 
-__all__ = ["decompactify_results", "format_decompactify_table", "plot_decompactify"]
+__all__ = ["decompactify_results", "areas_iv", "format_decompactify_table", "plot_decompactify"]
 
 _LIMIT_FACTORS = (1e3, 1e4, 1e5)  # T / A for the extrapolation to T -> infinity
 
@@ -40,15 +43,40 @@ def _series_at(group, rep, details, T, order):
                                  turns=details.get("turns", 1))
 
 
-def decompactify_results(spec: Spec, areas, order: int) -> dict:
-    """The ``decompactify`` command's object (see the module docstring)."""
+def areas_iv(areas) -> tuple[float, ...]:
+    """The total areas of ``decompactify``, checked (distinct finite numbers > 0, at
+    least one) and sorted: the one rule for the API and the command line's --areas.
+    A SpecError on ``--areas`` (TypeError for a value that is not a sequence of
+    numbers)."""
+    if isinstance(areas, (str, bytes)) or not isinstance(areas, Iterable) or any(
+            isinstance(T, bool) or not isinstance(T, numbers.Real) for T in areas):
+        raise TypeError(f"`areas` must be a sequence of total areas > 0; got {areas!r}.")
+    vals = tuple(float(T) for T in areas)
+    if not vals or any(not (0 < T < math.inf) for T in vals) or len(set(vals)) != len(vals):
+        raise SpecError("--areas", f"got {vals!r}; expected distinct finite total areas > 0 "
+                        "(at least one)")
+    return tuple(sorted(vals))
+
+
+def decompactify_results(spec: Spec | str | os.PathLike, areas, order: int) -> dict:
+    """The ``decompactify`` command's object (see the module docstring). ``spec`` is a
+    :class:`Spec` or the path of a spec file; ``areas`` the total areas T, each larger
+    than every loop's drawn measure; ``order`` the highest order (0 to 20)."""
+    spec = spec_arg(spec, "exact")
+    areas = areas_iv(areas)
+    order = _order_iv(order)
     if not spec.closed:
         raise SpecError("surface.kind", "got \"plane\"; expected a closed surface "
                         "([surface] with kind sphere, torus or closed) for decompactify")
     if spec.genus != 0:
         raise SpecError("surface.genus", f"got {spec.genus}; expected 0 (a sphere): the "
                         "zero-instanton series is the Poisson-resummed sphere's")
-    problem = geometry_problem(spec)
+    problem = geometry_problem(spec)  # refuses what exact refuses, before any work
+    for i, loop in enumerate(problem.loops):
+        drawn = drawn_measure(loop, spec.area_form())
+        if areas[0] <= drawn:
+            raise SpecError("--areas", f"got {areas[0]!r}; expected total areas larger "
+                            f"than the drawn measure {drawn:.6g} of loops[{i}]")
     group, rep, field = problem.group, problem.rep, problem.field
     lam = field.coupling
     out = []
@@ -78,20 +106,25 @@ def decompactify_results(spec: Spec, areas, order: int) -> dict:
             A, p = details["inside"], details.get("turns", 1)
             c = group.rep(rep).casimir if isinstance(rep, str) else rep.casimir
             if c is not None and p == 1:
-                plane["coefficients"] = [(-c * A / 2) ** m / math.factorial(m)
-                                         for m in range(order + 1)]
-            Ts = [A * f for f in _LIMIT_FACTORS]
-            cs = [_series_at(group, rep, details, T, order) for T in Ts]
-            x = [1 / T for T in Ts]
-            # linear extrapolation in 1/T from the two largest areas, and from the two
-            # smallest: their difference estimates the error
-            r2 = cs[2] + (cs[2] - cs[1]) * x[2] / (x[1] - x[2])
-            r1 = cs[1] + (cs[1] - cs[0]) * x[1] / (x[0] - x[1])
-            limit = {"coefficients": [float(v) for v in r2],
-                     "error": [float(v) for v in np.abs(r2 - r1) + 1e-9 * np.abs(r2)],
-                     "method": "extrapolated in 1/T from T/A = 1e3, 1e4, 1e5 (Richardson)",
-                     "minus_plane": None}
-            if plane["coefficients"] is not None:
+                plane["coefficients"] = [(-c * A / 2) ** m / math.factorial(m) + 0.0
+                                         for m in range(order + 1)]  # + 0.0: no -0
+            if not A > 0:  # no measure inside (a zero density): no scale to grow T by
+                note = ("the loop encloses no measure (A = 0): no extrapolation in 1/T; "
+                        "its value is 1 at every T")
+            else:
+                Ts = [A * f for f in _LIMIT_FACTORS]
+                cs = [_series_at(group, rep, details, T, order) for T in Ts]
+                x = [1 / T for T in Ts]
+                # linear extrapolation in 1/T from the two largest areas, and from the
+                # two smallest: their difference estimates the error
+                r2 = cs[2] + (cs[2] - cs[1]) * x[2] / (x[1] - x[2])
+                r1 = cs[1] + (cs[1] - cs[0]) * x[1] / (x[0] - x[1])
+                limit = {"coefficients": [float(v) for v in r2],
+                         "error": [float(v) for v in np.abs(r2 - r1) + 1e-9 * np.abs(r2)],
+                         "method": "extrapolated in 1/T from T/A = 1e3, 1e4, 1e5 "
+                                   "(Richardson)",
+                         "minus_plane": None}
+            if plane["coefficients"] is not None and limit["coefficients"] is not None:
                 limit["minus_plane"] = [float(a - b) for a, b in
                                         zip(limit["coefficients"], plane["coefficients"])]
         out.append({"loop": name, "rep": spec.rep, "rows": rows, "plane": plane,
@@ -109,7 +142,7 @@ def format_decompactify_table(obj: dict) -> str:
     """Rows per loop: area, exact, zero-instanton, coefficients; then plane and limit."""
     lines = []
     for r in obj["results"]:
-        lines.append(f"loop {r['loop']} ({r['rep']}), coupling {obj['coupling']:g}: "
+        lines.append(f"loop {printable(r['loop'])} ({r['rep']}), coupling {obj['coupling']:g}: "
                      "exact on the sphere, its zero-instanton sector and that sector's "
                      "series coefficients c_m of lambda^m")
         lines.append(f"{'area':>12} {'exact':>12} {'zero-inst.':>12}  coefficients")
@@ -130,7 +163,7 @@ def format_decompactify_table(obj: dict) -> str:
             lines.append(f"{'limit-plane':>12} {'':>12} {'':>12}  "
                          + " ".join(f"{c:.6g}" for c in lim["minus_plane"]))
         if r["note"]:
-            lines.append(f"note: {r['note']}")
+            lines.append(printable(f"note: {r['note']}"))
         lines.append("")
     return "\n".join(lines).rstrip()
 
@@ -164,7 +197,7 @@ def plot_decompactify(spec: Spec, obj: dict, out: str) -> str:
             ax.plot(lams, [complex(p.value).real for p in plane], "k", lw=2, label="plane")
         ax.set_xlabel("coupling lambda")
         ax.set_ylabel("exact Wilson loop (dashed: zero-instanton sector)")
-        ax.set_title(name)
+        ax.set_title(short_label(name))
         ax.legend(fontsize=8)
     os.makedirs(out, exist_ok=True)
     path = os.path.join(out, "decompactify.png")

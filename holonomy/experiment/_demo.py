@@ -42,7 +42,7 @@ from ._references import NOT_AVAILABLE
 from ._report import MISSING, _render, _write_text_atomic, clean, fmt_value, write_json_atomic
 from ._folder import claim_folder
 from ._runner import run_iv, run_spec, worker_pool
-from ._spec import SpecError, parse_spec
+from ._spec import MAX_SAMPLES, SpecError, parse_spec
 from ._store import versions
 
 __all__ = ["DEMO_GROUPS", "demo_spec_text", "run_demo", "DemoOutcome"]
@@ -226,8 +226,11 @@ def run_demo(out: str | Path = "whitegauge-demo", *, workers: int | None = None,
         raise TypeError("`out` must be a folder path (str or os.PathLike); got None.")
     out, executor, workers = run_iv(out=out, executor=executor, workers=workers,
                                     flags={"fresh": fresh}, progress=progress)
-    if isinstance(samples, bool) or not isinstance(samples, int) or samples < 2:
-        raise ValueError(f"`samples` must be an integer >= 2; got {samples!r}.")
+    rule = f"an integer from 2 to {MAX_SAMPLES:.0e} (run.samples' limit)"
+    if isinstance(samples, bool) or not isinstance(samples, int):
+        raise TypeError(f"`samples` must be {rule}; got {samples!r}.")
+    if not 2 <= samples <= MAX_SAMPLES:
+        raise ValueError(f"`samples` must be {rule}; got {samples!r}.")
     if workers is None:
         workers = min(2, os.cpu_count() or 1)
     with claim_folder(out, command="demo", identity=f"demo:{samples}",

@@ -31,15 +31,25 @@ class Progress:
     unit : str
         What is counted (``"block"``; the series command counts parts: per loop the
         scheme's series and the continuum series).
+    header : str, optional
+        The command's start line, printed on stderr (whether or not the bar is
+        enabled) when the first run starts: after the spec, the output folder and the
+        store have passed their checks, so a refusal is the only line on stderr.
     """
 
     def __init__(self, total: int | None = None, *, enabled: bool = True,
-                 unit: str = "block"):
+                 unit: str = "block", header: str | None = None):
         self.enabled = enabled
         self.unit = unit
+        self.header = header
         self.fixed = total is not None
         self.total = int(total or 0)
         self.bar = None
+
+    def _announce(self) -> None:
+        if self.header is not None:
+            print(self.header, file=sys.stderr, flush=True)
+            self.header = None
 
     def _open(self):
         if self.bar is None and self.enabled:
@@ -52,6 +62,7 @@ class Progress:
     def stage(self, name: str, blocks: int, done: int = 0) -> None:
         """A run named ``name`` of ``blocks`` blocks starts, ``done`` of them already
         in its store."""
+        self._announce()
         if not self.fixed:
             self.total += int(blocks)
         bar = self._open()
@@ -67,6 +78,7 @@ class Progress:
 
     def step(self, text: str) -> None:
         """Say what is being computed now (between blocks: references, plots)."""
+        self._announce()
         bar = self._open()
         if bar is not None:
             bar.set_description_str(text)

@@ -373,6 +373,9 @@ def _render(rows: list[list[str]], header: list[str]) -> str:
 def format_table(results: dict) -> str:
     """One row per number: loop, what it is (estimate / exact / continuum), value with
     its error, and where it comes from."""
+    if not isinstance(results, dict) or not isinstance(results.get("results"), list):
+        raise TypeError("`results` must be the results object of a run (a dict with a "
+                        f"'results' list, RunOutcome.results); got {type(results).__name__}.")
     rows = []
     for r in results["results"]:
         z = "" if r.get("z") is None else f"z = {r['z']:+.2f} vs exact"

@@ -44,7 +44,7 @@ import textwrap
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, Iterable
 
 from discretize import CURVES, AreaForm, Loop, closed_walk
 from discretize._axial import GAUGES
@@ -75,6 +75,7 @@ MAX_BLOCK = 10**6        # samples per block (memory is proportional to it)
 MAX_CELLS = 10**7        # cells of the grid that covers the loops at the spacing
 MAX_STEPS = 10**6        # count of one moves token
 
+MAX_SPEC_BYTES = 2**26   # size of a spec file (64 MiB; a 100000-vertex polygon is ~3 MB)
 MAX_SIDES = 100_000      # vertices of a sampled circle, ellipse or curve
 MAX_TURNS = 1000         # times one loop is traversed (its lattice path grows with it)
 
@@ -280,6 +281,7 @@ class Spec:
     surface: str = "plane"          # plane | sphere | torus | closed
     genus: int | None = None        # None on the plane
     total_area: float | None = None  # T, None on the plane
+    purpose: str | None = None      # what it was validated for (PURPOSES); None: unknown
 
     @property
     def correlator_indices(self) -> tuple[tuple[int, ...], ...]:
@@ -337,7 +339,12 @@ def load_spec(path: str | Path, *, purpose: str = "run", overrides=()) -> Spec:
                         f"got {type(path).__name__}.")
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8")
+        with open(p, "rb") as fh:  # bounded: a device such as /dev/zero never ends
+            data = fh.read(MAX_SPEC_BYTES + 1)
+        if len(data) > MAX_SPEC_BYTES:
+            raise SpecError(str(path), f"larger than {MAX_SPEC_BYTES} bytes; expected a "
+                            "TOML spec file")
+        text = data.decode("utf-8-sig")  # a leading byte-order mark is not part of TOML
     except FileNotFoundError:
         raise SpecError(str(path), "no such file; expected a TOML spec file") from None
     except IsADirectoryError:
@@ -362,8 +369,9 @@ def parse_spec(text: str, *, name: str = "experiment", purpose: str = "run",
     for key, value in (("name", name), ("source", source)):
         if not isinstance(value, str):
             raise TypeError(f"`{key}` must be a str; got {type(value).__name__}.")
-    if purpose not in PURPOSES:
+    if not isinstance(purpose, str) or purpose not in PURPOSES:
         raise ValueError(f"`purpose` must be one of {PURPOSES}; got {purpose!r}.")
+    overrides = _overrides_iv(overrides)
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -372,6 +380,9 @@ def parse_spec(text: str, *, name: str = "experiment", purpose: str = "run",
         where = f"line {m.group(1)}" if m else "end of file"
         msg = re.sub(r"\s*\(at (line \d+, column \d+|end of document)\)", "", msg)
         raise SpecError(source, f"{where}: malformed TOML: {msg}") from None
+    except RecursionError:  # tomllib recurses once per level of nested arrays or tables
+        raise SpecError(source, "malformed TOML: arrays or tables nested too deep for the "
+                        "parser; expected a spec (nested at most a few levels)") from None
     if overrides:
         data = apply_overrides(data, overrides)
         header = [f"# {source} with " + " ".join(f"--set {o}" for o in overrides)]
@@ -379,10 +390,27 @@ def parse_spec(text: str, *, name: str = "experiment", purpose: str = "run",
     return _spec_iv(data, text=text, default_name=name, purpose=purpose, source=source)
 
 
+def _overrides_iv(overrides: Any) -> tuple[str, ...]:
+    """``overrides``: a sequence of ``"KEY=VALUE"`` strings (None: none)."""
+    rule = 'a sequence of "KEY=VALUE" strings (like ["run.samples=1000"]) or None'
+    if overrides is None:
+        return ()
+    if isinstance(overrides, (str, bytes)) or not isinstance(overrides, Iterable):
+        raise TypeError(f"`overrides` must be {rule}; got {overrides!r}.")
+    out = tuple(overrides)
+    if not all(isinstance(o, str) for o in out):
+        raise TypeError(f"`overrides` must be {rule}; got {overrides!r}.")
+    return out
+
+
 def spec_arg(spec: Any, purpose: str) -> "Spec":
     """The ``spec`` argument of an entry point: a :class:`Spec`, or the path of a spec
     file (read with :func:`load_spec` for ``purpose``); a TypeError otherwise."""
     if isinstance(spec, Spec):
+        if spec.purpose != purpose:
+            # validated for another purpose (exact and series need no [run] and take a
+            # signed density or the master field): the same validator, for this one
+            parse_spec(spec.text, name=spec.name, purpose=purpose, source=spec.source)
         return spec
     if isinstance(spec, (str, os.PathLike)):
         return load_spec(spec, purpose=purpose)
@@ -402,6 +430,9 @@ def _override_value(key: str, text: str) -> Any:
     (``field.scheme=gauss``)."""
     try:
         return tomllib.loads(f"v = {text}")["v"]
+    except RecursionError:
+        raise SpecError(f"--set {key}", "the value is nested too deep for the parser; "
+                        "expected a TOML value such as 100000, 0.5, \"text\" or [1, 2]") from None
     except tomllib.TOMLDecodeError:
         if _BARE.match(text):
             return text
@@ -496,6 +527,8 @@ def _toml_text(data: dict) -> str:
 # --------------------------------------------------------------------------- helpers
 
 def _describe(value: Any) -> str:
+    if isinstance(value, int) and not isinstance(value, bool) and abs(value) > 10**30:
+        return f"an integer of {len(str(abs(value)))} digits"
     if isinstance(value, bool):
         return f"boolean {str(value).lower()}"
     if isinstance(value, str):
@@ -528,6 +561,17 @@ def _no_unknown(table: dict, path: str, allowed: tuple[str, ...]) -> None:
             raise SpecError(where, f"unknown key; accepted keys here: {', '.join(allowed)}")
 
 
+def _finite(value: Any) -> bool:
+    """True for an int or float (not a bool) that is a finite double: TOML integers
+    are unbounded, and one beyond double range is refused like inf, not an overflow."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return False
+    try:
+        return math.isfinite(value)
+    except OverflowError:
+        return False
+
+
 def _number(table: dict, key: str, path: str, *, rule: str = "a number",
             check=None, required: bool = True, default=None) -> float | None:
     if key not in table:
@@ -537,8 +581,10 @@ def _number(table: dict, key: str, path: str, *, rule: str = "a number",
     value = table[key]
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise SpecError(path, f"got {_describe(value)}; expected {rule}")
+    if not _finite(value):
+        raise SpecError(path, f"got {_describe(value)}; expected {rule}")
     value = float(value)
-    if not math.isfinite(value) or (check is not None and not check(value)):
+    if check is not None and not check(value):
         raise SpecError(path, f"got {value!r}; expected {rule}")
     return value
 
@@ -553,7 +599,7 @@ def _integer(table: dict, key: str, path: str, *, rule: str = "an integer",
     if isinstance(value, bool) or not isinstance(value, int):
         raise SpecError(path, f"got {_describe(value)}; expected {rule}")
     if check is not None and not check(value):
-        raise SpecError(path, f"got {value!r}; expected {rule}")
+        raise SpecError(path, f"got {_describe(value)}; expected {rule}")
     return value
 
 
@@ -578,7 +624,7 @@ def _point(value: Any, path: str) -> tuple[float, float]:
         raise SpecError(path, f"got {_describe(value)}; expected {rule}")
     out = []
     for i, v in enumerate(value):
-        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
+        if not _finite(v):
             raise SpecError(f"{path}[{i}]", f"got {_describe(v)}; expected a finite number")
         out.append(float(v))
     return (out[0], out[1])
@@ -639,9 +685,7 @@ def _density_iv(f: dict, purpose: str):
                                 "{rect = [x0, y0, x1, y1], value = v}")
             _no_unknown(item, path, ("rect", "value"))
             rect = item.get("rect")
-            if (not isinstance(rect, list) or len(rect) != 4 or any(
-                    isinstance(v, bool) or not isinstance(v, (int, float))
-                    or not math.isfinite(v) for v in rect)):
+            if not isinstance(rect, list) or len(rect) != 4 or not all(map(_finite, rect)):
                 raise SpecError(f"{path}.rect", f"got {_describe(rect)}; expected "
                                 "[x0, y0, x1, y1], four finite numbers")
             x0, y0, x1, y1 = (float(v) for v in rect)
@@ -790,7 +834,12 @@ def _loop_bbox(loop: LoopSpec, spacing: float) -> tuple[float, float, float, flo
 def _extent_iv(loops: tuple[LoopSpec, ...], spacing: float, reference: float | None,
                gauge: str) -> None:
     """Refuse a grid too large to allocate (huge coordinates or a tiny spacing)."""
-    boxes = [_loop_bbox(lp, spacing) for lp in loops]
+    boxes = []
+    for i, lp in enumerate(loops):
+        try:
+            boxes.append(_loop_bbox(lp, spacing))
+        except (ValueError, TypeError) as exc:  # a sampled curve the engine refuses
+            raise SpecError(f"loops[{i}]", str(exc)) from None
     x0, y0 = min(b[0] for b in boxes), min(b[1] for b in boxes)
     x1, y1 = max(b[2] for b in boxes), max(b[3] for b in boxes)
     loops_only = ((x1 - x0) / spacing + 3) * ((y1 - y0) / spacing + 3)
@@ -961,7 +1010,7 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
         family=family, n=n, metric=metric, coupling=coupling, spacing=spacing,
         gauge=gauge, reference=reference, scheme=scheme, density=density, loops=loops,
         rep=rep, samples=samples, block=block, seed=seed, source=source,
-        correlators=correlators,
+        correlators=correlators, purpose=purpose,
     )
 
 

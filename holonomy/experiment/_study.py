@@ -88,7 +88,7 @@ import json
 import numpy as np
 from scipy import optimize, stats
 
-from holonomy import StudyProblem, run_study_block, study_schemes
+from holonomy import StudyProblem, run_study_block, study_schemes, study_spacings
 from holonomy._estimate import BlockSums
 from holonomy._schemes import EXPECTED_RATES, get_scheme
 from noise import ArgumentError
@@ -359,7 +359,10 @@ def run_study(spec: Spec, *, spacings: Sequence[float], schemes: Sequence[str] |
                                 or not isinstance(schemes, Sequence)):
         raise TypeError(f"`schemes` must be a sequence of scheme names or None; got "
                         f"{schemes!r}.")
-    spacings = tuple(sorted((float(h) for h in spacings), reverse=True))
+    try:  # the command line's --spacings follow the same rule
+        spacings = study_spacings(spacings)
+    except ArgumentError as exc:
+        raise SpecError("--spacings", exc.rule) from None
     schemes = study_schemes() if schemes is None else tuple(schemes)
     start = datetime.now(timezone.utc)
     t0 = time.perf_counter()

@@ -139,6 +139,11 @@ def parse_rep(spec: str, family: str, N: int) -> tuple[str, Fraction | int | Non
             f"'power:k'; got {spec!r}."
         )
     s = spec.strip().lower()
+    if not s.isascii():  # int() and Fraction() would read other scripts' digits
+        raise ArgumentError(
+            "rep", f"got {spec!r}; expected {_REP_RULE} in ASCII",
+            f"`spec` must be 'fundamental', 'adjoint', 'trivial', 'spin:j' (SU(2), Sp(1)) or "
+            f"'power:k' in ASCII; got {spec!r}.")
     if s in ("fundamental", "defining", "fund"):
         return ("fundamental", None)
     if s in ("adjoint", "adj"):

@@ -21,10 +21,11 @@ from pathlib import Path
 
 import pytest
 
+from holonomy import Field
 from holonomy.cli import main
 from holonomy.experiment import (RunStore, SpecError, StoreMismatch, StoreUnusable, claim_folder,
-                                 default_out, exact_results, load_spec, parse_spec,
-                                 run_spec, run_study, series_results)
+                                 default_out, exact_results, format_table, load_spec,
+                                 parse_spec, run_demo, run_spec, run_study, series_results)
 
 SPEC = '''name = "robust"
 [group]
@@ -384,6 +385,15 @@ def test_workers_exit_within_2_s_after_sigkill_of_the_main_process(tmp_path):
 # --------------------------------------------------------------------------- API
 
 SPEC_OBJ = parse_spec(SPEC)
+SPHERE = '[surface]\nkind = "sphere"\narea = 4.0\n'
+SPHERE_OBJ = parse_spec(SPEC + SPHERE, purpose="exact")
+
+
+def _decompactify(*args):
+    from holonomy.experiment._decompactify import decompactify_results
+    return decompactify_results(*args)
+
+
 API_CASES = [
     ("parse_spec-None", lambda: parse_spec(None), TypeError, "`text` must be the TOML text"),
     ("parse_spec-dict", lambda: parse_spec({"name": "x"}), TypeError, "got dict"),
@@ -419,6 +429,49 @@ API_CASES = [
      "`spacings` must be a sequence"),
     ("study-workers", lambda: run_study(SPEC_OBJ, spacings=[0.5, 0.25], workers=0),
      ValueError, "`workers`"),
+    # the second adversarial pass (issue 17 items 5 and 8)
+    ("parse_spec-overrides-str", lambda: parse_spec(SPEC, overrides="run.samples=3"),
+     TypeError, "`overrides` must be a sequence"),
+    ("parse_spec-overrides-int", lambda: parse_spec(SPEC, overrides=[3]), TypeError,
+     "`overrides` must be a sequence"),
+    ("run_spec-spec-for-exact", lambda: run_spec(parse_spec(SPEC.split("[run]")[0],
+                                                            purpose="exact")),
+     SpecError, "^run: missing table"),
+    ("run_study-sphere-spec", lambda: run_study(parse_spec(SPEC + SPHERE, purpose="exact"),
+                                                spacings=[0.25, 0.125]),
+     SpecError, "^surface.kind: "),
+    ("series-loops-out-of-range", lambda: series_results(SPEC_OBJ, 1, loops=[2]), ValueError,
+     "`loops` must be a sequence of loop indices from 0 to 1"),
+    ("series-loops-negative", lambda: series_results(SPEC_OBJ, 1, loops=[-1]), ValueError,
+     "`loops`"),
+    ("series-loops-int", lambda: series_results(SPEC_OBJ, 1, loops=0), TypeError, "`loops`"),
+    ("series-rationals", lambda: series_results(SPEC_OBJ, 1, rationals="no"), TypeError,
+     "`rationals` must be True or False"),
+    ("series-progress", lambda: series_results(SPEC_OBJ, 1, progress="x"), TypeError,
+     "`progress` must be a Progress"),
+    ("study-spacings-repeated", lambda: run_study(SPEC_OBJ, spacings=[0.25, 0.25]), SpecError,
+     "^--spacings: .*distinct"),
+    ("study-spacings-bool", lambda: run_study(SPEC_OBJ, spacings=[True, 0.5]), TypeError,
+     "`spacings`"),
+    ("study-spacings-beyond-double", lambda: run_study(SPEC_OBJ, spacings=[1e-320, 0.25]),
+     SpecError, "^--spacings: .*powers of 2"),
+    ("study-schemes-repeated", lambda: run_study(SPEC_OBJ, spacings=[0.25, 0.125],
+                                                 schemes=["heat", "heat"]),
+     SpecError, "^--schemes: .*distinct"),
+    ("decompactify-areas-str", lambda: _decompactify(SPHERE_OBJ, "4,8", 2), TypeError,
+     "`areas`"),
+    ("decompactify-areas-empty", lambda: _decompactify(SPHERE_OBJ, [], 2), SpecError,
+     "^--areas: "),
+    ("decompactify-areas-small", lambda: _decompactify(SPHERE_OBJ, [0.3], 2), SpecError,
+     "^--areas: .*drawn measure"),
+    ("decompactify-order", lambda: _decompactify(SPHERE_OBJ, [4.0], 21), ValueError,
+     "`order` must be an integer from 0 to 20"),
+    ("decompactify-spec", lambda: _decompactify(3, [4.0], 2), TypeError, "`spec` must be"),
+    ("format_table-None", lambda: format_table(None), TypeError, "`results` must be"),
+    ("demo-samples-huge", lambda: run_demo(out="never-written", samples=10**15), ValueError,
+     "`samples` must be an integer from 2"),
+    ("field-reference-nan", lambda: Field(coupling=1.0, spacing=0.5, reference=float("nan")),
+     ValueError, "`reference` must be a finite number"),
 ]
 
 
@@ -524,6 +577,15 @@ INVALID = [
     ("unicode-digit-in-moves", _m(('"R2 U1 L1 U1 L1 D2"', '"R\u0662 U1 L1 U1 L1 D2"')),
      "loops[1].moves"),
     ("nul-in-name", _m(('name = "robust"', 'name = "a\\u0000"')), "name"),
+    # the second adversarial pass (issue 17 items 5 and 8)
+    ("integer-beyond-double", _m(("coupling = 1.0", "coupling = 1" + "0" * 400)),
+     "field.coupling"),
+    ("vertex-beyond-double", _m(("[1.0, 0.0], [1.0, 0.5]", "[1" + "0" * 400 + ", 0.0], "
+                                 "[1.0, 0.5]")), "loops[0].vertices[1][0]"),
+    ("degenerate-ellipse", _m((BOX, "ellipse = { center = [0.5, 0.5], radii = [0.4, 1e-300], "
+                                    "sides = 8 }")), "loops[0]"),
+    ("unicode-digit-in-rep", _m(("[run]", '[observable]\nrep = "spin:\u0661"\n[run]')),
+     "observable.rep"),
 ]
 COMMANDS = {"run": ["--quiet"], "exact": [], "series": ["--order", "2"],
             "study": ["--spacings", "0.25,0.125", "--quiet"], "spec": []}
@@ -628,3 +690,136 @@ def test_study_ladder_is_checked_before_any_work(ladder, words, tmp_path, capsys
                  "--quiet"]) == 2
     _one_line(capsys.readouterr().err, "whitegauge: error: --spacings: ", *words)
     assert not out.exists()
+
+
+# --------------------------------------------------------------------------- second pass
+# Classes found by the second adversarial pass over every command (issue 17 items 5, 8).
+
+def _sphere_file(tmp_path, text=None):
+    return _write(tmp_path, (text or SPEC) + SPHERE, "sphere.toml")
+
+
+# a refusal raised after the spec is read (output folder, problem, store) must still be
+# the only line on stderr: the start line waits for the first block (no --quiet here)
+LATE_REFUSALS = [
+    ("run-out-under-a-file", lambda spec, tmp: ["run", spec, "--out", f"{tmp}/afile/sub"],
+     "--out"),
+    ("study-out-under-a-file", lambda spec, tmp: ["study", spec, "--spacings", "0.25,0.125",
+                                                  "--out", f"{tmp}/afile/sub"], "--out"),
+    ("demo-out-under-a-file", lambda spec, tmp: ["demo", "--out", f"{tmp}/afile/sub"],
+     "--out"),
+    ("study-ladder-too-fine", lambda spec, tmp: [
+        "study", spec, "--spacings", ",".join(str(0.25 / 2**k) for k in range(16)), "--out",
+        f"{tmp}/o"], "--spacings"),
+]
+
+
+@pytest.mark.parametrize("argv,key", [c[1:] for c in LATE_REFUSALS],
+                         ids=[c[0] for c in LATE_REFUSALS])
+def test_late_refusal_is_the_only_line_without_quiet(argv, key, tmp_path, capsys):
+    (tmp_path / "afile").write_text("x")
+    spec = str(_write(tmp_path))
+    assert main(argv(spec, str(tmp_path))) == 2
+    _one_line(capsys.readouterr().err, f"whitegauge: error: {key}: ")
+    assert not (tmp_path / "o").exists()
+
+
+@pytest.mark.parametrize("text,key", [c[1:] for c in INVALID[:2]], ids=[c[0] for c in INVALID[:2]])
+def test_invalid_problem_without_quiet_is_one_line(text, key, tmp_path, capsys):
+    """``run`` and ``study`` refuse a problem the engine builds (after the spec's own
+    checks) with one line even when they would print a start line."""
+    spec = str(_write(tmp_path, text))
+    for argv in (["run", spec, "--out", str(tmp_path / "r")],
+                 ["study", spec, "--spacings", "0.25,0.125", "--out", str(tmp_path / "s")]):
+        assert main(argv) == 2
+        _one_line(capsys.readouterr().err, f"whitegauge: error: {key}: ")
+
+
+# spec files that are not specs: every command refuses them on the file's path
+FILE_CASES = [
+    ("nested-too-deep", lambda p: p.write_text("x = " + "[" * 5000 + "]" * 5000 + "\n" + SPEC),
+     "nested too deep"),
+    ("endless-device", None, "larger than"),
+]
+
+
+@pytest.mark.parametrize("command", list(COMMANDS))
+@pytest.mark.parametrize("make,piece", [c[1:] for c in FILE_CASES],
+                         ids=[c[0] for c in FILE_CASES])
+def test_spec_files_that_are_not_specs(make, piece, command, tmp_path, capsys, monkeypatch):
+    if make is None:  # a device that never ends (the size limit lowered: a short read)
+        if not Path("/dev/zero").exists():
+            pytest.skip("no /dev/zero")
+        import holonomy.experiment._spec as spec_module
+        monkeypatch.setattr(spec_module, "MAX_SPEC_BYTES", 4096)
+        spec = Path("/dev/zero")
+    else:
+        spec = tmp_path / "spec.toml"
+        make(spec)
+    out = tmp_path / command
+    assert main(_command_args(command, spec, out)) == 2
+    _one_line(capsys.readouterr().err, f"whitegauge: error: {spec}: ", piece)
+    assert not out.exists()
+
+
+def test_byte_order_mark_is_not_part_of_the_spec(tmp_path, capsys):
+    spec = tmp_path / "bom.toml"
+    spec.write_bytes(b"\xef\xbb\xbf" + SPEC.encode())
+    assert main(["spec", "--check", str(spec)]) == 0
+    assert load_spec(spec).sha256 == parse_spec(SPEC).sha256
+
+
+# command-line options: numbers in ASCII only, a folder path that is not empty
+OPTION_CASES = [
+    ("workers-arabic-digit", ["run", "{spec}", "--workers", "\u0662"], "--workers"),
+    ("order-arabic-digit", ["series", "{spec}", "--order", "\u0662"], "--order"),
+    ("spacings-arabic-digit", ["study", "{spec}", "--spacings", "\u0660.25,0.125"],
+     "--spacings"),
+    ("spacings-repeated", ["study", "{spec}", "--spacings", "0.25,0.125,0.25"], "--spacings"),
+    ("spacings-beyond-double", ["study", "{spec}", "--spacings", "1e-320,0.25"],
+     "--spacings"),
+    ("areas-arabic-digit", ["decompactify", "{sphere}", "--areas", "\u0664", "--order", "1"],
+     "--areas"),
+    ("areas-below-the-loop", ["decompactify", "{sphere}", "--areas", "0.3,4", "--order", "1"],
+     "--areas"),
+    ("out-empty-run", ["run", "{spec}", "--out", ""], "--out"),
+    ("out-empty-study", ["study", "{spec}", "--spacings", "0.25,0.125", "--out", ""], "--out"),
+    ("out-empty-demo", ["demo", "--out", ""], "--out"),
+    ("out-empty-decompactify", ["decompactify", "{sphere}", "--areas", "4", "--order", "1",
+                                "--out", ""], "--out"),
+]
+
+
+@pytest.mark.parametrize("argv,key", [c[1:] for c in OPTION_CASES],
+                         ids=[c[0] for c in OPTION_CASES])
+def test_option_values(argv, key, tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    files = {"{spec}": str(_write(tmp_path)), "{sphere}": str(_sphere_file(tmp_path))}
+    before = sorted(p.name for p in tmp_path.iterdir())
+    assert main([files.get(a, a) for a in argv]) == 2
+    _one_line(capsys.readouterr().err, f"whitegauge: error: {key}: ")
+    assert sorted(p.name for p in tmp_path.iterdir()) == before
+
+
+def test_names_are_escaped_in_every_table(tmp_path, capsys):
+    text = SPEC.replace('name = "robust"', 'name = "r\\u001b[2J"').replace(
+        'name = "box"', 'name = "b\\u0007ox"')
+    for argv in (["spec", "--check", str(_write(tmp_path, text))],
+                 ["decompactify", str(_sphere_file(tmp_path, text)), "--areas", "4",
+                  "--order", "1"]):
+        assert main(argv) == 0
+        out = capsys.readouterr().out
+        assert "\x1b" not in out and "\x07" not in out, out
+
+
+def test_decompactify_of_a_loop_without_measure(tmp_path, capsys):
+    """A zero density: no area to scale T by; the limit is null with a note (it was an
+    internal error), the values are 1 (no measure inside, README.md Conventions)."""
+    spec = _sphere_file(tmp_path, SPEC.replace('scheme = "heat"',
+                                               'scheme = "heat"\ndensity = 0.0'))
+    assert main(["decompactify", str(spec), "--areas", "4,8", "--order", "2", "--json"]) == 0
+    obj = json.loads(capsys.readouterr().out)
+    for r in obj["results"]:
+        assert r["limit"]["coefficients"] is None and "A = 0" in r["note"]
+        # the character sum in double precision: rounding only (truncation < 1e-17)
+        assert all(abs(row["exact"] - 1.0) < 1e-12 for row in r["rows"])
