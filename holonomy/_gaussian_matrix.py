@@ -16,8 +16,8 @@ from dataclasses import dataclass
 import sympy
 
 from ._continuum_series import _rational
-from ._series import exp_product_series
-from .exact import gaussian_step
+from ._series import MAX_GROUP_FACTOR_WORK, exp_product_series, group_factor_route
+from .exact import ExactRouteError, gaussian_step
 
 __all__ = ["gaussian_matrix", "GaussianMatrixValue"]
 
@@ -83,6 +83,14 @@ def gaussian_matrix(group, rep, area: float, coupling: float, order: int = 4
     -------
     GaussianMatrixValue
 
+    Raises
+    ------
+    holonomy.exact.ExactRouteError
+        ``limit == "size"``: the series' group factors would exceed the work limit
+        :data:`holonomy._series.MAX_GROUP_FACTOR_WORK` (large representations, e.g. the
+        adjoint of SU(6) or the defining representation of Sp(16), at order 4); checked
+        before any contraction.
+
     References
     ----------
     .. [1] M. Staudacher and W. Krauth, "Two-dimensional QCD in the Wu-Mandelstam-
@@ -115,6 +123,16 @@ def gaussian_matrix(group, rep, area: float, coupling: float, order: int = 4
     A = _rational(area)
     exact_ok = (A is not None and rep_obj.name in ("fundamental", "defining")
                 and group.family in ("U", "SU", "SO") and _rational(group.k) is not None)
+    if not exact_ok:  # exact factors have a direct route; float ones a work limit
+        for j in range(2, int(order) + 1):
+            route, work = group_factor_route(group.dim, rep_obj.dim, 2 * j,
+                                             math.prod(range(1, 2 * j, 2)))
+            if route == "einsum" and work > MAX_GROUP_FACTOR_WORK:
+                raise ExactRouteError(
+                    "size", f"the Gaussian-matrix series at order {j} in {rep_obj.name!r} "
+                    f"(dimension {rep_obj.dim}) of a group of dimension {group.dim} needs "
+                    f"about {work:.1e} operations, above the limit "
+                    f"{MAX_GROUP_FACTOR_WORK:.1e}")
     if exact_ok:
         res = exp_product_series(group, sympy.Matrix([[A]]), int(order), rep=rep_obj,
                                  exact=True)

@@ -87,7 +87,8 @@ from ._lie_words import (
     pairing_group_factor,
 )
 
-__all__ = ["SeriesResult", "exp_product_series", "factor_product_series"]
+__all__ = ["SeriesResult", "exp_product_series", "factor_product_series",
+           "group_factor_route", "MAX_GROUP_FACTOR_WORK"]
 
 
 @dataclass
@@ -254,13 +255,46 @@ def _transitions(key: tuple[int, ...], max_total: int, last: bool) -> tuple:
     return tuple(out)
 
 
+#: Work limit of the group factors G(D) of one order (`group_factor_route`): estimated
+#: multiply-adds, about 10 s on one core (measured at order 4: the adjoint of SU(5),
+#: 2.0e10, 9.6 s; of SO(7), 9.2e9, 6.3 s; the defining representation of U(32), whose
+#: Casimir tensor alone is 1.5e11, took 240 s). Callers that must finish within a
+#: budget check it first (`gaussian_matrix`: null with a size-limit note).
+MAX_GROUP_FACTOR_WORK = 2.5e10
+#: Elements of the shared route's open-index tensors (D^2 d^(n/2)) below which it is
+#: always taken, and up to which it is taken when the einsum route is over the work limit
+#: (64 MB of complex numbers).
+_SHARED_SMALL = 200_000
+_SHARED_MAX = 4_000_000
+
+
+def group_factor_route(d: int, D: int, n: int, pairings: int) -> tuple[str, float]:
+    """The route `_group_factors` takes for ``pairings`` pairings of ``n`` positions in a
+    representation of dimension D of a group of dimension d, and its estimated work.
+
+    ``("shared", elements)``: the depth-first contraction, whose open-index tensors have
+    ``D^2 d^(n/2)`` elements (always within the work limit); ``("einsum", work)``: the
+    Casimir tensor (``d D^4`` multiply-adds in numpy's unblocked einsum, weighted 150
+    against blocked products: 75 s for the defining representation of U(32)) and one
+    contraction of ``n/2`` of them per pairing, about ``D^(n/2 + 2)`` multiply-adds
+    each (the cycle of n matrix indices cut at two places). The work limit is
+    :data:`MAX_GROUP_FACTOR_WORK`.
+    """
+    shared = d ** (n // 2) * D * D
+    work = float(pairings) * float(D) ** (n // 2 + 2) + 150.0 * float(d) * float(D) ** 4
+    if shared <= _SHARED_SMALL or (work > MAX_GROUP_FACTOR_WORK and shared <= _SHARED_MAX):
+        return "shared", float(shared)
+    return "einsum", work
+
+
 def _group_factors(B: np.ndarray, n: int, keys: list,
                    twist: np.ndarray | None = None) -> dict:
     """G(D) for the pairings ``keys`` of n positions: shared depth-first contraction when
-    the open-index tensors stay small, else one einsum per pairing. ``twist``: a matrix
-    in front of the word (`all_pairing_group_factors`; the shared route only)."""
+    the open-index tensors stay small, else one einsum per pairing (`group_factor_route`).
+    ``twist``: a matrix in front of the word (`all_pairing_group_factors`; the shared
+    route only)."""
     d, D = B.shape[0], B.shape[1]
-    if twist is not None or d ** (n // 2) * D * D <= 200_000:
+    if twist is not None or group_factor_route(d, D, n, len(keys))[0] == "shared":
         return all_pairing_group_factors(B, n, twist)
     omega = np.einsum("aij,akl->ijkl", B, B)
     return {key: pairing_group_factor(omega, key) for key in keys}
@@ -606,9 +640,19 @@ def _finish(group, states, M, rep_name, B, D, exact, c_exact, twist=None) -> Ser
     diagrams = 0
     kfrac = Fraction(str(sympy.nsimplify(group.k))) if exact else None
     for n, sums in complete.items():
-        factors = _group_factors(B, n, list(sums), twist)
+        # exact factors over the work limit: summed in Fractions from the delta form
+        # (the value the floats are rounded to), skipping the float contraction
+        route, work = group_factor_route(B.shape[0], D, n, len(sums))
+        direct = (exact and twist is None and route == "einsum"
+                  and work > MAX_GROUP_FACTOR_WORK)
+        factors = None if direct else _group_factors(B, n, list(sums), twist)
         j = n // 2
         for key, s_val in sums.items():
+            if direct:
+                G = _exact_factor_fraction(group.family, key, int(group.n), kfrac)
+                coeffs[j] = coeffs[j] + G * s_val
+                diagrams += 1
+                continue
             G = factors[key]
             G = G.real if abs(G.imag) <= 1e-12 * max(1.0, abs(G)) else G
             if exact:

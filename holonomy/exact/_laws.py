@@ -42,6 +42,11 @@ class ExactRouteError(ValueError):
     def __init__(self, limit: str, message: str):
         super().__init__(f"{limit} limit: {message}")
         self.limit = limit
+        self.message = message
+
+    def __reduce__(self):
+        # rebuilt from both arguments: the series command's child processes send it back
+        return (type(self), (self.limit, self.message))
 
 
 @dataclass(frozen=True)

@@ -17,8 +17,8 @@ from itertools import combinations
 from discretize import Loop
 from holonomy import LatticeProblem, gaussian_matrix, get_scheme
 from holonomy._estimate import joint_cumulant
-from holonomy.exact import (NOT_AVAILABLE, exact_surface_wilson_loop, exact_wilson_loop,
-                            heat_lattice_value, loop_value)
+from holonomy.exact import (NOT_AVAILABLE, ExactRouteError, exact_surface_wilson_loop,
+                            exact_wilson_loop, heat_lattice_value, loop_value)
 
 __all__ = ["LoopReference", "CorrelatorReference", "lattice_references", "loop_references",
            "correlator_references", "surface_references", "NOT_AVAILABLE",
@@ -42,6 +42,8 @@ def gaussian_matrix_field(group, rep, loop, coupling, area, order: int = GAUSSIA
                       "for simple loops only)")
     try:
         g = gaussian_matrix(group, rep, ev.details["measure"], coupling, order)
+    except ExactRouteError as exc:  # over the work limit: a note naming it
+        return None, f"{NOT_AVAILABLE} ({exc})"
     except OverflowError:  # lambda * area beyond double precision (density ~1e300)
         return None, (f"{NOT_AVAILABLE} (its coefficients overflow double precision at "
                       "this coupling and density)")

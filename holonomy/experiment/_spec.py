@@ -27,9 +27,9 @@ The keys (a contract that scripts rely on)::
 
 Unknown keys are refused (a misspelt key would otherwise be silently ignored). Sizes
 that could hang the machine or exhaust its memory are refused before any numerics
-(:data:`LIMITS`: matrix size <= 32, spin dimension <= 64, power <= 64, samples <=
-1e12, block <= 1e6, grid cells <= 1e7, steps per moves token <= 1e6, coupling in
-[1e-100, 1e100], a numeric metric in [1e-6, 1e6]).
+(:data:`LIMITS`: matrix size <= 32, representation dimension <= 64 (spin:j and adjoint),
+power <= 64, samples <= 1e12, block <= 1e6, grid cells <= 1e7, steps per moves token
+<= 1e6, coupling in [1e-100, 1e100], a numeric metric in [1e-6, 1e6]).
 """
 
 from __future__ import annotations
@@ -54,8 +54,8 @@ from .._formal_estimate import formal_schemes
 from .._schemes import SCHEMES
 from .._surface_weights import SURFACE_SCHEMES
 from ..exact import drawn_measure
-from ..groups import FAMILIES, METRICS, MIN_N, matrix_size, parse_metric, parse_n, parse_rep, \
-    rep_name
+from ..groups import FAMILIES, MAX_REP_DIM, METRICS, MIN_N, check_rep_dimension, matrix_size, \
+    parse_metric, parse_n, parse_rep, rep_name
 
 __all__ = ["SpecError", "LoopSpec", "Spec", "load_spec", "parse_spec", "PURPOSES",
            "FAMILIES", "METRICS", "GAUGES", "SCHEMES", "LIMITS", "SPEC_KEYS",
@@ -68,7 +68,7 @@ DEFAULT_BLOCK = 4096
 # Size limits, checked before any numerics so that a typo cannot hang the machine or
 # exhaust its memory (each is far above what a run on one machine can use):
 MAX_MATRIX = 32          # matrix size of the group (U(32), SU(32), SO(32), Sp(16))
-MAX_REP_DIM = 64         # dimension of a spin:j representation (2j + 1)
+# MAX_REP_DIM (holonomy.groups): dimension of a spin:j (2j + 1) or adjoint representation
 MAX_POWER = 64           # k of power:k
 MAX_SAMPLES = 10**12     # samples of one run
 MAX_BLOCK = 10**6        # samples per block (memory is proportional to it)
@@ -146,7 +146,9 @@ SPEC_KEYS: tuple[tuple[str, str, str], ...] = (
      "...] to estimate with its connected part and compare with its exact value", "none"),
     ("correlators[i].loops", "names of two or more distinct loops of the spec", "required"),
     ("observable.rep", "`fundamental`, `adjoint`, `trivial`, `spin:j` (SU(2), j = 0, "
-     f"1/2, 1, ...) or `power:k` (1 <= k <= {MAX_POWER})", "`fundamental`"),
+     f"1/2, 1, ...) or `power:k` (1 <= k <= {MAX_POWER}); of dimension at most "
+     f"{MAX_REP_DIM} (spin:j: 2j + 1; adjoint: the group's, so U(n) and SU(n) n <= 8, "
+     "SO(n) n <= 11, Sp(n) n <= 5)", "`fundamental`"),
     ("run.samples", f"number of samples, 1 to {MAX_SAMPLES:.0e}",
      "required for run and study"),
     ("run.block", f"samples per block, 1 to {MAX_BLOCK:.0e} (part of the spec: it fixes "
@@ -206,7 +208,8 @@ def format_spec_keys(*, markdown: bool = False) -> str:
     return "\n".join(lines)
 
 
-LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM, "power": MAX_POWER,
+LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM,
+          "representation dimension": MAX_REP_DIM, "power": MAX_POWER,
           "samples": MAX_SAMPLES, "block": MAX_BLOCK, "grid cells": MAX_CELLS,
           "steps per move": MAX_STEPS, "sides": MAX_SIDES, "turns": MAX_TURNS}
 
@@ -882,9 +885,11 @@ def _rep_iv(obs: dict, family: str, n: int) -> str:
         kind, arg = parse_rep(rep, family, matrix_size(family, n))
     except ArgumentError as exc:
         raise SpecError("observable.rep", exc.rule) from None
-    if kind == "spin" and 2 * arg + 1 > MAX_REP_DIM:
-        raise SpecError("observable.rep", f"got {rep!r}; expected spin:j with "
-                        f"2j + 1 <= {MAX_REP_DIM}")
+    if n != "inf":  # the master field has its own rule (fundamental or power:p)
+        try:
+            check_rep_dimension(rep, kind, arg, family, n)
+        except ArgumentError as exc:
+            raise SpecError("observable.rep", exc.rule) from None
     if kind == "power" and arg > MAX_POWER:
         raise SpecError("observable.rep", f"got {rep!r}; expected power:k with "
                         f"k <= {MAX_POWER}")

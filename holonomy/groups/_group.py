@@ -39,6 +39,7 @@ _TAYLOR_MAX_N = 8  # up to this size scaled Taylor beats a batched eigh (measure
 
 
 __all__ = ["Group", "make_group", "FAMILIES", "METRICS", "MIN_N", "matrix_size",
+           "algebra_dimension",
            "parse_family", "parse_n", "parse_metric"]
 
 #: the group families, their smallest ``n`` and the metric names: the one definition
@@ -51,6 +52,14 @@ METRICS = ("trace", "physics", "large-n")
 def matrix_size(family: str, n: int) -> int:
     """Matrix size of the defining representation (``Sp(n)`` acts on C^(2n))."""
     return 2 * n if family == "Sp" else n
+
+
+def algebra_dimension(family: str, n: int) -> int:
+    """Dimension of the Lie algebra (``Group.dim``) without building the group:
+    U(n) n^2, SU(n) n^2 - 1, SO(n) n (n - 1) / 2, Sp(n) n (2n + 1) (Hall 2015,
+    Section 1.2 and Chapter 3; tested against the bases' sizes)."""
+    return {"U": n * n, "SU": n * n - 1, "SO": n * (n - 1) // 2,
+            "Sp": n * (2 * n + 1)}[family]
 
 
 def parse_family(family, allowed: tuple[str, ...] = FAMILIES) -> str:

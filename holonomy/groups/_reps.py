@@ -16,6 +16,8 @@ Specs accepted by ``Group.rep``:
   k >= 2; its "dimension" is N (so that the normalized value at the identity is 1) and
   ``casimir`` is None.
 
+``spin:j`` and ``adjoint`` are refused above dimension :data:`MAX_REP_DIM` (64).
+
 The Casimir constant is computed from the basis: ``C = sum_a dpi(X_a)^2``, and if
 ``C = -c Id`` (checked to 1e-10) then ``casimir = c``; otherwise None.
 
@@ -43,7 +45,15 @@ import numpy as np
 from noise import ArgumentError
 
 __all__ = ["Representation", "make_representation", "parse_spin", "parse_rep", "rep_name",
-           "irreducible_representation"]
+           "irreducible_representation", "MAX_REP_DIM", "rep_dimension", "check_rep_dimension"]
+
+#: The largest dimension of a representation named by a spec string (``spin:j``: 2j + 1;
+#: ``adjoint``: the group's dimension). Representation matrices are dense ``dim x dim``
+#: per sample and the exact routes contract tensors of ``dim`` (``adjoint`` of U(32),
+#: dimension 1024, asked for 16 GiB in `casimir_operator`); at 64 every accepted case
+#: finishes within the budgets of DEVELOPERS.md ("Limits, faults and test hooks").
+#: ``fundamental`` and ``power:k`` have the matrix size as dimension, ``trivial`` 1.
+MAX_REP_DIM = 64
 
 
 @dataclass(frozen=True, eq=False)
@@ -175,14 +185,65 @@ def parse_rep(spec: str, family: str, N: int) -> tuple[str, Fraction | int | Non
         f"'power:k'; got {spec!r}.")
 
 
+def rep_dimension(kind: str, arg, family: str, n: int) -> int:
+    """The dimension of the parsed representation ``(kind, arg)`` (:func:`parse_rep`) of
+    ``family(n)``, without building it: ``spin:j`` 2j + 1, ``adjoint`` the group's
+    dimension, ``fundamental`` and ``power:k`` the matrix size, ``trivial`` 1."""
+    from ._group import algebra_dimension, matrix_size  # _group imports this module
+
+    if kind == "spin":
+        return int(2 * arg + 1)
+    if kind == "adjoint":
+        return algebra_dimension(family, n)
+    if kind == "trivial":
+        return 1
+    return matrix_size(family, n)
+
+
+def _count(x: int) -> str:
+    """An integer for a message: in full up to 18 digits, else its order of magnitude."""
+    return str(x) if x < 10**18 else f"about 1e{len(str(x)) - 1}"
+
+
+def check_rep_dimension(spec: str, kind: str, arg, family: str, n: int) -> int:
+    """The dimension of ``spec`` (parsed as ``(kind, arg)``) of ``family(n)``, refused with
+    :class:`noise.ArgumentError` (argument ``rep``) above :data:`MAX_REP_DIM`: the one
+    rule that ``make_representation`` and the spec's ``observable.rep`` apply."""
+    dim = rep_dimension(kind, arg, family, n)
+    if dim <= MAX_REP_DIM or kind not in ("spin", "adjoint"):  # the others: matrix size
+        return dim
+    if kind == "spin":
+        rule = (f"got {spec!r}, of dimension {_count(dim)}; expected spin:j with "
+                f"2j + 1 <= {MAX_REP_DIM} (the representation dimension limit)")
+    else:
+        rule = (f"got {spec!r} of {family}({n}), of dimension {dim}; expected a "
+                f"representation of dimension <= {MAX_REP_DIM} (the adjoint of U(n) or "
+                f"SU(n) n <= 8, SO(n) n <= 11, Sp(n) n <= 5)")
+    raise ArgumentError("rep", rule, f"`rep` {rule}.")
+
+
 def rep_name(kind: str, arg) -> str:
     """The canonical name of a parsed representation (``"spin:3/2"``, ``"power:2"``)."""
     return kind if arg is None else f"{kind}:{arg}"
 
 
 def make_representation(group, spec: str) -> Representation:
-    """Build the representation ``spec`` of ``group`` (see the module docstring)."""
+    """Build the representation ``spec`` of ``group`` (see the module docstring).
+
+    Raises
+    ------
+    noise.ArgumentError
+        Argument ``rep``: a spec outside the grammar (:func:`parse_rep`), or ``spin:j`` /
+        ``adjoint`` of dimension above :data:`MAX_REP_DIM` (:func:`check_rep_dimension`).
+    """
     kind, arg = parse_rep(spec, group.family, group.N)
+    check_rep_dimension(spec, kind, arg, group.family, group.n)
+    return _build(group, kind, arg)
+
+
+def _build(group, kind: str, arg) -> Representation:
+    """The representation of a parsed spec, with no size limit (the irreducibles of the
+    character sums, :func:`irreducible_representation`, go beyond it)."""
     if kind == "fundamental":
         # SO(2) acting on C^2 splits into two characters.
         r = Representation(
@@ -316,10 +377,10 @@ def irreducible_representation(group, highest_weight) -> Representation:
     """
     lam = tuple(int(x) for x in np.ravel(highest_weight))
     fam, n = group.family, group.n
-    if fam == "SU" and n == 2 and len(lam) == 2:
-        return make_representation(group, rep_name("spin", Fraction(lam[0] - lam[1], 2)))
-    if fam == "Sp" and n == 1 and len(lam) == 1:
-        return make_representation(group, rep_name("spin", Fraction(lam[0], 2)))
+    if fam == "SU" and n == 2 and len(lam) == 2 and lam[0] >= lam[1]:
+        return _build(group, "spin", Fraction(lam[0] - lam[1], 2))
+    if fam == "Sp" and n == 1 and len(lam) == 1 and lam[0] >= 0:
+        return _build(group, "spin", Fraction(lam[0], 2))
     if fam == "SO" and n == 3 and len(lam) == 1 and lam[0] >= 0:
         return _so3_spin(group, lam[0])
     if fam in ("U", "SU") and len(lam) == n and all(a >= b for a, b in zip(lam, lam[1:])):

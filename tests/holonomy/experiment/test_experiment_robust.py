@@ -23,9 +23,12 @@ import pytest
 
 from holonomy import Field
 from holonomy.cli import main
+from holonomy.exact import exact_wilson_loop
 from holonomy.experiment import (RunStore, SpecError, StoreMismatch, StoreUnusable, claim_folder,
                                  default_out, exact_results, format_table, load_spec,
                                  parse_spec, run_demo, run_spec, run_study, series_results)
+from holonomy.groups import make_group
+from noise import ArgumentError
 
 SPEC = '''name = "robust"
 [group]
@@ -475,6 +478,35 @@ API_CASES = [
 ]
 
 
+# representations above the dimension limit, refused where the Python API builds them
+# (make_representation, through Group.rep and every entry point that takes `rep`)
+def _square_loop():
+    from discretize import Loop
+    return Loop.polygon([(0, 0), (1, 0), (1, 1), (0, 1)])
+
+
+REP_API_CASES = [
+    ("rep-adjoint-U9", lambda: make_group("U", 9).rep("adjoint")),
+    ("rep-adjoint-SU9", lambda: make_group("SU", 9).rep("adjoint")),
+    ("rep-adjoint-SO12", lambda: make_group("SO", 12).rep("adjoint")),
+    ("rep-adjoint-Sp6", lambda: make_group("Sp", 6).rep("adjoint")),
+    ("rep-spin-32", lambda: make_group("SU", 2).rep("spin:32")),
+    ("rep-spin-huge", lambda: make_group("Sp", 1).rep("spin:1e30")),
+    ("exact-adjoint-SO32", lambda: exact_wilson_loop(make_group("SO", 32), "adjoint",
+                                                     _square_loop(), coupling=1.0)),
+]
+
+
+@pytest.mark.parametrize("call", [c[1] for c in REP_API_CASES],
+                         ids=[c[0] for c in REP_API_CASES])
+def test_api_refuses_representations_beyond_the_dimension_limit(call):
+    t0 = time.monotonic()
+    with pytest.raises(ArgumentError, match="`rep`") as info:
+        call()
+    assert info.value.argument == "rep"
+    assert time.monotonic() - t0 < 5  # refused before any numerics (U(32): 16 GiB)
+
+
 @pytest.mark.parametrize("call,exc,match", [c[1:] for c in API_CASES],
                          ids=[c[0] for c in API_CASES])
 def test_api_checks_its_arguments_first(call, exc, match):
@@ -585,6 +617,13 @@ INVALID = [
     ("degenerate-ellipse", _m((BOX, "ellipse = { center = [0.5, 0.5], radii = [0.4, 1e-300], "
                                     "sides = 8 }")), "loops[0]"),
     ("unicode-digit-in-rep", _m(("[run]", '[observable]\nrep = "spin:\u0661"\n[run]')),
+     "observable.rep"),
+    # representations above the dimension limit (64): the adjoint of the smallest group
+    # of each family beyond it (U(9) 81, SU(9) 80, SO(12) 66, Sp(6) 78), spin:32 (65)
+    *[(f"adjoint-{fam}{n}", _m(('family = "SU"', f'family = "{fam}"'), ("n = 2", f"n = {n}"),
+                                ("[run]", '[observable]\nrep = "adjoint"\n[run]')),
+       "observable.rep") for fam, n in (("U", 9), ("SU", 9), ("SO", 12), ("Sp", 6))],
+    ("spin-dimension-65", _m(("[run]", '[observable]\nrep = "spin:32"\n[run]')),
      "observable.rep"),
 ]
 COMMANDS = {"run": ["--quiet"], "exact": [], "series": ["--order", "2"],
