@@ -23,14 +23,19 @@ from ._schemes import SCHEMES, Scheme, get_scheme, register_scheme, study_scheme
 from ._estimate import BlockSums, EstimateResult, LoopEstimate, combine_blocks  # noqa: E402
 from ._surface_weights import ClosedSurface  # noqa: E402  (Monte Carlo on closed surfaces)
 from ._sampling import (  # noqa: E402
+    BLOCK_MEMORY,
     Field,
     LatticeProblem,
     RunSettings,
     WilsonProblem,
+    block_memory,
+    check_block_memory,
     estimate_wilson_loops,
     run_block,
 )
-from ._study import EXPECTED_RATES, StudyProblem, run_study_block, study_spacings  # noqa: E402
+from ._study import (  # noqa: E402
+    EXPECTED_RATES, StudyProblem, run_study_block, study_memory, study_spacings,
+)
 from ._lattice_series import (  # noqa: E402  (lattice series of the schemes)
     gauss_series, lattice_covariance, lattice_series, wilson_series,
 )

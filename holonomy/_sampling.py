@@ -42,7 +42,7 @@ from ._surface_weights import SURFACE_SCHEMES, ClosedSurface, SurfaceWeights
 from .groups import make_group
 
 __all__ = ["Field", "LatticeProblem", "RunSettings", "WilsonProblem", "run_block", "estimate_wilson_loops", "PATHS",
-           "chunk_size"]
+           "chunk_size", "block_memory", "check_block_memory", "BLOCK_MEMORY"]
 
 PATHS = ("auto", "perimeter", "dense")
 
@@ -347,6 +347,11 @@ class WilsonProblem(LatticeProblem):
         super().__post_init__()
         if self.surface is not None:
             _ = self.surface_weights  # validates the surface against the lattice loops
+        if not self.formal:
+            self._check_memory()
+
+    def _check_memory(self) -> None:
+        check_block_memory(self, self.block, self.samples, self.path)
 
     @cached_property
     def surface_weights(self) -> SurfaceWeights | None:
@@ -404,13 +409,15 @@ class WilsonProblem(LatticeProblem):
 # -- the sampler ------------------------------------------------------------------------
 
 def _interval_variables(problem: WilsonProblem, size: int, rng, path: str,
-                        noise: np.ndarray | None = None):
+                        noise: np.ndarray | None = None, *, slab_bytes: int | None = None):
     """Draw the plan's interval variables for ``size`` samples.
 
     Returns (samples, K, d) algebra sums for ``algebra`` schemes, else (samples, K)
     kernel elements (ordered products of the interval's plaquettes, bottom to top).
     ``noise`` (samples, nx, ny, d), on the dense path, is a cell noise already drawn on
     the problem's grid (shared by several problems for common random numbers).
+    ``slab_bytes`` (default `SLAB_BYTES`) bounds the dense path's working set per slab
+    of grid columns (`_slab_variables`); the numbers do not depend on it.
     """
     plan, group, scheme = problem.plan, problem.group, problem.scheme
     lam = problem.field.coupling
@@ -422,21 +429,34 @@ def _interval_variables(problem: WilsonProblem, size: int, rng, path: str,
             return noise
         return scheme.intervals(problem.kernel, noise, variances, rng, size)
 
-    if noise is None:
+    if plan.n_intervals and _slab_ready(problem) and (slab_bytes is not None
+                                                      or _use_slabs(problem, size)):
+        return _slab_variables(problem, size, rng, noise, slab_bytes or SLAB_BYTES)
+    slab_bytes = slab_bytes or SLAB_BYTES
+    unread = noise is None and (not plan.n_intervals or not scheme.reads_noise(group))
+    if unread:
+        # the scheme draws its own plaquettes: the cell noise is drawn (the same stream)
+        # slab by slab and dropped, never held
+        _skip_cell_noise(problem, size, rng, slab_bytes)
+    elif noise is None:
         variances_grid = lam * problem.field.area.cell_measures(plan.grid)
         noise = cell_noise(variances_grid, d, size, rng=rng)
-    noise = frame_cells(noise, plan.gauge)
     cell_var = lam * plan.cell_measures
     if plan.n_intervals == 0:
         return np.zeros((size, 0, d)) if scheme.kind == "algebra" else \
             problem.kernel.identity((size, 0))
+    if not unread:
+        noise = frame_cells(noise, plan.gauge)
     if scheme.kind == "algebra":
         cum = np.concatenate([np.zeros((size, noise.shape[1], 1, d)),
                               np.cumsum(noise, axis=2)], axis=2)
         return cum[:, plan.column, plan.hi] - cum[:, plan.column, plan.lo]
 
     cols, row_lo, row_hi = plan.columns_and_rows()
-    sub = noise[:, cols][:, :, row_lo:row_hi]
+    if unread:
+        sub = np.broadcast_to(np.zeros(()), (size, cols.size * (row_hi - row_lo), d))
+    else:
+        sub = noise[:, cols][:, :, row_lo:row_hi]
     var = cell_var[cols][:, row_lo:row_hi]
     q = scheme.plaquettes(problem.kernel, sub.reshape(size, -1, d), var.ravel(), rng)
     q = q.reshape((size, cols.size, row_hi - row_lo) + q.shape[2:])
@@ -447,6 +467,257 @@ def _interval_variables(problem: WilsonProblem, size: int, rng, path: str,
     for r in range(1, int(length.max())):
         sel = np.nonzero(length > r)[0]
         out[:, sel] = problem.kernel.mul(out[:, sel], q[:, ci[sel], lo[sel] + r])
+    return out
+
+
+#: working set of one slab of grid columns on the dense path (bytes): a chunk of samples
+#: whose cells would need more is drawn and turned into interval variables slab by slab
+SLAB_BYTES = 256 << 20
+
+#: working-set budget of one chunk of a block (bytes): the dense path goes slab by slab
+#: above it, and a problem whose chunk would need more on every route is refused
+BLOCK_MEMORY = 2 << 30
+
+
+def _elem_bytes(problem: LatticeProblem) -> int:
+    """Bytes of one group element as the kernel stores it."""
+    return 4 * 8 if problem.kernel.elem_ndim == 1 else problem.group.N ** 2 * 16
+
+
+def _dense_cell_bytes(problem: LatticeProblem) -> int:
+    """Bytes per cell and sample of the dense path's whole-grid working set: the cell
+    noise, its copy in the plan's columns or its column sums (3 x 8 d), and for group
+    schemes the plaquettes with their exponential's or sampler's temporaries (7.5
+    elements as matrices, 2.5 as quaternions). Measured peaks per cell and sample
+    (benchmarks/bench_memory.py, numpy kernels, 1e5-1e6 cells): linear 21 (U(1)) to 384
+    (U(4)); gauss 66 (U(1)), 123 (SU(2)), 1175 (SU(3)), 2179 (U(4)); wilson 58 (U(1)),
+    115 (SU(2)); heat 143 (SU(2)), 1080 (SU(3)), 2295 (U(4)); this estimate is at or
+    above each."""
+    base = 3 * 8 * problem.group.dim
+    if problem.scheme.kind == "algebra":
+        return base
+    return base + int((2.5 if problem.kernel.elem_ndim == 1 else 7.5) * _elem_bytes(problem))
+
+
+def _resolve_path(problem: LatticeProblem, path: str) -> str:
+    if path == "auto":
+        return "perimeter" if problem.scheme.perimeter else "dense"
+    return path
+
+
+def block_memory(problem: LatticeProblem, size: int, path: str = "auto") -> int:
+    """Estimated working set (bytes) of one chunk of samples of a block of ``size``
+    samples of ``problem`` on ``path``: the chunk's interval variables and holonomies,
+    plus on the dense path the whole grid's cells (`_dense_cell_bytes`), or one slab
+    (`SLAB_BYTES`) where the route goes slab by slab (`_slab_variables`)."""
+    path = _resolve_path(problem, path)
+    n = min(size, chunk_size(problem, path))
+    if path != "dense":
+        return _chunk_bytes(problem, n)
+    if _use_slabs(problem, n):
+        return _chunk_bytes(problem, n) + SLAB_BYTES
+    return _chunk_bytes(problem, n) + _dense_bytes(problem, n)
+
+
+def _chunk_bytes(problem: LatticeProblem, n: int) -> int:
+    """A chunk's interval variables, links and their products' temporaries (a factor 4)."""
+    plan, d = problem.plan, problem.group.dim
+    return 4 * n * (plan.n_intervals + plan.link_count()) * (_elem_bytes(problem) + 8 * d)
+
+
+def _use_slabs(problem: LatticeProblem, n: int) -> bool:
+    """The dense path goes slab by slab for a chunk of ``n`` samples: the scheme allows
+    it and the whole grid would take the chunk above `BLOCK_MEMORY`."""
+    return bool(_slab_ready(problem) and problem.plan.n_intervals and
+                _chunk_bytes(problem, n) + _dense_bytes(problem, n) > BLOCK_MEMORY)
+
+
+def check_block_memory(problem: LatticeProblem, block: int, samples: int | None = None,
+                       path: str = "auto") -> None:
+    """Refuse sampling ``problem`` in blocks of ``block`` samples (of ``samples`` in
+    all) when one chunk would need more than `BLOCK_MEMORY` (`block_memory`): an
+    ArgumentError on ``block`` naming the largest block that fits, or on ``spacing``
+    when one sample does not fit. The one check of every command and of
+    `WilsonProblem`."""
+    size = block if samples is None else min(block, samples)
+    need = block_memory(problem, size, path)
+    if need <= BLOCK_MEMORY:
+        return
+    grid = problem.grid
+    what = (f"a chunk of {min(size, chunk_size(problem, _resolve_path(problem, path)))} "
+            f"samples ({problem.scheme.name}, {problem.family}({problem.n}), "
+            f"{_resolve_path(problem, path)} path, grid of {grid.nx * grid.ny} cells) needs "
+            f"about {need / 2**30:.3g} GiB")
+    budget = f"at most {BLOCK_MEMORY / 2**30:g} GiB per block"
+    if block_memory(problem, 1, path) > BLOCK_MEMORY:
+        raise ArgumentError("spacing", f"got {problem.field.spacing!r}: {what}, even one "
+                            f"sample; expected a larger spacing ({budget})")
+    lo, hi = 1, size   # the largest block that fits
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        lo, hi = (mid, hi) if block_memory(problem, mid, path) <= BLOCK_MEMORY else (lo, mid)
+    raise ArgumentError("block", f"got {block}: {what}; expected a block <= {lo} or a "
+                        f"larger spacing ({budget})")
+
+
+def _dense_bytes(problem: LatticeProblem, size: int) -> int:
+    """The whole-grid dense route's working set for ``size`` samples (bytes)."""
+    nx, ny = problem.plan.grid.shape
+    return size * nx * ny * _dense_cell_bytes(problem)
+
+
+def _slab_ready(problem: LatticeProblem) -> bool:
+    """True when the dense path may form interval variables slab by slab with the same
+    numbers: every plaquette is a function of its own cell's noise (no draws of its own:
+    ``noise_only`` group schemes, the U(1) heat kernel, which is exp of the noise) or
+    the scheme is an algebra scheme (column sums of the noise)."""
+    scheme = problem.scheme
+    if scheme.kind == "algebra" or scheme.noise_only:
+        return True
+    group = problem.group
+    return scheme.name == "heat" and group.family == "U" and group.n == 1
+
+
+def _slabs(problem: LatticeProblem, slab_bytes: int) -> list[tuple[int, int, int, int]]:
+    """One sample's cells in slabs ``(x0, x1, y0, y1)`` of the original grid, in the
+    order `noise.cell_noise` draws them: whole grid columns, or pieces of one column
+    when a column alone is above ``slab_bytes``."""
+    nx, ny = problem.plan.grid.shape
+    cells = max(1, int(slab_bytes // _dense_cell_bytes(problem)))
+    if cells >= ny:
+        width = cells // ny
+        return [(x0, min(nx, x0 + width), 0, ny) for x0 in range(0, nx, width)]
+    return [(x, x + 1, y0, min(ny, y0 + cells)) for x in range(nx) for y0 in range(0, ny, cells)]
+
+
+def _skip_cell_noise(problem: LatticeProblem, size: int, rng, slab_bytes: int) -> None:
+    """Draw (and drop) the cell noise of ``size`` samples, as `noise.cell_noise` draws
+    it, slab by slab: the generator ends where the whole draw leaves it."""
+    d = problem.group.dim
+    nx, ny = problem.plan.grid.shape
+    per = int(slab_bytes // (nx * ny * _dense_cell_bytes(problem)))
+    if per >= 1:  # whole samples at once
+        for s in range(0, size, per):
+            rng.standard_normal((min(per, size - s), nx, ny, d))
+        return
+    slabs = _slabs(problem, slab_bytes)
+    for _ in range(size):
+        for x0, x1, y0, y1 in slabs:
+            rng.standard_normal((x1 - x0, y1 - y0, d))
+
+
+def _slab_variables(problem: LatticeProblem, size: int, rng, noise, slab_bytes: int):
+    """The dense path's interval variables, slab by slab: the same numbers as the
+    whole-grid route of `_interval_variables` in a working set of about ``slab_bytes``
+    plus the interval variables.
+
+    The cell noise of one sample is drawn in slabs of grid columns in the order
+    `noise.cell_noise` draws it (sample, x, y, component), each scaled as there. Under
+    ``axial-y`` a slab holds whole frame columns; under ``axial-x`` it holds frame rows
+    (frame row b is grid column nx - 1 - b), which the products need bottom to top, so
+    a first pass records the generator's state before each slab and the slabs are drawn
+    again from the last one back (twice the Gaussian draws, the same numbers), then the
+    generator is left where the whole draw leaves it. Each interval's product and each
+    column's running sum take the same operations in the same order as the whole-grid
+    route (products left to right from the interval's lowest row; ``numpy.cumsum``
+    from the column's row 0), so the results are bitwise the same.
+    """
+    plan, group, scheme, kernel = problem.plan, problem.group, problem.scheme, problem.kernel
+    lam, d = problem.field.coupling, group.dim
+    grid = plan.grid
+    nx, ny = grid.nx, grid.ny
+    algebra = scheme.kind == "algebra"
+    slabs = _slabs(problem, slab_bytes)
+    std = np.sqrt(lam * problem.field.area.cell_measures(grid)) if noise is None else None
+    cell_var = lam * plan.cell_measures
+    column, lo, hi = plan.column, plan.lo, plan.hi
+    cols, row_lo, row_hi = plan.columns_and_rows()
+    K = plan.n_intervals
+    if algebra:
+        # the column sums at each interval's ends (cum[:, col, 0] = 0 as in the route)
+        at_hi, at_lo = np.empty((size, K, d)), np.zeros((size, K, d))
+    out = None
+    # whole samples at once while they fit in a slab (the same draws: sample-major)
+    per = int(slab_bytes // (nx * ny * _dense_cell_bytes(problem)))
+    groups = [(s0, min(size, s0 + per)) for s0 in range(0, size, per)] if per >= 1 else \
+        [(s0, s0 + 1) for s0 in range(size)]
+    if per >= 1:
+        slabs, axial_x = [(0, nx, 0, ny)], False   # one slab: no order to restore
+    else:
+        axial_x = plan.gauge != "axial-y"
+    for s0, s1 in groups:
+        g = s1 - s0
+        if algebra:
+            running = np.empty((g, cols.size, d))
+        if noise is None and axial_x:
+            states = []
+            for x0, x1, y0, y1 in slabs:
+                states.append(rng.bit_generator.state)
+                rng.standard_normal((x1 - x0, y1 - y0, d))
+            end = rng.bit_generator.state
+        for j in (range(len(slabs) - 1, -1, -1) if axial_x else range(len(slabs))):
+            x0, x1, y0, y1 = slabs[j]
+            if noise is None:
+                if axial_x:
+                    rng.bit_generator.state = states[j]
+                z = rng.standard_normal((g, x1 - x0, y1 - y0, d))
+                z *= std[x0:x1, y0:y1, None]
+            else:
+                z = noise[s0:s1, x0:x1, y0:y1]
+            z = frame_cells(z, plan.gauge)
+            # the slab in the frame: columns [c0, c1), rows [r0, r1)
+            if plan.gauge == "axial-y":
+                c0, c1, r0, r1 = x0, x1, y0, y1
+            else:
+                c0, c1, r0, r1 = y0, y1, nx - x1, nx - x0
+            in_cols = (cols >= c0) & (cols < c1)
+            if not in_cols.any():
+                continue
+            bc = cols[in_cols]
+            here = (column >= c0) & (column < c1)
+            if algebra:
+                block = z[:, bc - c0]
+                if r0 == 0:
+                    cs = np.cumsum(block, axis=2)
+                else:
+                    cs = np.cumsum(np.concatenate([running[:, in_cols][:, :, None], block],
+                                                  axis=2), axis=2)[:, :, 1:]
+                running[:, in_cols] = cs[:, :, -1]
+                pos = np.searchsorted(bc, column)
+                k = np.nonzero(here & (hi > r0) & (hi <= r1))[0]
+                at_hi[s0:s1, k] = cs[:, pos[k], hi[k] - r0 - 1]
+                k = np.nonzero(here & (lo > r0) & (lo <= r1))[0]
+                at_lo[s0:s1, k] = cs[:, pos[k], lo[k] - r0 - 1]
+                continue
+            a, b = max(r0, row_lo), min(r1, row_hi)
+            # intervals in these columns, from their first row in the slab to their last
+            k = np.nonzero(here & (lo < b) & (hi > a))[0]
+            if a >= b or not k.size:
+                continue
+            sub = z[:, bc - c0][:, :, a - r0:b - r0]
+            var = cell_var[bc][:, a:b]
+            q = scheme.plaquettes(kernel, sub.reshape(g, -1, d), var.ravel(), rng)
+            q = q.reshape((g, bc.size, b - a) + q.shape[2:])
+            if out is None:
+                out = np.empty((size, K) + q.shape[3:], q.dtype)
+            ci = np.searchsorted(bc, column[k])
+            first = np.maximum(lo[k], a)
+            count = np.minimum(hi[k], b) - first
+            for r in range(int(count.max())):
+                sel = np.nonzero(count > r)[0]
+                row = first[sel] + r
+                f = q[:, ci[sel], row - a]
+                new = row == lo[k[sel]]
+                if new.any():  # an interval's lowest plaquette starts its product
+                    out[s0:s1, k[sel[new]]] = f[:, new]
+                    if new.all():
+                        continue
+                    sel, f = sel[~new], f[:, ~new]
+                out[s0:s1, k[sel]] = kernel.mul(out[s0:s1, k[sel]], f)
+        if noise is None and axial_x:
+            rng.bit_generator.state = end
+    if algebra:
+        return at_hi - at_lo
     return out
 
 

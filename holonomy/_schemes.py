@@ -98,7 +98,9 @@ class Scheme:
     10. ``noise_only`` is True when the plaquettes are a function of the cell noise
         alone (no extra randomness): two such schemes on one noise field are paired
         sample by sample, and a study measures one's error against the other's exact
-        value through their difference.
+        value through their difference. Each plaquette must then be a function of its
+        own cell's noise: the dense path may form them slab by slab of grid columns
+        (``holonomy._sampling._slab_variables``).
     11. ``formal`` is True when the scheme's links are exponentials of the Gaussian
         noise (per interval for ``kind == "algebra"``, per cell otherwise), so its
         expectations continue to signed variances and a signed density has a formal
@@ -349,6 +351,9 @@ class WilsonScheme(Scheme):
 
     def correlator_value(self, problem, indices) -> LatticeValue:
         return wilson_correlator_value(problem, indices)
+
+    def reads_noise(self, group) -> bool:
+        return False  # plaquettes from the Wilson law alone (the cell noise is not read)
 
     def _plaquettes_impl(self, kernel, noise, variances, rng, size):
         m = variances.size

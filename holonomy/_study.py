@@ -37,10 +37,12 @@ from discretize import Grid, LatticeLoop
 from noise import ArgumentError, block_rng, cell_noise, refine_noise
 
 from ._estimate import BlockSums
-from ._sampling import LatticeProblem, WilsonProblem, _block_sums
+from . import _sampling
+from ._sampling import LatticeProblem, WilsonProblem, _block_sums, block_memory
 from ._schemes import EXPECTED_RATES, get_scheme, study_schemes
 
-__all__ = ["StudyProblem", "run_study_block", "study_spacings", "EXPECTED_RATES"]
+__all__ = ["StudyProblem", "run_study_block", "study_spacings", "study_memory",
+           "EXPECTED_RATES"]
 
 
 def _study_iv(problem, spacings, schemes):
@@ -140,6 +142,29 @@ class StudyProblem:
                 f"`spacings`: the finest grid would have {cells:.3g} cells, more than "
                 f"{self.max_cells:.0e}.")
         _ = self.problems  # validates every (spacing, scheme)
+        self._check_memory()
+
+    def _check_memory(self) -> None:
+        """Refuse a study whose block would need more than `BLOCK_MEMORY` (on ``block``
+        when a smaller block fits, else on ``spacings``)."""
+        need = study_memory(self)
+        if need <= _sampling.BLOCK_MEMORY:
+            return
+        size = self.block_sizes()[0]
+        finest = self.grids[self.spacings[-1]]
+        what = (f"the coupled noise of {size} samples on {len(self.spacings)} nested grids "
+                f"(the finest of {finest.nx * finest.ny} cells) needs about "
+                f"{need / 2**30:.3g} GiB")
+        budget = f"at most {_sampling.BLOCK_MEMORY / 2**30:g} GiB per block"
+        if study_memory(self, 1) > _sampling.BLOCK_MEMORY:
+            raise ArgumentError("spacings", f"got {list(self.spacings)!r}: {what}, even one "
+                                f"sample; expected a coarser finest spacing ({budget})")
+        lo, hi = 1, size   # the largest block that fits
+        while hi - lo > 1:
+            mid = (lo + hi) // 2
+            lo, hi = (mid, hi) if study_memory(self, mid) <= _sampling.BLOCK_MEMORY else (lo, mid)
+        raise ArgumentError("block", f"got {self.problem.block}: {what}; expected a block "
+                            f"<= {lo} or a coarser finest spacing ({budget})")
 
     @cached_property
     def grids(self) -> dict:
@@ -190,6 +215,19 @@ class StudyProblem:
     def __setstate__(self, state):
         for k, v in state.items():
             object.__setattr__(self, k, v)
+
+
+def study_memory(study: StudyProblem, size: int | None = None) -> int:
+    """Estimated working set (bytes) of one block of ``size`` samples (default the
+    study's block) of :func:`run_study_block`: the coupled noise at every spacing (8 d
+    bytes per cell and sample), twice more at the finest for its refinement's
+    temporaries, plus the largest chunk of one (spacing, scheme) read from it
+    (:func:`holonomy.block_memory`)."""
+    size = study.block_sizes()[0] if size is None else size
+    d = study.problems[(study.spacings[0], study.schemes[0])].group.dim
+    cells = [study.grids[h].nx * study.grids[h].ny for h in study.spacings]
+    noise = 8 * d * size * (sum(cells) + 2 * cells[-1])
+    return int(noise + max(block_memory(p, size, p.path) for p in study.problems.values()))
 
 
 def run_study_block(study: StudyProblem, block: int) -> dict:

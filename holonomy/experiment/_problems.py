@@ -10,7 +10,7 @@ argument comes from (:data:`ARGUMENT_KEYS`), never by reading the message.
 from __future__ import annotations
 
 from discretize import Loop, check_crossings
-from holonomy import ClosedSurface, Field, LatticeProblem, WilsonProblem
+from holonomy import ClosedSurface, Field, LatticeProblem, WilsonProblem, check_block_memory
 from noise import ArgumentError
 
 from ._spec import Spec, SpecError
@@ -67,6 +67,9 @@ def build_lattice(spec: Spec, *, scheme: str | None = None,
         n = 1 if spec.n == "inf" else spec.n
         problem = LatticeProblem(family=spec.family, n=n, metric=spec.metric,
                                  field=fld, loops=loops, names=spec.names, rep=spec.rep)
+        if spec.n != "inf" and not spec.signed:
+            # every command refuses the blocks `run` refuses (memory of one block)
+            check_block_memory(problem, spec.block, spec.samples)
     except ArgumentError as exc:
         raise _refused(exc) from None
     return problem

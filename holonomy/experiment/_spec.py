@@ -29,7 +29,9 @@ Unknown keys are refused (a misspelt key would otherwise be silently ignored). S
 that could hang the machine or exhaust its memory are refused before any numerics
 (:data:`LIMITS`: matrix size <= 32, representation dimension <= 64 (spin:j and adjoint),
 power <= 64, samples <= 1e12, block <= 1e6, grid cells <= 1e7, steps per moves token
-<= 1e6, coupling in [1e-100, 1e100], a numeric metric in [1e-6, 1e6]).
+<= 1e6, coupling in [1e-100, 1e100], a numeric metric in [1e-6, 1e6]); the working set
+of one block, at most 2 GiB, is checked when the problem is built
+(``holonomy.check_block_memory``).
 """
 
 from __future__ import annotations
@@ -51,6 +53,7 @@ from discretize._axial import GAUGES
 from noise import ArgumentError
 
 from .._formal_estimate import formal_schemes
+from .._sampling import BLOCK_MEMORY
 from .._schemes import SCHEMES
 from .._surface_weights import SURFACE_SCHEMES
 from ..exact import drawn_measure
@@ -211,7 +214,10 @@ def format_spec_keys(*, markdown: bool = False) -> str:
 LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM,
           "representation dimension": MAX_REP_DIM, "power": MAX_POWER,
           "samples": MAX_SAMPLES, "block": MAX_BLOCK, "grid cells": MAX_CELLS,
-          "steps per move": MAX_STEPS, "sides": MAX_SIDES, "turns": MAX_TURNS}
+          "steps per move": MAX_STEPS, "sides": MAX_SIDES, "turns": MAX_TURNS,
+          # bytes of one chunk of a block (holonomy.block_memory), checked when the
+          # problem is built (holonomy.check_block_memory, the same for every command)
+          "block memory": BLOCK_MEMORY}
 
 
 class SpecError(ValueError):

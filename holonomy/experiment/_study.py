@@ -374,7 +374,8 @@ def run_study(spec: Spec, *, spacings: Sequence[float], schemes: Sequence[str] |
         study = StudyProblem(base, spacings=spacings, schemes=schemes,
                              max_cells=MAX_CELLS)
     except ArgumentError as exc:
-        key = {"spacings": "--spacings", "scheme": "--schemes", "schemes": "--schemes"}
+        key = {"spacings": "--spacings", "scheme": "--schemes", "schemes": "--schemes",
+               "block": "run.block", "spacing": "--spacings"}
         raise SpecError(key.get(exc.argument, "spec"), exc.rule) from None
     job = _study_job(study)
     job_key = f"study:{list(spacings)}:{list(schemes)}:block={block}"

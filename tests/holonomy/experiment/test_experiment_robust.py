@@ -677,6 +677,13 @@ def _star(p, q):
 LIMIT_CASES = [
     ("crossings", _m((BOX, f"vertices = {_star(101, 50)}")), "loops[0]",
      {"discretize._arrangement.MAX_EXACT_PAIRS": 2000}),
+    # the wilson scheme's block of 40 samples on this grid is estimated at 298,240 bytes,
+    # one sample at 7,456 (holonomy.block_memory): a budget between refuses the block, a
+    # budget below one sample the spacing
+    ("block-memory", _m(('scheme = "heat"', 'scheme = "wilson"')), "run.block",
+     {"holonomy._sampling.BLOCK_MEMORY": 100_000}),
+    ("sample-memory", _m(('scheme = "heat"', 'scheme = "wilson"')), "field.spacing",
+     {"holonomy._sampling.BLOCK_MEMORY": 5_000}),
 ]
 
 
