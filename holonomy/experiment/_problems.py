@@ -67,7 +67,7 @@ def build_lattice(spec: Spec, *, scheme: str | None = None,
         n = 1 if spec.n == "inf" else spec.n
         problem = LatticeProblem(family=spec.family, n=n, metric=spec.metric,
                                  field=fld, loops=loops, names=spec.names, rep=spec.rep)
-        if spec.n != "inf" and not spec.signed:
+        if spec.n != "inf" and not spec.signed and spec.samples is not None:
             # every command refuses the blocks `run` refuses (memory of one block)
             check_block_memory(problem, spec.block, spec.samples)
     except ArgumentError as exc:
