@@ -37,7 +37,77 @@ from scipy import special
 from holonomy.groups._weights import _weight_system
 
 __all__ = ["class_weights", "adams_decomposition", "weyl_dimension",
-           "dominant_casimir", "wilson_character"]
+           "dominant_casimir", "wilson_character", "bessel_ratio", "BesselRangeError"]
+
+#: below this argument ``I_n(x) / I_m(x)`` is its leading power-series term: the next
+#: one is ``1 + O(x^2)``, below double rounding here, and ``ive`` underflows (``ive(1, x)``
+#: is 0 below about 1e-308, which made ``I_2 / I_1`` a 0 / 0)
+_SERIES_X = 1e-8
+#: above this argument the ratio comes from the large-argument expansion: scipy's
+#: ``ive`` (AMOS) returns NaN from about 2e9 (measured with scipy 1.17)
+_ASYMPTOTIC_X = 1e8
+
+
+class BesselRangeError(ArithmeticError):
+    """A Bessel ratio outside the ranges its routes cover in double precision."""
+
+
+def _ive_asymptotic(n: int, x: float) -> float:
+    """``sqrt(2 pi x) e^{-x} I_n(x)`` by the large-argument expansion
+    ``sum_k (-1)^k a_k(n) / x^k``, ``a_k = prod_{j<=k} (4n^2 - (2j-1)^2) / (k! 8^k)``
+    (Abramowitz and Stegun 1964, 9.7.1), for ``4 n^2 <= x / 1000`` (checked by the
+    caller): the terms then fall by a factor below 5e-4 each, and 12 of them leave an
+    error below 1e-40."""
+    mu = 4.0 * n * n
+    term = total = 1.0
+    for k in range(1, 13):
+        term *= -(mu - (2 * k - 1) ** 2) / (8.0 * k * x)
+        total += term
+        if term == 0.0:
+            break
+    return total
+
+
+def bessel_ratio(n: int, m: int, x: float) -> float:
+    r"""``I_n(x) / I_m(x)`` for integers ``n >= m >= 0`` and ``x >= 0`` (``inf`` too),
+    finite wherever it is representable.
+
+    - ``x < 1e-8``: the leading term of the power series,
+      ``(x/2)^{n-m} m! / n!`` (Abramowitz and Stegun 1964, 9.6.10), in log space, so
+      that a ratio below the double range is 0 and no 0 / 0 arises;
+    - ``1e-8 <= x <= 1e8``: ``ive(n, x) / ive(m, x)`` (scipy.special; the common factor
+      ``e^{-x}`` cancels);
+    - ``x > 1e8``: the ratio of the large-argument expansions (Abramowitz and Stegun
+      1964, 9.7.1), for orders with ``4 n^2 <= x / 1000``; ``x = inf`` gives 1.
+
+    Raises :class:`BesselRangeError` for a large order at a large argument
+    (``4 n^2 > x / 1000`` with ``x > 1e8``), where neither route is accurate.
+
+    References
+    ----------
+    .. [1] M. Abramowitz, I. A. Stegun, "Handbook of Mathematical Functions", NBS
+       (1964), 9.6.10 (power series) and 9.7.1 (asymptotic expansion for large
+       arguments).
+    """
+    n, m, x = int(n), int(m), float(x)
+    if not (n >= m >= 0) or not x >= 0:
+        raise ValueError(f"bessel_ratio needs n >= m >= 0 and x >= 0, got {(n, m, x)!r}")
+    if n == m:
+        return 1.0
+    if x == 0.0:
+        return 0.0
+    if x < _SERIES_X:
+        log_r = (n - m) * math.log(x / 2) + math.lgamma(m + 1) - math.lgamma(n + 1)
+        return math.exp(log_r)  # 0.0 below the double range (math.exp does not warn)
+    if x <= _ASYMPTOTIC_X:
+        return float(special.ive(n, x) / special.ive(m, x))
+    if math.isinf(x):
+        return 1.0
+    if 4.0 * n * n > x / 1000:
+        raise BesselRangeError(
+            f"the Bessel ratio I_{n}/I_{m} at argument {x:.3g} (order {n} too large for "
+            "the large-argument expansion, beyond scipy's range)")
+    return _ive_asymptotic(n, x) / _ive_asymptotic(m, x)
 
 
 def class_weights(group, rep) -> list[tuple[int, ...]] | None:
@@ -120,6 +190,27 @@ def dominant_casimir(lam, k: float, special_unitary: bool) -> float:
     return float(ws.casimir(ws.shifted(lam)))
 
 
+#: the SU(N) one-plaquette sums run over |q| <= 2b + 40: more terms than this is a
+#: stated cost limit (b above about 5000), as is an argument beyond scipy's ``ive``
+_MAX_SHIFTS = 20001
+
+
+def determinant_range(b: float, special_unitary: bool) -> int:
+    """The shifts ``qmax`` of the Bessel-determinant routes (0 for U(N)), after checking
+    that ``b`` is within their reach; else :class:`BesselRangeError`."""
+    if not b <= _ASYMPTOTIC_X:
+        raise BesselRangeError(f"the Bessel determinants at argument {b:.3g} (above "
+                               f"{_ASYMPTOTIC_X:g}, beyond scipy's range)")
+    if not special_unitary:
+        return 0
+    qmax = int(math.ceil(2 * b)) + 40
+    if 2 * qmax + 1 > _MAX_SHIFTS:
+        raise BesselRangeError(f"the SU(N) Bessel sums at argument {b:.3g} need "
+                               f"{2 * qmax + 1} shifted determinants (more than "
+                               f"{_MAX_SHIFTS})")
+    return qmax
+
+
 def _bessel_det(lam, b: float, shift: int = 0) -> float:
     """``det[e^{-b} I_{lam_i - i + j + shift}(b)]`` (scaled: the factor e^{-N b} cancels
     in every ratio)."""
@@ -148,12 +239,13 @@ def wilson_character(family: str, lam, b: float) -> float:
     N = len(lam)
     if family == "U":
         if N == 1:
-            return float(special.ive(abs(lam[0]), b) / special.ive(0, b))
+            return bessel_ratio(abs(lam[0]), 0, b)
+        determinant_range(b, False)
         return _bessel_det(lam, b) / _bessel_det((0,) * N, b) / weyl_dimension(lam)
     if N == 2:
         j2 = lam[0] - lam[1]
-        return float(special.ive(j2 + 1, 2 * b) / special.ive(1, 2 * b))
-    qmax = int(math.ceil(2 * b)) + 40
+        return bessel_ratio(j2 + 1, 1, 2 * b)
+    qmax = determinant_range(b, True)
     num = sum(_bessel_det(lam, b, q) for q in range(-qmax - sum(lam), qmax + 1))
     den = sum(_bessel_det((0,) * N, b, q) for q in range(-qmax, qmax + 1))
     return num / den / weyl_dimension(lam)

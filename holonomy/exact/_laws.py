@@ -30,14 +30,15 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ._characters import wilson_character
+from ._characters import BesselRangeError, wilson_character
 
 __all__ = ["WilsonLaw", "ExactRouteError", "law_character"]
 
 
 class ExactRouteError(ValueError):
     """No exact route applies; ``limit`` says which: ``"size"``, ``"representation"``,
-    ``"geometry"`` or ``"group"``."""
+    ``"geometry"``, ``"group"`` or ``"precision"`` (the closed form leaves the range
+    its double-precision routes cover, at an extreme coupling or density)."""
 
     def __init__(self, limit: str, message: str):
         super().__init__(f"{limit} limit: {message}")
@@ -93,7 +94,11 @@ class WilsonLaw:
         fam = "SU" if self.family == "Sp" else self.family
         out = 1.0
         for b, cells in self.parts:
-            out *= wilson_character(fam, lam, b) ** cells
+            try:
+                w = wilson_character(fam, lam, b)
+            except BesselRangeError as exc:
+                raise ExactRouteError("precision", str(exc)) from None
+            out *= w ** cells
         return out
 
     def __add__(self, other):

@@ -153,7 +153,18 @@ def _law_spectrum(law, mu):
     """``w_sigma`` on each eigenvalue ``mu = -c_sigma / 2`` of ``L_{p,q}``."""
 
     if not hasattr(law, "character"):
-        return np.exp(complex(law) * mu)
+        t = complex(law)
+        # mu <= 0 in exact arithmetic; the trivial components' 0 comes out of eigh as
+        # about +-1e-16, which a long time turns into a wrong weight exp(t mu) (or an
+        # overflow): snap those eigenvalues to 0 where that rounding would show (|t mu|
+        # above 1e-13, times beyond about 1e3), keeping shorter times' arithmetic as is
+        zero = np.abs(mu) <= 1e-12 * (1.0 + np.abs(mu).max(initial=0.0))
+        if zero.any() and abs(t) * np.abs(mu[zero]).max() > 1e-13:
+            mu = np.where(zero, 0.0, mu)
+        with np.errstate(over="ignore", under="ignore", invalid="ignore"):
+            # a formal (negative) time beyond the double range overflows: the caller
+            # reports the non-finite value with a note
+            return np.exp(t * mu)
     out = np.empty(len(mu), dtype=complex)
     cache: dict = {}
     for i, m in enumerate(mu):

@@ -23,13 +23,13 @@ any lattice loop, ``W = prod_cells I_{n_c}(b) / I_0(b)`` with n_c the cell's win
 
 from __future__ import annotations
 
-import math
 
 import numpy as np
 from scipy import special
 
 from discretize import AreaForm, LatticeLoop, joint_arrangement
 
+from ._characters import bessel_ratio, determinant_range
 from ._common import _family_iv, _int_iv, _metric_iv, _real_iv
 from ._dispatch import lattice_polygon
 from ._evaluate import ExactEvaluation, evaluate_words
@@ -78,6 +78,7 @@ def _bessel_matrices(N: int, b: float, q: int = 0):
 
 
 def _u_n_plaquette(N: int, b: float) -> float:
+    determinant_range(b, False)
     M, dM = _bessel_matrices(N, b)
     # the common factor e^{-b} cancels in M^{-1} M'
     return float(np.trace(np.linalg.solve(M, dM))) / N
@@ -86,7 +87,7 @@ def _u_n_plaquette(N: int, b: float) -> float:
 def _su_n_plaquette(N: int, b: float) -> float:
     # terms decay like I_q(b)^N; every term carries the same scale e^{-N b}
     z = dz = 0.0
-    qmax = int(math.ceil(2 * b)) + 40
+    qmax = determinant_range(b, True)
     for q in range(-qmax, qmax + 1):
         M, dM = _bessel_matrices(N, b, q)
         z += np.linalg.det(M)
@@ -140,9 +141,9 @@ def wilson_plaquette(family: str, n: int, s=None, k=None, *, b=None) -> float:
     """
     fam, N, bb = _wilson_iv(family, n, s, k, b)
     if fam == "U" and N == 1:
-        return float(special.ive(1, bb) / special.ive(0, bb))
+        return bessel_ratio(1, 0, bb)
     if fam == "SU" and N == 2:
-        return float(special.ive(2, 2 * bb) / special.ive(1, 2 * bb))
+        return bessel_ratio(2, 1, 2 * bb)
     if fam == "U":
         return _u_n_plaquette(N, bb)
     return _su_n_plaquette(N, bb)
@@ -196,8 +197,11 @@ def wilson_lattice_loop(family: str, n: int, s=None, k=None, *, cells=None, wind
     nz = w[w != 0]
     if nz.size == 0:
         return 1.0
+    r = np.array([bessel_ratio(q, 0, bb) for q in np.abs(nz).tolist()])
+    if not r.all():  # a ratio below the double range: so is the product
+        return 0.0
     # log-sum so that large loops do not underflow term by term
-    return float(np.exp(np.sum(np.log(special.ive(np.abs(nz), bb) / special.ive(0, bb)))))
+    return float(np.exp(np.sum(np.log(r))))
 
 
 def wilson_lattice_exact(group, rep, loops, *, coupling: float, area=None,

@@ -11,8 +11,11 @@ specified, before snapping, and ``snapped`` that of the loop as snapped to the l
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from itertools import combinations
+
+import numpy as np
 
 from discretize import Loop
 from holonomy import LatticeProblem, gaussian_matrix, get_scheme
@@ -40,13 +43,18 @@ def gaussian_matrix_field(group, rep, loop, coupling, area, order: int = GAUSSIA
     if ev is None or ev.method != "simple-loop":
         return None, (NOT_AVAILABLE + " (the Gaussian-matrix prescription is a closed form "
                       "for simple loops only)")
+    overflow = (f"{NOT_AVAILABLE} (its coefficients overflow double precision at this "
+                "coupling and density)")
     try:
-        g = gaussian_matrix(group, rep, ev.details["measure"], coupling, order)
+        # lambda * area near 1e300: the powers of the area overflow (checked below)
+        with np.errstate(over="ignore", invalid="ignore"):
+            g = gaussian_matrix(group, rep, ev.details["measure"], coupling, order)
     except ExactRouteError as exc:  # over the work limit: a note naming it
         return None, f"{NOT_AVAILABLE} ({exc})"
-    except OverflowError:  # lambda * area beyond double precision (density ~1e300)
-        return None, (f"{NOT_AVAILABLE} (its coefficients overflow double precision at "
-                      "this coupling and density)")
+    except OverflowError:
+        return None, overflow
+    if not all(math.isfinite(c) for c in g.coefficients):
+        return None, overflow
     return {"value": None if g.value is None else complex(g.value).real,
             "order": order, "coefficients": g.coefficients, "rationals": g.rationals,
             "first_difference": g.first_difference,

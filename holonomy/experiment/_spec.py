@@ -211,13 +211,18 @@ def format_spec_keys(*, markdown: bool = False) -> str:
     return "\n".join(lines)
 
 
+#: the largest coupling x density x area the engine takes: heat-kernel times and
+#: Wick variances then stay finite, with room for Casimirs (at most about 1e4) and sums
+MAX_TIME = 1e300
+
 LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM,
           "representation dimension": MAX_REP_DIM, "power": MAX_POWER,
           "samples": MAX_SAMPLES, "block": MAX_BLOCK, "grid cells": MAX_CELLS,
           "steps per move": MAX_STEPS, "sides": MAX_SIDES, "turns": MAX_TURNS,
           # bytes of one chunk of a block (holonomy.block_memory), checked when the
           # problem is built (holonomy.check_block_memory, the same for every command)
-          "block memory": BLOCK_MEMORY}
+          "block memory": BLOCK_MEMORY,
+          "coupling x density x area": MAX_TIME}
 
 
 class SpecError(ValueError):
@@ -878,6 +883,23 @@ def _extent_iv(loops: tuple[LoopSpec, ...], spacing: float, reference: float | N
                         "> 1e-9 times the largest coordinate")
 
 
+def _time_iv(coupling: float, density, loops: tuple[LoopSpec, ...], spacing: float) -> None:
+    """Refuse a coupling and density whose product with the loops' area (their bounding
+    boxes', times the turns) passes `MAX_TIME`, near the end of double precision, where
+    exact times and variances would be inf: on ``field.density``."""
+    values = [density] if isinstance(density, float) else [1.0] + [r[4] for r in density]
+    peak = max(abs(v) for v in values)
+    boxes = [_loop_bbox(lp, spacing) for lp in loops]
+    area = max((b[2] - b[0]) * (b[3] - b[1]) for b in boxes)
+    turns = max(lp.turns for lp in loops)
+    time = coupling * peak * area * turns
+    if not time <= MAX_TIME:
+        raise SpecError("field.density", f"got a largest |density| of {peak!r} with "
+                        f"coupling {coupling!r}: coupling x density x the loops' area "
+                        f"(x turns) is {time:.3g}; expected at most {MAX_TIME:.0e}, "
+                        "within double precision")
+
+
 def _rep_iv(obs: dict, family: str, n: int) -> str:
     """The representation, by the group engine's grammar (:func:`holonomy.groups.parse_rep`),
     within the spec's size limits; returned in its canonical spelling."""
@@ -996,6 +1018,7 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
         seen[loop.name] = i
 
     _extent_iv(loops, spacing, reference, gauge)
+    _time_iv(coupling, density, loops, spacing)
 
     correlators = _correlators_iv(data, tuple(loop.name for loop in loops))
 
