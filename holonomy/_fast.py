@@ -34,6 +34,8 @@ __all__ = ["quaternion_exp", "quaternion_mul", "quaternion_product", "matrix_mul
            "matrix_product", "su2_heat_small", "torus_draw", "matrix_holonomies_group"]
 
 _TWO_PI = 2.0 * math.pi
+#: below this time a torus proposal is accepted outright (holonomy.groups._heat)
+_TINY_TIME = 1e-30
 
 
 @njit(cache=True)
@@ -413,6 +415,8 @@ def _torus_ratio(x, t, roots, images, signs, gnorm, amax, c, lattice_a, xr, e, y
     ``e``, ``y``: work arrays of length m), ``images[0]`` the zero vector, ``signs``
     as in `holonomy.groups._heat._TorusLaw`, ``gnorm`` the images' norms and ``amax``
     the largest root value on them."""
+    if t < _TINY_TIME:  # r = 1 - O(t): 1 in double (and the root products underflow)
+        return 1.0
     m = x.size
     delta = 0.0
     for j in range(m):
@@ -549,7 +553,8 @@ def torus_draw(t, basis, roots, images, signs, gnorm, amax, c, lattice_a, rng, c
                 re3 = (x01 * x12 - y01 * y12) * x02 + (x01 * y12 + y01 * x12) * y02
                 c0 = a0 * a1 * a2 + 2.0 * re3 - a0 * n12 - a1 * n02 - a2 * n01
                 p = math.sqrt(c1 / 3.0)
-                arg = c0 / (2.0 * p * p * p) if p > 0 else 0.0
+                p3 = p * p * p  # 0 at the tiniest times: any angle will do there
+                arg = c0 / (2.0 * p3) if p3 > 0 else 0.0
                 phi = math.acos(min(max(arg, -1.0), 1.0)) / 3.0
                 cphi, sphi = math.cos(phi), math.sin(phi)
                 x[0] = q + 2.0 * p * cphi  # 2 p cos(phi - 2 pi k / 3), k = 0, 1, 2

@@ -62,6 +62,16 @@ def _hermitian_map(basis) -> tuple:
     return starts, c.astype(np.intp), A[r, c], traceless
 
 
+#: interval noise beyond this (a density near 1e300) leaves the fused U(3) closed form,
+#: whose cubic overflows: the reference route's exponential then takes eigh
+#: (`holonomy.groups._group._large_by_eigh`); ordinary noise is of order 1
+_FUSED_NOISE_MAX = 1e5
+
+
+def _beyond_closed_form(variables: np.ndarray) -> bool:
+    return bool(np.abs(variables).max() > _FUSED_NOISE_MAX)
+
+
 class MatrixKernel(MatrixStorage):
     """Elements as (..., N, N) matrices; any group."""
 
@@ -85,7 +95,8 @@ class MatrixKernel(MatrixStorage):
         each link's Hermitian ``H = -i X`` as nine reals from the sparse map, the closed
         form in real arithmetic, the pairwise product; None (the reference route of
         `holonomy._sampling._holonomies`) otherwise. ``variables`` is consumed."""
-        if not (algebra and self.fuses_algebra) or variables.shape[1] == 0:
+        if not (algebra and self.fuses_algebra) or variables.shape[1] == 0 \
+                or _beyond_closed_form(variables):
             return None
         rows, cols, coef, traceless = self._hermitian_map
         levels, steps = _per_plan(self, plan, "levels", _plan_levels)
@@ -327,7 +338,7 @@ class FastMatrixKernel(MatrixKernel):
             out = self._fast.matrix_holonomies_group(np.ascontiguousarray(variables), side,
                                                      order, parent, links, flips, offsets)
             return [out[:, j] for j in range(out.shape[1])]
-        if not self.fuses_algebra:
+        if not self.fuses_algebra or _beyond_closed_form(variables):
             return None
         order, parent, side, links, dirs, offsets = _flat_plan(self, plan, True)
         out = self._fast.u3_holonomies_algebra(np.ascontiguousarray(variables, dtype=float),

@@ -359,7 +359,7 @@ class WilsonScheme(Scheme):
         m = variances.size
         group = kernel.group
         k = group.k
-        with np.errstate(divide="ignore"):
+        with np.errstate(divide="ignore", over="ignore"):  # a subnormal variance: inf
             conc = np.where(variances > 0, k / np.where(variances > 0, variances, 1), np.inf)
         if _is_u1(group):
             # X = i / sqrt(k) is the unit basis vector: exp(c X) = exp(i c / sqrt(k))

@@ -176,6 +176,13 @@ def plot_decompactify(spec: Spec, obj: dict, out: str) -> str:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
+    from ._report import quiet_plot_warnings
+
+    with quiet_plot_warnings():  # user-chosen names: missing glyphs, tight layout
+        return _draw_decompactify(spec, obj, out, plt)
+
+
+def _draw_decompactify(spec: Spec, obj: dict, out: str, plt) -> str:
     problem = geometry_problem(spec)
     group, rep, field = problem.group, problem.rep, problem.field
     lams = np.linspace(0.05, 2.0, 24) * field.coupling

@@ -214,6 +214,24 @@ def _unit_basis(family: str, n: int) -> np.ndarray:
     return np.array(mats)
 
 
+#: algebra elements with a 1-norm above this take the eigh route: the closed form of
+#: U(3) overflows ((c_1/3)^1.5 near 1e300) and scaling and squaring compounds its
+#: rounding over about log2(norm) squarings until it overflows (a density near 1e300);
+#: eigh stays unitary at any norm. No ordinary draw comes near (norms of order 10)
+_EIGH_NORM = 1e6
+
+
+def _large_by_eigh(route, X: np.ndarray, real: bool = False) -> np.ndarray:
+    """``route(X)``, with the matrices of norm above `_EIGH_NORM` by `expm_eigh`."""
+    norm = np.abs(X).sum(axis=-2).max(axis=-1)
+    big = norm > _EIGH_NORM
+    if not big.any():
+        return route(X)
+    out = route(np.where(big[..., None, None], 0.0, X))
+    out[big] = expm_eigh(X[big], real=real)
+    return out
+
+
 @dataclass(frozen=True)
 class Group:
     """A compact matrix group with an Ad-invariant metric; build it with `make_group`.
@@ -385,12 +403,12 @@ class Group:
             if N == 3:
                 return expm_so3(X)
             if N <= _TAYLOR_MAX_N:
-                return expm_taylor(X)
+                return _large_by_eigh(expm_taylor, X, real=True)
             return expm_eigh(X, real=True)
         if N == 3:  # U(3), SU(3)
-            return expm_u3(X.astype(complex, copy=False))
+            return _large_by_eigh(expm_u3, X.astype(complex, copy=False))
         if N <= _TAYLOR_MAX_N:
-            return expm_taylor(X.astype(complex, copy=False))
+            return _large_by_eigh(expm_taylor, X.astype(complex, copy=False))
         return expm_eigh(X)
 
     # ---------------------------------------------------------- group elements

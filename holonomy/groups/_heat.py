@@ -874,8 +874,9 @@ def _eig3(H: np.ndarray) -> np.ndarray:
     dfi = d.real * f.imag + d.imag * f.real
     c0 = a * b * c + 2.0 * (dfr * e.real + dfi * e.imag) - a * ff - b * ee - c * dd
     p = np.sqrt(c1 / 3.0)
+    p3 = p * p * p  # 0 for the tiniest times (H about 1e-161): any angle will do there
     with np.errstate(divide="ignore", invalid="ignore"):
-        arg = np.where(p > 0, c0 / (2.0 * p * p * p), 0.0)
+        arg = np.where(p3 > 0, c0 / (2.0 * p3), 0.0)
     phi = np.arccos(np.clip(arg, -1.0, 1.0)) / 3.0
     out = np.empty(H.shape[:-1])
     for k in range(3):
@@ -894,6 +895,9 @@ def _torus_coords(law: _TorusLaw, H: np.ndarray) -> np.ndarray:
     return w[..., -law.m:]  # eigenvalues come in pairs +-x (and 0 for SO(odd))
 
 
+#: below this time a proposal is accepted outright (`_torus_accept`)
+_TINY_TIME = 1e-30
+
 #: the other images are left out of the acceptance where their total weight is below
 #: this fraction of the representative's: r moves by less than 2e-20, far below the
 #: law error bound of the route (1e-18 per draw); the compiled kernels use the same rule
@@ -908,6 +912,14 @@ def _torus_accept(law: _TorusLaw, x: np.ndarray, t: np.ndarray) -> np.ndarray:
     `_IMAGE_SKIP` times the representative's weight, r is the representative's term
     ``prod_a sin(a(x)/2) / (a(x)/2)`` alone.
     """
+    tiny = t < _TINY_TIME
+    if tiny.any():
+        # r = 1 - O(|x|^2) with |x|^2 about t dim: 1 in double below 1e-30, where the
+        # root products below underflow to 0 / 0
+        r = np.ones(len(x))
+        if not tiny.all():
+            r[~tiny] = _torus_accept(law, x[~tiny], t[~tiny])
+        return r
     x = _nearest_representative(x, law.lattice)
     ax = x @ law.roots.T
     gnorm = np.sqrt(np.einsum("im,im->i", law.images, law.images))
@@ -977,6 +989,57 @@ def _torus_draw(group, law: _TorusLaw, t: np.ndarray, rng) -> np.ndarray:
     return out if out is not None else np.empty(t.shape + (group.N, group.N), group.dtype)
 
 
+#: total variation to Haar measure below which a long time is drawn as `_mixing_time`
+_MIXING_TV = 2.5e-19
+#: times up to this many pieces are always drawn in full (every ordinary cell time)
+_LONG_PIECES = 64
+#: the character sum of `_mixing_time` keeps the terms with c t0 <= this
+_MIXING_CUT = 40.0
+#: candidate weights `_mixing_time` may list (about 0.3 s); beyond, long times are
+#: drawn in full (a stated limit: SU(n), n >= 9, at cell times of thousands of pieces)
+_MIXING_MAX_TERMS = 2_000_000
+
+
+@lru_cache(maxsize=None)
+def _mixing_time(family: str, n: int, k: float) -> float:
+    """A time T beyond which the heat kernel of ``family(n)`` is within `_MIXING_TV` of
+    Haar measure in total variation; so is it at T, and a longer time is drawn as T
+    (the two laws then differ by at most ``2 _MIXING_TV``), instead of as ever more
+    pieces.
+
+    By Peter-Weyl and Parseval, ``p_t = sum_lam d_lam chi_lam e^{-c_lam t/2}`` has
+    ``||p_t - 1||_1^2 <= ||p_t - 1||_2^2 = S(t) = sum_{lam != 0} d_lam^2 e^{-c_lam t}``
+    and ``S(t) <= e^{-c_min (t - t0)} S(t0)`` for ``t >= t0`` (c_min the least non-zero
+    Casimir), so ``T = t0 + log(S(t0) / (4 _MIXING_TV^2)) / c_min``. ``S(t0)`` at
+    ``t0 = 4 / s`` (s the Casimir scale) is the character sum over the irreducibles
+    with ``c t0 <= 40`` (Weyl dimensions and Casimirs of `holonomy.groups._weights`);
+    the terms beyond add ``e^{-40}`` times a polynomial, a small fraction of S(t0)
+    (which only enters through its logarithm).
+
+    References
+    ----------
+    .. [1] P. Diaconis, "Group Representations in Probability and Statistics", IMS
+       Lecture Notes 11 (1988), ch. 3, Lemma 1 (the upper bound lemma, from memory).
+    """
+    from ._weights import _weight_system
+
+    W = _weight_system(family, n, float(k))
+    t0 = 4.0 / W.s  # Casimirs scale as s = 1/k or 1/(2k): c t0 is then free of k
+    # c(nu) = s (nu^T G nu - rho^T G rho) >= s (g_min |nu|^2 - rho^T G rho)
+    g_min = float(np.linalg.eigvalsh(W.G).min())
+    q_rho = float(W.rho_x @ W.G @ W.rho_x)
+    radius = math.sqrt((_MIXING_CUT / (W.s * t0) + q_rho) / g_min) + 1.0
+    if math.comb(int(2 * radius) + 2, W.r) > _MIXING_MAX_TERMS:
+        return math.inf  # too many irreducibles to list (SU(n), n >= 9): no cap
+    nus = W.irreducibles(radius)
+    c = W.casimir(nus)
+    d = np.abs(W.dimension(nus))
+    nontrivial = c > 1e-9 * max(1.0, float(c.max()))
+    c_min = float(c[nontrivial].min())
+    S0 = float(np.sum(d[nontrivial] ** 2 * np.exp(-c[nontrivial] * t0)))
+    return t0 + math.log(S0 / (4.0 * _MIXING_TV ** 2)) / c_min
+
+
 def _heat_torus(group, tt, size, rng, draw=None):
     """Exact heat kernel through `_torus_law`, U(n) as centre times SU(n).
 
@@ -996,11 +1059,18 @@ def _heat_torus(group, tt, size, rng, draw=None):
     if law is None:  # U(2): centre times the SU(2) sampler
         U = np.asarray(heat_kernel(base, t1, size, rng=rng), dtype=group.dtype)
     else:
-        pieces = np.where(t1 > 0, np.ceil(t1 / law.piece), 0).astype(np.intp)
+        # beyond the mixing time the law is Haar measure to 2.5e-19: draw that time
+        # (shorter times, every ordinary one, are drawn as before)
+        ts = t1
+        if np.any(t1 > _LONG_PIECES * law.piece):  # only long times pay for the bound
+            t_cap = max(_mixing_time(base.family, base.n, float(base.k)),
+                        _LONG_PIECES * law.piece)
+            ts = np.minimum(t1, t_cap)
+        pieces = np.where(ts > 0, np.ceil(ts / law.piece), 0).astype(np.intp)
         U = None
         for i in range(int(pieces.max()) if t1.size else 0):
             cols = np.flatnonzero(pieces > i)
-            tp = np.broadcast_to(t1[cols] / pieces[cols], (size, cols.size)).ravel()
+            tp = np.broadcast_to(ts[cols] / pieces[cols], (size, cols.size)).ravel()
             V = (draw or _torus_draw)(base, law, tp, rng).reshape(size, cols.size, group.N, group.N)
             if U is None and cols.size == t1.size:  # every time drawn: no identity fill
                 U = V
