@@ -62,17 +62,29 @@ def _missing(note: str = "") -> LatticeValue:
     return LatticeValue(None, None, NOT_AVAILABLE + note)
 
 
+#: the note of a value beyond double precision (a formal value of a large negative
+#: density grows like exp(c lambda |A| / 2)); the routes run with numpy's overflow
+#: warnings off and the value is checked instead
+_NOT_FINITE = (" (precision limit: the value is not finite in double precision at this "
+               "coupling and density)")
+
+
+def _finite(value: complex) -> bool:
+    return math.isfinite(value.real) and math.isfinite(value.imag)
+
+
 def loop_value(group, rep: str, loop, coupling: float, area) -> LatticeValue:
     """The exact (continuum) Wilson loop of ``loop`` from :func:`exact_wilson_loop`."""
     try:
-        out = exact_wilson_loop(group, rep, loop, coupling=coupling, area=area)
+        with np.errstate(over="ignore", invalid="ignore"):  # checked below
+            out = exact_wilson_loop(group, rep, loop, coupling=coupling, area=area)
     except _NOT_COVERED as exc:
         return _missing(f" ({exc})")
     if out is None:
         return _missing()
     value = complex(out.value)
-    if not (math.isfinite(value.real) and math.isfinite(value.imag)):
-        return _missing()
+    if not _finite(value):
+        return _missing(_NOT_FINITE)
     return LatticeValue(value, str(out.method))
 
 
@@ -126,12 +138,13 @@ def wilson_action_value(problem, i: int) -> LatticeValue:
 
 def _lattice_value(fn, *args) -> LatticeValue:
     try:
-        out = fn(*args)
+        with np.errstate(over="ignore", invalid="ignore"):  # checked below
+            out = fn(*args)
     except ExactRouteError as exc:
         return _missing(f" ({exc})")
     value = complex(out.value)
-    if not (math.isfinite(value.real) and math.isfinite(value.imag)):
-        return _missing(" (the value is not finite)")
+    if not _finite(value):
+        return _missing(_NOT_FINITE)
     return LatticeValue(value, str(out.method))
 
 
@@ -198,7 +211,11 @@ def gaussian_scheme_value(problem, i: int, scheme: str) -> LatticeValue:
         t = np.asarray(t)
         method = "linear scheme, columns on the reference line: product of Gaussian steps"
     try:
-        f = np.asarray(gaussian_step(group.family, group.n, t, group.k))
+        with np.errstate(over="ignore", invalid="ignore"):  # checked below
+            f = np.asarray(gaussian_step(group.family, group.n, t, group.k))
+            value = complex(np.prod(f))
     except _NOT_COVERED as exc:
         return _missing(f" ({exc})")
-    return LatticeValue(complex(np.prod(f)), method)
+    if not _finite(value):
+        return _missing(_NOT_FINITE)
+    return LatticeValue(value, method)

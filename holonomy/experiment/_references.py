@@ -37,7 +37,8 @@ def gaussian_matrix_field(group, rep, loop, coupling, area, order: int = GAUSSIA
     (:func:`holonomy.gaussian_matrix`) for a simple loop, with its series and the
     first order at which it differs from the exact value; ``(None, note)`` otherwise."""
     try:
-        ev = exact_wilson_loop(group, rep, loop, coupling=1.0, area=area)
+        with np.errstate(over="ignore", invalid="ignore"):  # only its route is read
+            ev = exact_wilson_loop(group, rep, loop, coupling=1.0, area=area)
     except (ValueError, NotImplementedError, ArithmeticError) as exc:
         return None, f"{NOT_AVAILABLE} ({exc})"
     if ev is None or ev.method != "simple-loop":
@@ -53,7 +54,8 @@ def gaussian_matrix_field(group, rep, loop, coupling, area, order: int = GAUSSIA
         return None, f"{NOT_AVAILABLE} ({exc})"
     except OverflowError:
         return None, overflow
-    if not all(math.isfinite(c) for c in g.coefficients):
+    if not all(math.isfinite(c) for c in g.coefficients) or (
+            g.value is not None and not math.isfinite(abs(complex(g.value)))):
         return None, overflow
     return {"value": None if g.value is None else complex(g.value).real,
             "order": order, "coefficients": g.coefficients, "rationals": g.rationals,

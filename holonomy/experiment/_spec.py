@@ -214,6 +214,9 @@ def format_spec_keys(*, markdown: bool = False) -> str:
 #: the largest coupling x density x area the engine takes: heat-kernel times and
 #: Wick variances then stay finite, with room for Casimirs (at most about 1e4) and sums
 MAX_TIME = 1e300
+#: the largest variance of a formal run's imaginary link noise (complex rotation): its
+#: exponentials reach about exp(7 sqrt(1e3)) = 1e96 at seven standard deviations
+MAX_FORMAL_VARIANCE = 1e3
 
 LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM,
           "representation dimension": MAX_REP_DIM, "power": MAX_POWER,
@@ -222,7 +225,8 @@ LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM,
           # bytes of one chunk of a block (holonomy.block_memory), checked when the
           # problem is built (holonomy.check_block_memory, the same for every command)
           "block memory": BLOCK_MEMORY,
-          "coupling x density x area": MAX_TIME}
+          "coupling x density x area": MAX_TIME,
+          "formal run link variance": MAX_FORMAL_VARIANCE}
 
 
 class SpecError(ValueError):
@@ -883,7 +887,8 @@ def _extent_iv(loops: tuple[LoopSpec, ...], spacing: float, reference: float | N
                         "> 1e-9 times the largest coordinate")
 
 
-def _time_iv(coupling: float, density, loops: tuple[LoopSpec, ...], spacing: float) -> None:
+def _time_iv(coupling: float, density, loops: tuple[LoopSpec, ...], spacing: float, *,
+             formal_run: bool = False) -> None:
     """Refuse a coupling and density whose product with the loops' area (their bounding
     boxes', times the turns) passes `MAX_TIME`, near the end of double precision, where
     exact times and variances would be inf: on ``field.density``."""
@@ -898,6 +903,20 @@ def _time_iv(coupling: float, density, loops: tuple[LoopSpec, ...], spacing: flo
                         f"coupling {coupling!r}: coupling x density x the loops' area "
                         f"(x turns) is {time:.3g}; expected at most {MAX_TIME:.0e}, "
                         "within double precision")
+    if formal_run:
+        # complex rotation: a link of the negative part is exp of an imaginary noise of
+        # this variance at most (a column across the loops), and its cosh overflows
+        # double precision near exp(710)
+        neg = max(-v for v in values if v < 0)
+        extent = max(max(b[2] - b[0], b[3] - b[1]) for b in boxes) + 2 * spacing
+        variance = coupling * neg * spacing * extent
+        if not variance <= MAX_FORMAL_VARIANCE:
+            raise SpecError("field.density", f"got a most negative density of {-neg!r} "
+                            f"with coupling {coupling!r}: the formal run's links would have "
+                            f"imaginary noise of variance up to {variance:.3g}; expected at "
+                            f"most {MAX_FORMAL_VARIANCE:g} for `run` (their exponentials "
+                            "leave double precision; `whitegauge exact` and `whitegauge "
+                            "series` take it)")
 
 
 def _rep_iv(obs: dict, family: str, n: int) -> str:
@@ -1018,7 +1037,7 @@ def _spec_iv(data: dict, *, text: str, default_name: str, purpose: str,
         seen[loop.name] = i
 
     _extent_iv(loops, spacing, reference, gauge)
-    _time_iv(coupling, density, loops, spacing)
+    _time_iv(coupling, density, loops, spacing, formal_run=purpose == "run" and signed)
 
     correlators = _correlators_iv(data, tuple(loop.name for loop in loops))
 

@@ -34,7 +34,10 @@ from holonomy.groups._weights import _weight_system
 FAMILIES = [("U", 1), ("U", 2), ("SU", 2), ("SU", 3), ("SO", 3), ("Sp", 1)]
 SCHEMES = ["heat", "linear", "gauss", "wilson"]
 DENSITIES = [1e-320, 1e-12, 1e-9, 1e-3, 1.0, 1e3, 1e6, 1e12, 1e300]
-FAST = (1e-320, 1e-9, 1e6, 1e300)
+FAST = (1e-320, 1e-9, 1e6, 1e300, -1e300)
+#: signed densities: formal values (exact and series; a formal run is refused beyond
+#: its variance limit, see test_formal_run_beyond_its_limit_is_refused)
+NEGATIVE = [-1e3, -1e300]
 COMMANDS = ["exact", "run", "series"]
 
 #: fields that are null only with a note, and the note's key
@@ -79,7 +82,7 @@ def _cases(densities):
             if scheme == "wilson" and (family, n) not in (("U", 1), ("SU", 2)):
                 continue  # the scheme supports U(1) and SU(2) only (README.md, Schemes)
             for command in COMMANDS:
-                for d in densities:
+                for d in densities + ([] if command == "run" else NEGATIVE):
                     fast = d in FAST and (command != "run" or family in ("U", "SU"))
                     marks = () if fast else (pytest.mark.slow,)
                     yield pytest.param(scheme, family, n, command, {"density": d},
@@ -216,3 +219,21 @@ def test_decompactify_plot_with_unicode_and_long_names_is_quiet(tmp_path, capfd)
     assert (tmp_path / "d" / "decompactify.png").stat().st_size > 0
     saved = json.loads((tmp_path / "d" / "decompactify.json").read_text())
     assert any(len(r["loop"]) > 10000 for r in saved["results"])
+
+
+def test_formal_run_beyond_its_limit_is_refused(tmp_path, capfd):
+    """density -1e300 with a Gaussian scheme: the complex rotation's exponentials
+    would overflow; `run` refuses it on field.density (exit 2, one line), `exact` gives
+    a null with a precision note."""
+    path = tmp_path / "formal.toml"
+    path.write_text(_spec("SU", 2, "gauss", density=-1e300))
+    capfd.readouterr()
+    assert main(["run", str(path), "--out", str(tmp_path / "o")]) == 2
+    err = capfd.readouterr().err
+    assert err.count("\n") == 1 and "error: field.density: " in err, err
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        assert main(["exact", str(path), "--json"]) == 0
+    out, err = capfd.readouterr()
+    row = json.loads(out)["results"][0]
+    assert err == "" and row["exact"] is None and "precision limit" in row["exact_note"]
