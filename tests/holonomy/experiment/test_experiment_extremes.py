@@ -1,9 +1,11 @@
 """Every command at the extremes of accepted input (issue 17, item 3): scheme x family
 x density through ``exact``, ``run`` (64 samples) and ``series`` (order 2), with every
 warning an error. A successful command prints nothing on stderr (``--json``), writes no
-NaN or inf, and a null always carries its note. The default suite runs the densities
-1e-320, 1e-9, 1e6 and 1e300; the full grid (nine densities and the couplings 1e-100
-and 1e100) is marked slow.
+NaN or inf, and a null always carries its note. The default suite runs a cross-section
+(``exact`` at the densities 1e-320, 1e-9, 1e6, 1e300 and -1e300 for every scheme and
+family, ``series`` for SU(2), ``run`` at 1e-320 and 1e300 for U(1), U(2) and SU(3));
+the full grid (nine densities, two negative ones, the couplings 1e-100 and 1e100) is
+marked slow.
 
 References for the values checked here: the Haar limit of a correlator of two copies
 of a loop, ``E[chi(U)^2] / d^2 = 1 / d^2`` for a real irreducible character of
@@ -83,7 +85,10 @@ def _cases(densities):
                 continue  # the scheme supports U(1) and SU(2) only (README.md, Schemes)
             for command in COMMANDS:
                 for d in densities + ([] if command == "run" else NEGATIVE):
-                    fast = d in FAST and (command != "run" or family in ("U", "SU"))
+                    fast = d in FAST and {  # the default suite: a cheap cross-section
+                        "exact": True, "series": (family, n) == ("SU", 2),
+                        "run": d in (1e-320, 1e300) and (family, n) in (
+                            ("U", 1), ("U", 2), ("SU", 3))}[command]
                     marks = () if fast else (pytest.mark.slow,)
                     yield pytest.param(scheme, family, n, command, {"density": d},
                                        marks=marks, id=f"{command}-{scheme}-{family}{n}-{d:g}")
