@@ -11,6 +11,7 @@ because it uses both (the exact package sits below them).
 from __future__ import annotations
 
 import math
+import numbers
 from dataclasses import dataclass
 
 import sympy
@@ -109,6 +110,11 @@ def gaussian_matrix(group, rep, area: float, coupling: float, order: int = 4
     >>> g.rationals, g.first_difference     # (1 - t/4) e^(-t/8) against e^(-3t/8)
     (['1', '-3/8', '5/128'], 2)
     """
+    for key, v in (("area", area), ("coupling", coupling)):
+        if isinstance(v, bool) or not isinstance(v, numbers.Real):
+            raise TypeError(f"`{key}` must be a finite number, got {v!r}.")
+        if not math.isfinite(v):
+            raise ValueError(f"`{key}` must be a finite number, got {v!r}.")
     rep_obj = group.rep(rep) if isinstance(rep, str) else rep
     t = float(coupling) * float(area)
     note = None

@@ -106,6 +106,10 @@ def lattice_series(problem: "LatticeProblem", loop_index: int = 0, order: int = 
     SeriesResult
         ``value(lam)`` evaluates the truncated series; it is a series, not an estimate.
     """
+    from ._sampling import LatticeProblem
+
+    if not isinstance(problem, LatticeProblem):
+        raise TypeError(f"`problem` must be a LatticeProblem, got {type(problem).__name__}.")
     if isinstance(order, bool) or not isinstance(order, numbers.Integral) or order < 0:
         raise ValueError(f"`order` must be an integer >= 0, got {order!r}.")
     if not 0 <= loop_index < len(problem.loops):

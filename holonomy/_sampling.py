@@ -31,7 +31,7 @@ from typing import Sequence
 
 import numpy as np
 
-from discretize import AreaForm, Grid, LatticeLoop, axial_plan
+from discretize import AreaForm, Grid, LatticeLoop, Loop, axial_plan
 from discretize._axial import GAUGES, frame_cells
 from noise import ArgumentError, block_rng, cell_noise, interval_sums
 
@@ -137,6 +137,10 @@ class LatticeProblem:
         if not self.loops:
             raise ArgumentError("loops", "got none; expected at least one loop",
                                 "`loops` is empty: give at least one loop.")
+        for i, lp in enumerate(self.loops):
+            if not isinstance(lp, (Loop, LatticeLoop)):
+                raise TypeError(f"`loops[{i}]` must be a discretize.Loop or LatticeLoop, "
+                                f"got {type(lp).__name__}.")
         names = tuple(self.names) or tuple(f"loop{i}" for i in range(len(self.loops)))
         if len(names) != len(self.loops):
             raise ValueError(
@@ -910,10 +914,13 @@ def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fund
     -------
     EstimateResult
     """
-    if isinstance(group, tuple):
+    if isinstance(group, tuple) and len(group) == 3:
         family, n, metric = group
-    else:
+    elif all(hasattr(group, a) for a in ("family", "n", "metric")):
         family, n, metric = group.family, group.n, group.metric
+    else:
+        raise TypeError(f"`group` must be a Group (make_group) or (family, n, metric), got "
+                        f"{group!r}.")
     problem = WilsonProblem(family=family, n=n, metric=metric, field=field, loops=tuple(loops),
                             names=tuple(names), rep=rep, samples=samples, block=block,
                             seed=seed, path=path, correlators=tuple(correlators),

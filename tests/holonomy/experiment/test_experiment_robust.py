@@ -475,6 +475,14 @@ API_CASES = [
      "`samples` must be an integer from 2"),
     ("field-reference-nan", lambda: Field(coupling=1.0, spacing=0.5, reference=float("nan")),
      ValueError, "`reference` must be a finite number"),
+    ("estimate-group-str", lambda: _estimate("SU2", [_square_loop()]), TypeError,
+     "`group` must be a Group"),
+    ("estimate-loop-int", lambda: _estimate(("SU", 2, "physics"), [3]), TypeError,
+     "must be a discretize.Loop or LatticeLoop"),
+    ("lattice_series-problem", lambda: _lattice_series(3), TypeError,
+     "`problem` must be a LatticeProblem"),
+    ("gaussian_matrix-area-nan", lambda: _gaussian_matrix(float("nan")), ValueError,
+     "`area` must be a finite number"),
 ]
 
 
@@ -505,6 +513,23 @@ def test_api_refuses_representations_beyond_the_dimension_limit(call):
         call()
     assert info.value.argument == "rep"
     assert time.monotonic() - t0 < 5  # refused before any numerics (U(32): 16 GiB)
+
+
+def _estimate(group, loops):
+    from holonomy import estimate_wilson_loops
+    return estimate_wilson_loops(group, Field(coupling=1.0, spacing=0.5), loops, samples=8,
+                                 seed=0)
+
+
+def _lattice_series(problem):
+    from holonomy import lattice_series
+    return lattice_series(problem, 0, 2)
+
+
+def _gaussian_matrix(area):
+    from holonomy import gaussian_matrix
+    from holonomy.groups import make_group as group
+    return gaussian_matrix(group("SU", 2, "physics"), "fundamental", area, 1.0)
 
 
 @pytest.mark.parametrize("call,exc,match", [c[1:] for c in API_CASES],
