@@ -731,6 +731,23 @@ def test_every_command_refuses_sizes_beyond_the_limits(text, key, limits, comman
 _CONSOLE = Path(sys.executable).with_name("whitegauge")
 
 
+def _wait_until_sigint_is_caught(pid: int, timeout: float = 30.0) -> None:
+    """Wait until the interpreter has installed its SIGINT handler (bit 2 of SigCgt in
+    /proc/<pid>/status, proc(5)): before that no program can catch the signal, and on a
+    loaded machine a fixed delay can fall before it."""
+    end = time.monotonic() + timeout
+    while time.monotonic() < end:
+        try:
+            status = Path(f"/proc/{pid}/status").read_text()
+        except OSError:
+            return
+        caught = next((ln.split()[1] for ln in status.splitlines()
+                       if ln.startswith("SigCgt:")), "0")
+        if int(caught, 16) & (1 << (signal.SIGINT - 1)):
+            return
+        time.sleep(0.005)
+
+
 @pytest.mark.skipif(not (_CONSOLE.is_file() and "whitegauge_console" in _CONSOLE.read_text()),
                     reason="the console script of this checkout is not installed")
 @pytest.mark.parametrize("delay", [0.1, 0.4])
@@ -740,6 +757,7 @@ def test_ctrl_c_while_importing_exits_130_with_one_line(delay, tmp_path):
     p = subprocess.Popen([str(_CONSOLE), "run", str(_write(tmp_path)), "--out",
                           str(tmp_path / "o"), "--quiet"], stdout=subprocess.PIPE,
                          stderr=subprocess.PIPE, text=True, start_new_session=True)
+    _wait_until_sigint_is_caught(p.pid)
     time.sleep(delay)
     os.killpg(p.pid, signal.SIGINT)
     _, err = p.communicate(timeout=60)
