@@ -34,7 +34,7 @@ import numpy as np
 
 from noise import block_rng
 
-from ._estimate import BlockSums, EstimateResult
+from ._estimate import BlockSums, EstimateResult, correlator_subsets
 from ._lattice_series import gauss_axial_factors, lattice_loadings
 from ._sampling import WilsonProblem
 from ._schemes import SCHEMES
@@ -107,7 +107,8 @@ def formal_block(problem: WilsonProblem, block: int) -> BlockSums:
         res = ordered_product(group, inc, complexified=True)
         values[:, i] = np.trace(res.value, axis1=-2, axis2=-1) / group.N
         drift = max(drift, res.drift or 0.0)
-    return BlockSums.from_values(block, values, drift)
+    return BlockSums.from_values(block, values, drift,
+                                 subsets=correlator_subsets(problem.correlators))
 
 
 def formal_estimate(problem: WilsonProblem) -> EstimateResult:

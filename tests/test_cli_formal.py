@@ -14,6 +14,8 @@ from __future__ import annotations
 import json
 import math
 
+import pytest
+
 SPEC = '''
 name = "formal"
 [group]
@@ -83,3 +85,56 @@ def test_exact_is_flagged_formal(tmp_path, capsys):
     assert abs(obj["results"][0]["continuum"] - math.exp(3 / 16)) < 1e-12
     code, out, err = _main(tmp_path, capsys, "heat", "exact")
     assert "exact (continuum) (formal)" in out and "gaussian matrix" in out
+
+
+CORRELATOR_SPEC = '''
+name = "formal-pair"
+[group]
+family = "U"
+n = 1
+metric = "physics"
+[field]
+coupling = 1.0
+spacing = 0.25
+scheme = "{scheme}"
+density = -1.0
+[[loops]]
+name = "inner"
+vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 1.0], [0.0, 1.0]]
+[[loops]]
+name = "outer"
+vertices = [[0.0, 0.0], [2.0, 0.0], [2.0, 1.0], [0.0, 1.0]]
+[[correlators]]
+loops = ["inner", "outer"]
+[run]
+samples = 8000
+block = 2000
+seed = 5
+'''
+
+
+@pytest.mark.parametrize("scheme", ["linear", "gauss"])
+def test_formal_run_with_a_correlator(scheme, tmp_path, capsys):
+    """A signed density with [[correlators]]: the correlator is a formal complex-rotation
+    estimate (it was an internal error: the blocks carried no products). U(1) with the
+    physics metric (Casimir 1/2): the formal Gaussian expectation of exp(i sum_f n_f X_f)
+    with variances lambda mu_f is exp(-(1/2) sum_f n_f^2 lambda mu_f / 2) continued to
+    mu_f < 0 (Isserlis 1918, summed as an exponential series); the faces here are the
+    inner square (winding 2 in the product) and the rest of the outer rectangle
+    (winding 1): exponent +(4 * 1 + 1 * 1) / 4."""
+    from holonomy.cli import main
+
+    spec = tmp_path / "s.toml"
+    spec.write_text(CORRELATOR_SPEC.format(scheme=scheme))
+    assert main(["run", str(spec), "--out", str(tmp_path / "o"), "--json"]) == 0
+    out = capsys.readouterr()
+    assert out.err == ""
+    c = json.loads(out.out)["correlators"][0]
+    assert c["formal"] is True and c["loops"] == ["inner", "outer"]
+    exact = math.exp((4 * 1.0 + 1 * 1.0) / 4)
+    assert c["exact"] == pytest.approx(exact, rel=1e-12)
+    assert abs(c["estimate"] - exact) < 4 * c["stderr"]
+    # connected part: E[W1 W2] - E[W1] E[W2] with E[W1] = e^{1/4}, E[W2] = e^{2/4}
+    connected = exact - math.exp(1 / 4) * math.exp(2 / 4)
+    assert c["exact_connected"] == pytest.approx(connected, rel=1e-12)
+    assert abs(c["connected"] - connected) < 4 * c["connected_stderr"]

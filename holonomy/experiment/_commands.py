@@ -122,7 +122,8 @@ def _master_field_results(spec: Spec, problem, order: int | None = None) -> dict
             vals = [next(r["exact"] for r in rows if r["loop"] == n) for n in names]
             ok = all(v is not None for v in vals)
             out["correlators"].append({
-                "loops": list(names), "kind": "correlator", "scheme": spec.scheme,
+                "loops": list(names), "kind": "correlator", "formal": bool(spec.signed),
+                "scheme": spec.scheme,
                 "exact": float(np.prod(vals)) if ok else None,
                 "exact_connected": 0.0 if ok else None,
                 "exact_method": "master field: traces factorize as N -> infinity"

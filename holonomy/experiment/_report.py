@@ -23,7 +23,8 @@ why a reference is null. Non-finite numbers are written as null.
 N(0, 1) (central limit theorem), so |z| > 4 flags a problem.
 
 ``correlators`` (one entry per ``[[correlators]]`` of the spec): ``loops`` (names),
-``kind`` (``"correlator"``), ``estimate``, ``estimate_imag``, ``stderr`` of
+``kind`` (``"correlator"``), ``formal`` (true for a signed density: a complex-rotation
+estimate of the formal expectation), ``estimate``, ``estimate_imag``, ``stderr`` of
 ``E[prod_i W(i)]``; ``connected``, ``connected_imag``, ``connected_stderr`` of its
 connected part (the joint cumulant; ``E[W1 W2] - E[W1] E[W2]`` for two loops; error by
 the delta method); ``exact``, ``exact_imag``, ``exact_connected``, ``exact_method``,
@@ -191,7 +192,7 @@ def correlator_rows(spec, problem, estimate=None) -> list[dict]:
     for k, idx in enumerate(spec.correlator_indices):
         ref = correlator_references(problem, idx, scheme=spec.scheme)
         row = {"loops": list(spec.correlators[k]), "kind": "correlator",
-               "scheme": spec.scheme, "exact": ref.exact, "exact_imag": ref.exact_imag,
+               "formal": bool(spec.signed), "scheme": spec.scheme, "exact": ref.exact, "exact_imag": ref.exact_imag,
                "exact_connected": ref.exact_connected, "exact_method": ref.exact_method,
                "exact_note": ref.exact_note}
         if k < len(ests):
@@ -397,23 +398,25 @@ def _correlator_table_rows(entries: list[dict]) -> list[list[str]]:
     rows = []
     for c in entries:
         name = "*".join(c["loops"])
+        formal = " (formal)" if c.get("formal") else ""
         first = True
         if c.get("estimate") is not None:
             z = "" if c.get("z") is None else f"; z = {c['z']:+.2f} vs exact"
-            rows.append([name, "correlator estimate",
+            how = "complex rotation, " if c.get("formal") else ""
+            rows.append([name, "correlator estimate" + formal,
                          fmt_value(c["estimate"], c["stderr"], "est"),
-                         f"E[prod W], {c.get('samples')} samples{z}"])
+                         f"E[prod W], {how}{c.get('samples')} samples{z}"])
             zc = "" if c.get("z_connected") is None else \
                 f"; z = {c['z_connected']:+.2f} vs exact"
-            rows.append(["", "connected estimate",
+            rows.append(["", "connected estimate" + formal,
                          fmt_value(c["connected"], c["connected_stderr"], "est"),
                          f"joint cumulant, delta-method error{zc}"])
             first = False
         why = c.get("exact_note") or "not available for these loops"
-        rows.append([name if first else "", "correlator exact",
+        rows.append([name if first else "", "correlator exact" + formal,
                      fmt_value(c.get("exact"), 0.0, "exact"),
                      c.get("exact_method") if c.get("exact") is not None else why])
-        rows.append(["", "connected exact", fmt_value(c.get("exact_connected"), 0.0, "exact"),
+        rows.append(["", "connected exact" + formal, fmt_value(c.get("exact_connected"), 0.0, "exact"),
                      "joint cumulant of the exact moments" if
                      c.get("exact_connected") is not None else why])
     return rows
