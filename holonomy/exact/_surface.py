@@ -977,16 +977,27 @@ def zero_instanton_series(group, rep, inside: float, total_area: float, order: i
     zw = np.zeros((1, W.r))
     # z lambda^-P = E[d(Y)^2] at lambda (variance G^-1 / (s lambda T))
     z = np.mean([dual.zero_sector(lam * T, 0.0, zw).real * lam**P for lam in lams])
+    kappas = [W.s * A * (T - A) / (2 * T) * float(mu @ W.G @ mu) for mu in weights]
+    if max(kappas) * lams[-1] > _MAX_EXPONENT:
+        # p_mu(lambda) is read off as the sector's value times e^{lambda kappa}: past
+        # e^709 the factor overflows and the sector's value has underflowed to 0
+        raise ExactRouteError(
+            "precision", f"the zero-instanton sector's Gaussian factor e^(lambda kappa) "
+            f"reaches e^{max(kappas) * lams[-1]:.3g} (largest weight of the representation "
+            f"{rep.name!r}, metric and area); double precision holds e^{_MAX_EXPONENT:g}: "
+            "the series is not computed (exact=True gives it as rationals)")
     out = np.zeros(order + 1)
     fact = np.array([math.factorial(m) for m in range(order + 1)], float)
-    for mu in weights:
-        kappa = W.s * A * (T - A) / (2 * T) * float(mu @ W.G @ mu)
+    for mu, kappa in zip(weights, kappas):
         vals = [dual.zero_sector(lam * A, lam * (T - A), mu[None, :]).real
                 * math.exp(lam * kappa) * lam**P for lam in lams]
         poly = np.linalg.solve(V, vals)  # p_mu(lambda) = sum_j poly_j lambda^j
         expo = (-kappa) ** np.arange(order + 1) / fact
         out += np.convolve(poly, expo)[: order + 1]
     return out / (z * rep.dim)
+
+
+_MAX_EXPONENT = 700.0  # below log(max double) = 709.78, with room for the polynomial
 
 
 def _exact_rational(x, what: str):

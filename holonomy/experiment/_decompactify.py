@@ -25,8 +25,8 @@ from typing import Iterable
 
 import numpy as np
 
-from holonomy.exact import (drawn_measure, exact_surface_wilson_loop, exact_wilson_loop,
-                            zero_instanton_series)
+from holonomy.exact import (ExactRouteError, drawn_measure, exact_surface_wilson_loop,
+                            exact_wilson_loop, zero_instanton_series)
 
 from ._commands import _order_iv, geometry_problem
 from ._report import printable, short_label
@@ -91,8 +91,12 @@ def decompactify_results(spec: Spec | str | os.PathLike, areas, order: int) -> d
                    else sv.zero_instanton.real, "coefficients": None,
                    "truncation_bound": sv.truncation_bound}
             if sv.value is not None and "inside" in sv.details:
-                details = sv.details
-                row["coefficients"] = [float(c) for c in _series_at(group, rep, details, T, order)]
+                try:
+                    row["coefficients"] = [float(c) for c in
+                                           _series_at(group, rep, sv.details, T, order)]
+                    details = sv.details
+                except ExactRouteError as exc:
+                    note = f"series: {exc}"
             elif sv.value is None:
                 note = sv.note
             else:
@@ -108,12 +112,17 @@ def decompactify_results(spec: Spec | str | os.PathLike, areas, order: int) -> d
             if c is not None and p == 1:
                 plane["coefficients"] = [(-c * A / 2) ** m / math.factorial(m) + 0.0
                                          for m in range(order + 1)]  # + 0.0: no -0
+            cs = None
             if not A > 0:  # no measure inside (a zero density): no scale to grow T by
                 note = ("the loop encloses no measure (A = 0): no extrapolation in 1/T; "
                         "its value is 1 at every T")
             else:
                 Ts = [A * f for f in _LIMIT_FACTORS]
-                cs = [_series_at(group, rep, details, T, order) for T in Ts]
+                try:
+                    cs = [_series_at(group, rep, details, T, order) for T in Ts]
+                except ExactRouteError as exc:
+                    cs, note = None, f"limit T -> infinity: {exc}"
+            if cs is not None:
                 x = [1 / T for T in Ts]
                 # linear extrapolation in 1/T from the two largest areas, and from the
                 # two smallest: their difference estimates the error

@@ -54,3 +54,21 @@ def test_plane_spec_refused(tmp_path):
     path.write_text(SPHERE.replace('[surface]\nkind = "sphere"\narea = 4.0\n', ""))
     proc = wg("decompactify", path, "--areas", "4", "--order", "2", check_code=2)
     assert "surface.kind" in proc.stderr
+
+
+def test_series_beyond_double_precision_is_a_note(tmp_path):
+    """A metric constant of 1e-6 puts the zero-instanton sector's Gaussian factor
+    e^(lambda kappa) near e^(5e5): the float series is refused with a precision-limit
+    note (it was an OverflowError, exit 1); the exact values still come out: with a
+    Casimir of order 1e6 the sector's exp(-c tau / 2) factor is 0 in double precision
+    (Witten 1991)."""
+    path = tmp_path / "s.toml"
+    path.write_text(SPHERE.replace('metric = "physics"', "metric = 1e-6"))
+    proc = wg("decompactify", path, "--areas", "2,4", "--order", "2", "--json",
+              check_code=0)
+    assert proc.stderr == ""
+    (res,) = json.loads(proc.stdout)["results"]
+    assert all(row["coefficients"] is None for row in res["rows"])
+    assert res["limit"]["coefficients"] is None
+    assert "precision limit" in res["note"]
+    assert all(row["exact"] == pytest.approx(0.0, abs=1e-300) for row in res["rows"])
