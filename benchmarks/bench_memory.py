@@ -5,8 +5,9 @@ Each case (group, scheme, grid cells, block) runs one block in a fresh process t
 every block before the slabs, forced by raising ``holonomy.BLOCK_MEMORY``; for schemes
 that do not read the cell noise its draw is also held, as it was), and ``after``, the
 engine as it is (slab by slab above the budget, the unread noise drawn and dropped).
-The script prints the peak resident memory each added to the process (``getrusage``
-max RSS after the block minus before it), the engine's estimate
+The script prints the peak resident memory each added to the process (the high-water
+mark ``VmHWM`` reset before the block with ``/proc/self/clear_refs``, minus the resident
+memory then; ``getrusage`` max RSS where that is not available), the engine's estimate
 (``holonomy.block_memory``), the block's wall time and the ratio after / before, all
 measured in the same run. ``before`` is skipped where its estimate is above
 ``--cap`` GiB (the machine may not hold it). Targets: ``after`` within
@@ -47,11 +48,26 @@ p = WilsonProblem(family=fam, n=n, metric="physics",
                   path="dense")
 _ = (p.plan, p.kernel, p.group.basis)
 est = block_memory(p, block, "dense")
-base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+
+
+def _status(key):  # KiB, from /proc/self/status (Linux)
+    for line in open("/proc/self/status"):
+        if line.startswith(key + ":"):
+            return int(line.split()[1])
+
+
+try:  # reset the high-water mark to the current RSS (Linux: clear_refs 5)
+    with open("/proc/self/clear_refs", "w") as f:
+        f.write("5")
+    base = _status("VmRSS")
+except OSError:
+    base = None
+if base is None:
+    base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
 t = time.perf_counter()
 b = run_block(p, 0)
 t = time.perf_counter() - t
-peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+peak = _status("VmHWM") or resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
 print(json.dumps({"mib": (peak - base) / 1024, "est": est / 2**20, "s": t,
                   "cells": p.grid.nx * p.grid.ny, "sum": float(b.sum_re.sum())}))
 """
