@@ -1019,7 +1019,7 @@ def _mixing_time(family: str, n: int, k: float) -> float:
     References
     ----------
     .. [1] P. Diaconis, "Group Representations in Probability and Statistics", IMS
-       Lecture Notes 11 (1988), ch. 3, Lemma 1 (the upper bound lemma, from memory).
+       Monograph Series 11 (1988), ch. 3, Lemma 1 (the upper bound lemma, from memory).
     """
     from ._weights import _weight_system
 

@@ -13,8 +13,8 @@ dimension d (Schur orthogonality: T. Brocker, T. tom Dieck, "Representations of
 Compact Lie Groups", Springer GTM 98 (1985), Theorem II.4.10, from memory); the SU(3)
 fundamental character has Haar mean 0 (the same theorem against the trivial
 character); the heat kernel's approach to Haar measure by the upper bound lemma
-(P. Diaconis, "Group Representations in Probability and Statistics", IMS Lecture Notes
-11 (1988), ch. 3, Lemma 1, from memory). Tolerances: 4 standard errors for estimates
+(P. Diaconis, "Group Representations in Probability and Statistics", IMS Monograph
+Series 11 (1988), ch. 3, Lemma 1, from memory). Tolerances: 4 standard errors for estimates
 (common practice, no source).
 """
 
