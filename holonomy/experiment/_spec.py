@@ -665,14 +665,14 @@ def _group_iv(data: dict, purpose: str = "run") -> tuple[str, int | str, str | f
         return family, "inf", "large-n"
     low = MIN_N[family]
     n = _integer(g, "n", "group.n", rule=f"an integer >= {low} for {family}")
-    try:
-        n = parse_n(family, n)
-    except ArgumentError as exc:
-        raise SpecError("group.n", exc.rule) from None
     high = MAX_MATRIX // 2 if family == "Sp" else MAX_MATRIX
     if matrix_size(family, n) > MAX_MATRIX:
         raise SpecError("group.n", f"got {n}; expected at most {high} for {family} "
                         f"(matrix size limit {MAX_MATRIX})")
+    try:
+        n = parse_n(family, n)
+    except ArgumentError as exc:
+        raise SpecError("group.n", exc.rule) from None
     rule = ", ".join(f'"{m}"' for m in METRICS)
     rule = f"one of {rule} or a number in [1e-6, 1e6]"
     if "metric" not in g:

@@ -78,8 +78,14 @@ def parse_family(family, allowed: tuple[str, ...] = FAMILIES) -> str:
     return fam
 
 
+#: largest matrix size of a group the engine builds (its algebra basis: 64^4 complex
+#: numbers, 256 MiB); the spec's own limit is smaller (holonomy.experiment.LIMITS)
+MAX_GROUP_MATRIX = 64
+
+
 def parse_n(family: str, n) -> int:
-    """``n`` as an int, checked against the family's smallest size :data:`MIN_N`."""
+    """``n`` as an int, checked against the family's smallest size :data:`MIN_N` and
+    the matrix size limit :data:`MAX_GROUP_MATRIX`."""
     if isinstance(n, bool) or not isinstance(n, numbers.Integral):
         raise TypeError(f"`n` must be an integer >= 1; got {n!r}.")
     n = int(n)
@@ -92,6 +98,11 @@ def parse_n(family: str, n) -> int:
             msg = (f"`n` must be >= {low} for {family}(n) ({family}({n}) is the trivial "
                    f"group); got n={n}.")
         raise ArgumentError("n", rule, msg)
+    if matrix_size(family, n) > MAX_GROUP_MATRIX:
+        # the orthonormal Lie-algebra basis alone holds about N^4 complex numbers
+        high = MAX_GROUP_MATRIX // 2 if family == "Sp" else MAX_GROUP_MATRIX
+        raise ArgumentError("n", f"got {n}; expected at most {high} for {family} (matrix "
+                            f"size limit {MAX_GROUP_MATRIX})")
     return n
 
 

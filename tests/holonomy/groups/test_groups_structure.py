@@ -168,6 +168,11 @@ def test_sp1_equals_su2():
     (("Sp", 0), ValueError, r"`n` must be an integer >= 1; got n=0 for Sp"),
     (("SO", 1), ValueError, r"`n` must be >= 2 for SO\(n\)"),
     (("U", 2.0), TypeError, r"`n` must be an integer"),
+    # the matrix size limit (holonomy/groups/_group.py MAX_GROUP_MATRIX): refused at
+    # once instead of a MemoryError when the algebra basis is first built
+    (("U", 10**6), ValueError, r"`n`: got 1000000; expected at most 64 for U"),
+    (("SU", 65), ValueError, r"`n`: got 65; expected at most 64 for SU"),
+    (("Sp", 33), ValueError, r"`n`: got 33; expected at most 32 for Sp"),
     (("U", 2, 0), ValueError, r"`metric` must be one of .* positive finite number; got 0"),
     (("U", 2, -1.5), ValueError, r"`metric` must be one of .*got -1.5"),
     (("U", 2, float("inf")), ValueError, r"`metric` must be .*got inf"),
