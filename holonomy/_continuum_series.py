@@ -43,7 +43,7 @@ from .exact import (evaluate_polygon, exact_surface_wilson_loop, exact_wilson_lo
                     unitary_casimir, unitary_dimension, zero_instanton_series)
 from .exact._dispatch import _lattice_shape, _polygon_shape
 from .exact._unitary import _hooks
-from ._series import SeriesResult
+from ._series import SeriesResult, series_order_iv
 
 __all__ = ["continuum_series", "exact_series", "surface_series", "SECTOR_NOTE"]
 
@@ -57,9 +57,7 @@ def _continuum_series_iv(group, turns, order, rep, exact):
     if not (hasattr(group, "basis") and hasattr(group, "N")):
         raise TypeError(f"`group` must be a Group from holonomy.groups.make_group; got "
                         f"{group!r}.")
-    if isinstance(order, (bool, np.bool_)) or not isinstance(order, numbers.Integral) \
-            or order < 0:
-        raise ValueError(f"`order` must be an integer >= 0; got {order!r}.")
+    order = series_order_iv(order)
     if isinstance(turns, (bool, np.bool_)) or not isinstance(turns, numbers.Integral) \
             or turns < 1:
         raise ValueError(f"`turns` must be an integer >= 1; got {turns!r}.")
@@ -233,9 +231,7 @@ def exact_series(group: Any, rep: Any, loop: Any, order: int, *,
        heat-kernel measure).
     .. [2] E. M. Rains, J. Theoret. Probab. 10 (1997) 659-679 (loops wound n times).
     """
-    if isinstance(order, (bool, np.bool_)) or not isinstance(order, numbers.Integral) \
-            or order < 0:
-        raise ValueError(f"`order` must be an integer >= 0; got {order!r}.")
+    order = series_order_iv(order)
     ev = exact_wilson_loop(group, rep, loop, coupling=1.0, area=area)
     if ev is None:
         return None
@@ -318,9 +314,7 @@ def surface_series(group: Any, rep: Any, loop: Any, order: int, *, genus: int,
     .. [2] E. Witten, "Two dimensional gauge theories revisited", J. Geom. Phys. 9 (1992)
        303-368 (the small-coupling limit at higher genus; from memory).
     """
-    if isinstance(order, (bool, np.bool_)) or not isinstance(order, numbers.Integral) \
-            or order < 0:
-        raise ValueError(f"`order` must be an integer >= 0; got {order!r}.")
+    order = series_order_iv(order)
     M = int(order)
     sv = exact_surface_wilson_loop(group, rep, loop, coupling=1.0, genus=genus,
                                    total_area=total_area, area=area)

@@ -17,7 +17,8 @@ from dataclasses import dataclass
 import sympy
 
 from ._continuum_series import _rational
-from ._series import MAX_GROUP_FACTOR_WORK, exp_product_series, group_factor_route
+from ._series import (MAX_GROUP_FACTOR_WORK, exp_product_series, group_factor_route,
+                      series_order_iv)
 from .exact import ExactRouteError, gaussian_step
 
 __all__ = ["gaussian_matrix", "GaussianMatrixValue"]
@@ -115,6 +116,7 @@ def gaussian_matrix(group, rep, area: float, coupling: float, order: int = 4
             raise TypeError(f"`{key}` must be a finite number, got {v!r}.")
         if not math.isfinite(v):
             raise ValueError(f"`{key}` must be a finite number, got {v!r}.")
+    order = series_order_iv(order)
     rep_obj = group.rep(rep) if isinstance(rep, str) else rep
     t = float(coupling) * float(area)
     note = None

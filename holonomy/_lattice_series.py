@@ -33,7 +33,7 @@ from discretize import AreaForm
 
 if TYPE_CHECKING:  # annotations only: the problem classes import the schemes
     from ._sampling import LatticeProblem
-from ._series import SeriesResult, exp_product_series, factor_product_series
+from ._series import SeriesResult, exp_product_series, factor_product_series, series_order_iv
 
 __all__ = ["lattice_covariance", "lattice_loadings", "lattice_series", "gauss_loadings",
            "gauss_series", "wilson_series"]
@@ -110,8 +110,7 @@ def lattice_series(problem: "LatticeProblem", loop_index: int = 0, order: int = 
 
     if not isinstance(problem, LatticeProblem):
         raise TypeError(f"`problem` must be a LatticeProblem, got {type(problem).__name__}.")
-    if isinstance(order, bool) or not isinstance(order, numbers.Integral) or order < 0:
-        raise ValueError(f"`order` must be an integer >= 0, got {order!r}.")
+    order = series_order_iv(order)
     if not 0 <= loop_index < len(problem.loops):
         raise ValueError(f"`loop_index` must be in [0, {len(problem.loops)}), got {loop_index!r}.")
     U, mu = lattice_loadings(problem, loop_index)
@@ -228,8 +227,7 @@ def gauss_series(problem: "LatticeProblem", loop_index: int = 0, order: int = 4,
     .. [1] Driver, B. K. (1989). Commun. Math. Phys. 123, 575-616.
     .. [2] Wick, G. C. (1950). Phys. Rev. 80, 268-272.
     """
-    if isinstance(order, bool) or not isinstance(order, numbers.Integral) or order < 0:
-        raise ValueError(f"`order` must be an integer >= 0, got {order!r}.")
+    order = series_order_iv(order)
     if not 0 <= loop_index < len(problem.loops):
         raise ValueError(f"`loop_index` must be in [0, {len(problem.loops)}), got {loop_index!r}.")
     U, mu, turns, route = gauss_loadings(problem, loop_index)
@@ -288,8 +286,7 @@ def wilson_series(problem: "LatticeProblem", loop_index: int = 0, order: int = 4
     .. [2] D. J. Gross and E. Witten, Phys. Rev. D 21 (1980) 446-453 (independent
        plaquettes in axial gauge on the plane).
     """
-    if isinstance(order, bool) or not isinstance(order, numbers.Integral) or order < 0:
-        raise ValueError(f"`order` must be an integer >= 0, got {order!r}.")
+    order = series_order_iv(order)
     g = problem.group
     rep = problem.rep if isinstance(problem.rep, str) else problem.rep.name
     if rep not in ("fundamental", "defining"):

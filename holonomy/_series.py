@@ -77,7 +77,7 @@ from typing import Any
 import numpy as np
 import sympy
 
-from noise import FormalGaussian
+from noise import ArgumentError, ArgumentTypeError, FormalGaussian
 
 from ._lie_words import (
     _EXACT_FAMILIES,
@@ -88,7 +88,27 @@ from ._lie_words import (
 )
 
 __all__ = ["SeriesResult", "exp_product_series", "factor_product_series",
-           "group_factor_route", "MAX_GROUP_FACTOR_WORK"]
+           "group_factor_route", "MAX_GROUP_FACTOR_WORK", "MAX_SERIES_ORDER", "series_order_iv"]
+
+#: the highest order of every series entry point (the ``series`` command's ``--order``
+#: and the Python functions alike): the Wick routes' work grows like (2M - 1)!! and
+#: the exact routes' Taylor terms like M times their exponents, so an order of 10**6
+#: would not finish; 20 is far beyond what any coupling needs in double precision
+MAX_SERIES_ORDER = 20
+
+
+def series_order_iv(order: Any, name: str = "order") -> int:
+    """``order`` as an int from 0 to :data:`MAX_SERIES_ORDER`: the one rule of every
+    series entry point. Raises :class:`noise.ArgumentTypeError` (not an integer) or
+    :class:`noise.ArgumentError` (out of range), argument ``name``."""
+    rule = f"an integer from 0 to {MAX_SERIES_ORDER}"
+    if isinstance(order, (bool, np.bool_)) or not isinstance(order, numbers.Integral):
+        raise ArgumentTypeError(name, f"got {order!r}; expected {rule}",
+                                f"`{name}` must be {rule}; got {order!r}.")
+    if not 0 <= order <= MAX_SERIES_ORDER:
+        raise ArgumentError(name, f"got {order!r}; expected {rule}",
+                            f"`{name}` must be {rule}; got {order!r}.")
+    return int(order)
 
 
 @dataclass
@@ -147,9 +167,7 @@ def _to_exact(v: Any) -> Any:
 
 
 def _exp_product_series_iv(group, cov, order, rep, exact):
-    if isinstance(order, (bool, np.bool_)) or not isinstance(order, numbers.Integral) \
-            or order < 0:
-        raise ValueError(f"`order` must be a non-negative integer; got {order!r}")
+    order = series_order_iv(order)
     if not isinstance(exact, (bool, np.bool_)):
         raise ValueError(f"`exact` must be True or False; got {exact!r}")
     fg = FormalGaussian(cov)  # `cov` validation: square, symmetric, finite

@@ -19,7 +19,7 @@ import sys
 import threading
 import traceback
 
-from holonomy import SCHEMES, __version__, study_schemes, study_spacings
+from holonomy import SCHEMES, __version__, series_order_iv, study_schemes, study_spacings
 from holonomy.experiment import (DEMO_GROUPS, MAX_SERIES_ORDER, MAX_WORKERS, BlockFailed,
                                  build_lattice, build_problem,
                                  Progress, SpecError, claim_folder, default_out,
@@ -71,11 +71,12 @@ def _order(text: str) -> int:
     try:
         v = int(_ascii(text))
     except ValueError:
-        v = -1
-    if not 0 <= v <= MAX_SERIES_ORDER:
+        v = None
+    try:  # the series' own rule (holonomy.series_order_iv), as for the Python API
+        return series_order_iv(v)
+    except ArgumentError:
         raise argparse.ArgumentTypeError(f"got {text!r}; expected an integer from 0 to "
-                                         f"{MAX_SERIES_ORDER}")
-    return v
+                                         f"{MAX_SERIES_ORDER}") from None
 
 
 def _spacings(text: str) -> tuple[float, ...]:

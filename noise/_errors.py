@@ -10,7 +10,7 @@ layer because it is the lowest one (``discretize`` and ``holonomy`` both raise i
 
 from __future__ import annotations
 
-__all__ = ["ArgumentError"]
+__all__ = ["ArgumentError", "ArgumentTypeError"]
 
 
 class ArgumentError(ValueError):
@@ -30,3 +30,12 @@ class ArgumentError(ValueError):
         self.argument = argument
         self.rule = rule
         super().__init__(message if message is not None else f"`{argument}`: {rule}")
+
+
+class ArgumentTypeError(ArgumentError, TypeError):
+    """A refused argument of the wrong type (a string for a count, None for a number).
+
+    An :class:`ArgumentError` (so it carries ``argument`` and ``rule``) that is also a
+    ``TypeError``, the class Python gives to a value of the wrong type: a caller that
+    catches either sees it.
+    """

@@ -31,7 +31,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from discretize import AreaForm, LatticeLoop, Loop, arrangement
+from noise import ArgumentError
 
+from .._series import series_order_iv
 from ._evaluate import evaluate_polygon, evaluate_word, face_measures
 from ._laws import ExactRouteError
 from ._simple import simple_loop
@@ -443,9 +445,11 @@ def master_field_series(loop, order: int, *, area=None, rep="fundamental",
     >>> [round(float(x), 12) for x in c]
     [1.0, -0.5, 0.125]
     """
-    if isinstance(order, bool) or not isinstance(order, numbers.Integral) or order < 0 \
-            or 2 * order >= points:
-        raise ValueError(f"`order` must be an integer in [0, {points // 2}), got {order!r}.")
+    order = series_order_iv(order)
+    if 2 * order >= points:
+        raise ArgumentError("order", f"got {order!r}; expected an integer below points / 2 "
+                            f"= {points / 2:g}",
+                            f"`order` must be an integer in [0, {points // 2}), got {order!r}.")
     if not isinstance(loop, (LatticeLoop, Loop)):
         raise TypeError(
             f"`loop` must be a discretize LatticeLoop or Loop, got {type(loop).__name__}.")

@@ -85,6 +85,7 @@ from discretize import AreaForm, LatticeLoop, Loop, arrangement
 from holonomy.groups import irreducible_representation, rep_weights, weight_system
 from noise import ArgumentError
 
+from .._series import series_order_iv
 from ._dispatch import _exact_wilson_loop_iv, _lattice_shape, _polygon_shape
 from ._evaluate import evaluate_words, face_measures
 from ._laws import ExactRouteError
@@ -964,8 +965,7 @@ def zero_instanton_series(group, rep, inside: float, total_area: float, order: i
     if exact:
         inside, total_area = (float(x) for x in exact_in)
     group, rep, A, T, _, _, p, _ = _simple_iv(group, rep, inside, total_area, 1.0, 0, turns, "auto")
-    if isinstance(order, bool) or not isinstance(order, numbers.Integral) or order < 0:
-        raise ValueError(f"`order` must be an integer >= 0, got {order!r}.")
+    order = series_order_iv(order)
     weights = rep_weights(group, rep, p)
     if exact:
         return _zero_series_exact(weight_system(group), weights, *exact_in, int(order))

@@ -18,7 +18,7 @@ import numpy as np
 from holonomy import LatticeProblem, exact_series, get_scheme, lattice_covariance, surface_series
 from holonomy._continuum_series import SECTOR_NOTE
 from holonomy._lattice_series import gauss_loadings
-from holonomy._series import _key_graph
+from holonomy._series import MAX_SERIES_ORDER, _key_graph, series_order_iv
 from holonomy.exact import ExactRouteError, exact_master_field, master_field_series
 
 from ._problems import build_lattice
@@ -139,7 +139,6 @@ RATIONAL_STEPS = 20
 
 
 SERIES_BUDGET = 60.0  # seconds for one series command, all loops (WHITEGAUGE_SERIES_BUDGET)
-MAX_SERIES_ORDER = 20
 
 
 def _series_deadline() -> tuple[float, float]:
@@ -149,12 +148,8 @@ def _series_deadline() -> tuple[float, float]:
 
 
 def _order_iv(order) -> int:
-    rule = f"an integer from 0 to {MAX_SERIES_ORDER}"
-    if isinstance(order, bool) or not isinstance(order, int):
-        raise TypeError(f"`order` must be {rule}; got {order!r}.")
-    if not 0 <= order <= MAX_SERIES_ORDER:
-        raise ValueError(f"`order` must be {rule}; got {order!r}.")
-    return order
+    """The series order of the commands: the rule of every series entry point."""
+    return series_order_iv(order)
 
 
 def _loops_iv(loops, count: int) -> tuple[int, ...] | None:
