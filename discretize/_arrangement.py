@@ -55,6 +55,8 @@ from functools import cmp_to_key
 import numpy as np
 from scipy.spatial import cKDTree
 
+from ._limits import turns_iv
+
 __all__ = ["Arrangement", "arrangement", "joint_arrangement", "check_crossings",
            "MAX_SCREENED_PAIRS", "MAX_EXACT_PAIRS"]
 
@@ -204,9 +206,7 @@ def _polygon_iv(vertices, name="vertices"):
 
 
 def _turns_iv(turns, name="turns"):
-    if isinstance(turns, bool) or not isinstance(turns, (int, np.integer)) or turns < 1:
-        raise ValueError(f"`{name}` must be a positive integer; got {turns!r}.")
-    return int(turns)
+    return turns_iv(turns, name)  # the limit shared with the loops and the spec
 
 
 def _rtol_iv(rtol):

@@ -61,6 +61,7 @@ from noise import ArgumentError
 
 from ._arrangement import arrangement
 from ._grid import Grid, _as_int
+from ._limits import sides_iv, turns_iv
 from ._winding import polygon_winding_numbers
 
 __all__ = ["Loop", "LatticeLoop", "parse_moves", "closed_walk", "winding_numbers", "CURVES",
@@ -72,11 +73,7 @@ _COLLINEAR_TOL = 1e-12
 
 
 def _turns_iv(turns) -> int:
-    if isinstance(turns, bool) or not isinstance(turns, numbers.Integral):
-        raise TypeError(f"`turns` must be an integer >= 1, got {turns!r}.")
-    if turns < 1:
-        raise ValueError(f"`turns` must be an integer >= 1, got {turns!r}.")
-    return int(turns)
+    return turns_iv(turns)  # the limit shared with the spec (discretize._limits)
 
 
 def _point_iv(p, name: str) -> np.ndarray:
@@ -391,7 +388,7 @@ class Loop:
         """
         c = _point_iv(center, "center")
         r = _positive_iv(radius, "radius")
-        n = _as_int(sides, "sides", 3)
+        n = sides_iv(sides)
         turns = _turns_iv(turns)
         theta = 2 * np.pi * np.arange(n) / n
         return cls(c + r * np.stack([np.cos(theta), np.sin(theta)], axis=1), turns)
@@ -407,7 +404,7 @@ class Loop:
         c = _point_iv(center, "center")
         a, b = _point_iv(radii, "radii")
         a, b = _positive_iv(a, "radii[0]"), _positive_iv(b, "radii[1]")
-        n = _as_int(sides, "sides", 3)
+        n = sides_iv(sides)
         turns = _turns_iv(turns)
         theta = 2 * np.pi * np.arange(n) / n
         faces = CurveFaces(f"ellipse radii=({a:g}, {b:g})", ((1, math.pi * a * b),))
@@ -451,7 +448,7 @@ class Loop:
         p = _curve_params_iv(family, params)
         fam = CURVES[family]
         c = _point_iv(center, "center")
-        n = _as_int(sides, "sides", 3)
+        n = sides_iv(sides)
         turns = _turns_iv(turns)
         period = fam.period(**p)
         phi = _sample_phase(period, n, fam.crossings(**p))
@@ -479,7 +476,7 @@ class Loop:
         """
         if not callable(fn):
             raise TypeError(f"`fn` must be a callable t -> (x, y), got {type(fn).__name__}.")
-        n = _as_int(samples, "samples", 3)
+        n = sides_iv(samples, "samples")
         t0, t1 = _point_iv(t_range, "t_range")
         if not t1 > t0:
             raise ValueError(f"`t_range` must be an interval (t0, t1) with t1 > t0, got {t_range!r}.")

@@ -31,13 +31,12 @@ References
 from __future__ import annotations
 
 import math
-import numbers
 from typing import Any
 
 import numpy as np
 import sympy
 
-from discretize import AreaForm, LatticeLoop
+from discretize import AreaForm, LatticeLoop, turns_iv
 
 from .exact import (evaluate_polygon, exact_surface_wilson_loop, exact_wilson_loop,
                     unitary_casimir, unitary_dimension, zero_instanton_series)
@@ -58,9 +57,7 @@ def _continuum_series_iv(group, turns, order, rep, exact):
         raise TypeError(f"`group` must be a Group from holonomy.groups.make_group; got "
                         f"{group!r}.")
     order = series_order_iv(order)
-    if isinstance(turns, (bool, np.bool_)) or not isinstance(turns, numbers.Integral) \
-            or turns < 1:
-        raise ValueError(f"`turns` must be an integer >= 1; got {turns!r}.")
+    turns = turns_iv(turns)
     if not isinstance(exact, (bool, np.bool_)):
         raise ValueError(f"`exact` must be True or False; got {exact!r}.")
     name = rep if isinstance(rep, str) else getattr(rep, "name", None)

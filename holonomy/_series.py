@@ -77,6 +77,7 @@ from typing import Any
 import numpy as np
 import sympy
 
+from discretize import turns_iv
 from noise import ArgumentError, ArgumentTypeError, FormalGaussian
 
 from ._lie_words import (
@@ -749,10 +750,8 @@ def factor_product_series(group: Any, loadings: Any, variances: Any, order: int,
     ----------
     .. [1] L. Isserlis, Biometrika 12 (1918) 134-139; G. C. Wick, Phys. Rev. 80 (1950).
     """
+    w = turns_iv(turns)
     U = np.asarray(loadings)
-    w = int(turns)
-    if w < 1:
-        raise ValueError(f"`turns` must be an integer >= 1; got {turns!r}.")
     mu = np.asarray(variances, dtype=object if np.asarray(variances).dtype == object
                     else None)
     if U.ndim != 2 or mu.shape != (U.shape[1],):

@@ -81,7 +81,7 @@ from functools import cached_property
 import numpy as np
 from scipy.special import gammaln
 
-from discretize import AreaForm, LatticeLoop, Loop, arrangement
+from discretize import AreaForm, LatticeLoop, Loop, arrangement, turns_iv
 from holonomy.groups import irreducible_representation, rep_weights, weight_system
 from noise import ArgumentError
 
@@ -534,9 +534,7 @@ def _simple_iv(group, rep, inside, total_area, coupling, genus, turns, route):
     lam = _nonneg_iv(coupling, "coupling", positive=True)
     if A > T:
         raise ValueError(f"`total_area` must be >= the loop's inside measure {A!r}, got {T!r}.")
-    if isinstance(turns, bool) or not isinstance(turns, numbers.Integral) or turns < 1:
-        raise ValueError(f"`turns` must be an integer >= 1, got {turns!r}.")
-    return group, rep, A, T, lam, g, int(turns), _route_iv(route)
+    return group, rep, A, T, lam, g, turns_iv(turns), _route_iv(route)
 
 
 def surface_simple_loop(group, rep, inside: float, total_area: float, *, coupling: float,

@@ -48,7 +48,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterable
 
-from discretize import CURVES, AreaForm, Loop, closed_walk
+from discretize import CURVES, MAX_SIDES, MAX_TURNS, AreaForm, Loop, closed_walk
 from discretize._axial import GAUGES
 from noise import ArgumentError
 
@@ -79,8 +79,7 @@ MAX_CELLS = 10**7        # cells of the grid that covers the loops at the spacin
 MAX_STEPS = 10**6        # count of one moves token
 
 MAX_SPEC_BYTES = 2**26   # size of a spec file (64 MiB; a 100000-vertex polygon is ~3 MB)
-MAX_SIDES = 100_000      # vertices of a sampled circle, ellipse or curve
-MAX_TURNS = 1000         # times one loop is traversed (its lattice path grows with it)
+# MAX_SIDES, MAX_TURNS (discretize): vertices of a sampled curve, traversals of a loop
 
 
 def _one_of(names) -> str:

@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 from matplotlib.path import Path
 
+from noise import ArgumentError
 from discretize import arrangement
 
 
@@ -225,10 +226,12 @@ class TestBadInput:
         with pytest.raises(ValueError, match="`vertices` must be finite"):
             arrangement([(0, 0), (1, np.nan), (1, 1)])
 
-    @pytest.mark.parametrize("turns", [0, -1, 1.5, True])
+    @pytest.mark.parametrize("turns", [0, -1, 1.5, True, 1001, 10**12])
     def test_turns(self, turns):
-        with pytest.raises(ValueError, match="`turns` must be a positive integer"):
+        # the loops' limit (discretize.MAX_TURNS, the spec's loops[i].turns)
+        with pytest.raises(ArgumentError) as info:
             arrangement([(0, 0), (1, 0), (1, 1)], turns=turns)
+        assert info.value.argument == "turns"
 
 
 class TestSizeAndMemory:

@@ -146,7 +146,7 @@ class TestLoopValidation:
             ([(0, 0), (1, 1), (2, 2), (3, 3)], 1, ValueError, r"`vertices` must not all lie on one line"),
             ([(0, 0), (1, 0), (float("nan"), 1)], 1, ValueError, r"`vertices` must have finite coordinates; vertex 2"),
             ([(0, 0), (1, 0), (float("inf"), 1)], 1, ValueError, r"finite coordinates"),
-            ([(0, 0), (1, 0), (1, 1)], 0, ValueError, r"`turns` must be an integer >= 1, got 0"),
+            ([(0, 0), (1, 0), (1, 1)], 0, ValueError, r"`turns` must be an integer from 1 to 1000, got 0"),
             ([(0, 0), (1, 0), (1, 1)], 1.5, TypeError, r"`turns` must be an integer"),
             ([0, 1, 2], 1, ValueError, r"`vertices` must be an \(m, 2\) array"),
             ("abc", 1, TypeError, r"`vertices` must be an \(m, 2\) array of finite numbers"),
@@ -159,11 +159,11 @@ class TestLoopValidation:
     @pytest.mark.parametrize(
         "args, exc, match",
         [
-            (((0, 0), 1.0, 2), ValueError, r"`sides` must be an integer >= 3, got 2"),
+            (((0, 0), 1.0, 2), ValueError, r"`sides` must be an integer from 3 to 100000, got 2"),
             (((0, 0), 0.0, 5), ValueError, r"`radius` must be a positive finite number, got 0\.0"),
             (((0, 0), -1.0, 5), ValueError, r"`radius` must be a positive"),
             (((0, float("nan")), 1.0, 5), ValueError, r"`center` must have finite coordinates"),
-            (((0, 0), 1.0, 5, 0), ValueError, r"`turns` must be an integer >= 1"),
+            (((0, 0), 1.0, 5, 0), ValueError, r"`turns` must be an integer from 1 to 1000"),
         ],
     )
     def test_circle(self, args, exc, match):
@@ -173,7 +173,7 @@ class TestLoopValidation:
     def test_moves_spacing(self):
         with pytest.raises(ValueError, match=r"`spacing` must be a positive finite number, got -1"):
             Loop.from_moves("R1 U1 L1 D1", spacing=-1)
-        with pytest.raises(ValueError, match=r"`turns` must be an integer >= 1"):
+        with pytest.raises(ValueError, match=r"`turns` must be an integer from 1 to 1000"):
             Loop.from_moves("R1 U1 L1 D1", turns=0)
 
     @settings(max_examples=100, deadline=None)

@@ -381,7 +381,7 @@ def test_samplers_refuse_signed_density_and_name_formal_route():
     ({"order": -1}, r"`order` must be an integer from 0 to 20; got -1"),
     ({"order": 2.5}, r"`order` must be an integer from 0 to 20; got 2.5"),
     ({"order": 10**6}, r"`order` must be an integer from 0 to 20; got 1000000"),
-    ({"turns": 0}, r"`turns` must be an integer >= 1; got 0"),
+    ({"turns": 0}, r"`turns` must be an integer from 1 to 1000, got 0"),
     ({"rep": "adjoint"}, r"`rep` must be 'fundamental'.*'adjoint'"),
     ({"exact": "yes"}, r"`exact` must be True or False; got 'yes'"),
 ])
