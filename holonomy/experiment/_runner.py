@@ -34,6 +34,7 @@ from holonomy import formal_block, run_block
 from holonomy._estimate import BlockSums
 from holonomy._kernels import kernel_path
 from holonomy.groups import heat_kernel_law
+from noise import ArgumentError
 
 from ._faults import fault_point, maybe_fail_block
 from ._problems import build_lattice, build_problem
@@ -286,6 +287,30 @@ def worker_pool(workers: int | None, executor: cf.Executor | None = None):
         own.shutdown(wait=True, cancel_futures=True)
 
 
+def _probe() -> None:
+    """The task :func:`executor_iv` submits: nothing."""
+
+
+def executor_iv(executor: cf.Executor) -> None:
+    """Refuse an executor that takes no work (shut down, or a broken process pool)
+    before any work, with :class:`noise.ArgumentError` on ``executor``.
+
+    No public attribute says whether an Executor is shut down, so one empty task is
+    submitted: ``Executor.submit`` raises RuntimeError after ``shutdown`` (Python's
+    concurrent.futures documentation) and BrokenExecutor, a RuntimeError, on a broken
+    pool; the task's result is not awaited.
+    """
+    try:
+        executor.submit(_probe)
+    except RuntimeError as exc:
+        name = type(executor).__name__
+        raise ArgumentError(
+            "executor", f"got a {name} that takes no work ({exc}); expected a running "
+            "concurrent.futures.Executor",
+            f"`executor` must be a running concurrent.futures.Executor; the {name} given "
+            f"takes no work ({exc}).") from None
+
+
 def workers_iv(workers: Any, *, allow_none: bool = True) -> int | None:
     """``workers`` checked: an integer from 1 to :data:`MAX_WORKERS` (or None)."""
     if workers is None and allow_none:
@@ -310,6 +335,8 @@ def run_iv(*, out: Any, executor: Any, workers: Any, flags: dict[str, Any],
     if executor is not None and not isinstance(executor, cf.Executor):
         raise TypeError("`executor` must be a concurrent.futures.Executor or None; got "
                         f"{type(executor).__name__}.")
+    if executor is not None:
+        executor_iv(executor)
     workers = workers_iv(workers)
     for key, value in flags.items():
         if not isinstance(value, bool):

@@ -17,8 +17,10 @@ import subprocess
 import sys
 import time
 import warnings
+from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from holonomy import Field
@@ -28,7 +30,7 @@ from holonomy.experiment import (RunStore, SpecError, StoreMismatch, StoreUnusab
                                  default_out, exact_results, format_table, load_spec,
                                  parse_spec, run_demo, run_spec, run_study, series_results)
 from holonomy.groups import make_group
-from noise import ArgumentError
+from noise import ArgumentError, ArgumentTypeError
 
 SPEC = '''name = "robust"
 [group]
@@ -537,6 +539,96 @@ def _gaussian_matrix(area):
 def test_api_checks_its_arguments_first(call, exc, match):
     with pytest.raises(exc, match=match.replace("(", r"\(")):
         call()
+
+
+def _shut_down(cls):
+    pool = cls(max_workers=1)
+    pool.shutdown()
+    return pool
+
+
+def _series(name, *args, **kw):
+    import holonomy
+    return getattr(holonomy, name)(*args, **kw)
+
+
+_SU2 = ("SU", 2, "physics")
+_SQUARE = [(0, 0), (1, 0), (1, 1), (0, 1)]
+
+# (id, call, error class, argument): refusals at the API's boundary that the command
+# line shares (issue 17, third pass); each names its argument through `.argument`
+ARGUMENT_CASES = [
+    # the series order: one rule (holonomy.series_order_iv, the --order of `series`)
+    ("continuum_series-order-1e6",
+     lambda: _series("continuum_series", make_group(*_SU2), _SQUARE, 1, 10**6),
+     ArgumentError, "order"),
+    ("continuum_series-order-21",
+     lambda: _series("continuum_series", make_group(*_SU2), _SQUARE, 1, 21),
+     ArgumentError, "order"),
+    ("continuum_series-order-float",
+     lambda: _series("continuum_series", make_group(*_SU2), _SQUARE, 1, 2.0),
+     ArgumentTypeError, "order"),
+    ("exact_series-order-1e30",
+     lambda: _series("exact_series", make_group(*_SU2), "fundamental", _square_loop(), 10**30),
+     ArgumentError, "order"),
+    ("exp_product_series-order-None",
+     lambda: _series("exp_product_series", make_group(*_SU2), [[1.0]], None),
+     ArgumentTypeError, "order"),
+    ("gaussian_matrix-order-1e6",
+     lambda: _series("gaussian_matrix", make_group(*_SU2), "fundamental", 1.0, 1.0, 10**6),
+     ArgumentError, "order"),
+    ("series_results-order-1e6", lambda: series_results(SPEC_OBJ, 10**6), ArgumentError,
+     "order"),
+    # the loops' sizes: discretize.MAX_SIDES and MAX_TURNS, the spec's limits
+    ("polygon-turns-1e12", lambda: _loop("polygon", _SQUARE, turns=10**12), ArgumentError,
+     "turns"),
+    ("polygon-turns-1001", lambda: _loop("polygon", _SQUARE, turns=1001), ArgumentError,
+     "turns"),
+    ("polygon-turns-str", lambda: _loop("polygon", _SQUARE, turns="2"), ArgumentTypeError,
+     "turns"),
+    ("circle-sides-1e12", lambda: _loop("circle", (0, 0), 1.0, 10**12), ArgumentError,
+     "sides"),
+    ("circle-sides-2", lambda: _loop("circle", (0, 0), 1.0, 2), ArgumentError, "sides"),
+    ("circle-sides-float", lambda: _loop("circle", (0, 0), 1.0, 8.0), ArgumentTypeError,
+     "sides"),
+    ("ellipse-sides-1e6", lambda: _loop("ellipse", (0, 0), (1.0, 0.5), 10**6), ArgumentError,
+     "sides"),
+    ("curve-sides-1e6", lambda: _loop("curve", "cardioid", 10**6, a=1.0), ArgumentError,
+     "sides"),
+    ("parametric-samples-1e12",
+     lambda: _loop("parametric", lambda t: (np.cos(t), np.sin(t)), 10**12), ArgumentError,
+     "samples"),
+    ("from_moves-turns-1e12", lambda: _loop("from_moves", "R1 U1 L1 D1", turns=10**12),
+     ArgumentError, "turns"),
+    ("continuum_series-turns-1e12",
+     lambda: _series("continuum_series", make_group(*_SU2), _SQUARE, 10**12, 2),
+     ArgumentError, "turns"),
+    # an executor that takes no work: refused before any work
+    ("run_spec-executor-shut-down-threads",
+     lambda: run_spec(SPEC_OBJ, executor=_shut_down(ThreadPoolExecutor)), ArgumentError,
+     "executor"),
+    ("run_spec-executor-shut-down-processes",
+     lambda: run_spec(SPEC_OBJ, executor=_shut_down(ProcessPoolExecutor)), ArgumentError,
+     "executor"),
+    ("run_study-executor-shut-down",
+     lambda: run_study(SPEC_OBJ, spacings=[0.25, 0.125],
+                       executor=_shut_down(ThreadPoolExecutor)), ArgumentError, "executor"),
+]
+
+
+def _loop(kind, *args, **kw):
+    from discretize import Loop
+    return getattr(Loop, kind)(*args, **kw)
+
+
+@pytest.mark.parametrize("call,exc,argument", [c[1:] for c in ARGUMENT_CASES],
+                         ids=[c[0] for c in ARGUMENT_CASES])
+def test_api_refusals_name_the_argument(call, exc, argument):
+    t0 = time.monotonic()
+    with pytest.raises(exc) as info:
+        call()
+    assert type(info.value) is exc and info.value.argument == argument
+    assert time.monotonic() - t0 < 30  # refused before any work (order 1e6 used to hang)
 
 
 def test_run_spec_accepts_a_path(tmp_path, reference):
