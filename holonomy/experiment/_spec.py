@@ -42,6 +42,7 @@ import json
 import math
 import os
 import re
+import stat
 import textwrap
 import tomllib
 from dataclasses import dataclass
@@ -336,6 +337,15 @@ class Spec:
 
 # --------------------------------------------------------------------------- loading
 
+def _file_kind(mode: int) -> str:
+    """What a file that is not a regular file is, for the refusal's message."""
+    for test, kind in ((stat.S_ISFIFO, "named pipe"), (stat.S_ISCHR, "character device"),
+                       (stat.S_ISBLK, "block device"), (stat.S_ISSOCK, "socket")):
+        if test(mode):
+            return kind
+    return "special file"
+
+
 def load_spec(path: str | Path, *, purpose: str = "run", overrides=()) -> Spec:
     """Read and validate the spec file at ``path`` for ``purpose``.
 
@@ -356,7 +366,15 @@ def load_spec(path: str | Path, *, purpose: str = "run", overrides=()) -> Spec:
                         f"got {type(path).__name__}.")
     p = Path(path)
     try:
-        with open(p, "rb") as fh:  # bounded: a device such as /dev/zero never ends
+        # only a regular file (a symlink to one is followed): a FIFO without a writer
+        # would block the open forever and a device may never end (POSIX stat(2))
+        mode = os.stat(p).st_mode
+        if stat.S_ISDIR(mode):
+            raise IsADirectoryError(path)
+        if not stat.S_ISREG(mode):
+            raise SpecError(str(path), f"is not a regular file (a {_file_kind(mode)}); "
+                            "expected a TOML spec file")
+        with open(p, "rb") as fh:  # bounded: a regular file may still grow while read
             data = fh.read(MAX_SPEC_BYTES + 1)
         if len(data) > MAX_SPEC_BYTES:
             raise SpecError(str(path), f"larger than {MAX_SPEC_BYTES} bytes; expected a "

@@ -15,6 +15,7 @@ import signal
 import sqlite3
 import subprocess
 import sys
+import threading
 import time
 import warnings
 from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor
@@ -917,10 +918,33 @@ def test_invalid_problem_without_quiet_is_one_line(text, key, tmp_path, capsys):
 
 
 # spec files that are not specs: every command refuses them on the file's path
+def _larger_than_the_limit(p, monkeypatch):
+    import holonomy.experiment._spec as spec_module
+    monkeypatch.setattr(spec_module, "MAX_SPEC_BYTES", 4096)  # lowered: a short file
+    p.write_text(SPEC + "#" * 5000 + "\n")
+
+
+def _fifo(p, monkeypatch):
+    if not hasattr(os, "mkfifo"):
+        pytest.skip("no named pipes here")
+    os.mkfifo(p)  # no writer: opening it would block forever, like cat
+
+    def unblock():  # should a command open it after all: fail the test, never hang it
+        try:
+            os.close(os.open(p, os.O_WRONLY | os.O_NONBLOCK))
+        except OSError:
+            pass  # no reader (the command refused it): nothing to unblock
+    timer = threading.Timer(30.0, unblock)
+    timer.daemon = True
+    timer.start()
+
+
 FILE_CASES = [
-    ("nested-too-deep", lambda p: p.write_text("x = " + "[" * 5000 + "]" * 5000 + "\n" + SPEC),
-     "nested too deep"),
-    ("endless-device", None, "larger than"),
+    ("nested-too-deep", lambda p, mp: p.write_text("x = " + "[" * 5000 + "]" * 5000 + "\n"
+                                                   + SPEC), "nested too deep"),
+    ("endless-device", None, "is not a regular file (a character device)"),
+    ("larger-than-the-limit", _larger_than_the_limit, "larger than 4096 bytes"),
+    ("named-pipe-without-writer", _fifo, "is not a regular file (a named pipe)"),
 ]
 
 
@@ -928,15 +952,13 @@ FILE_CASES = [
 @pytest.mark.parametrize("make,piece", [c[1:] for c in FILE_CASES],
                          ids=[c[0] for c in FILE_CASES])
 def test_spec_files_that_are_not_specs(make, piece, command, tmp_path, capsys, monkeypatch):
-    if make is None:  # a device that never ends (the size limit lowered: a short read)
+    if make is None:  # a device that never ends: refused before it is opened
         if not Path("/dev/zero").exists():
             pytest.skip("no /dev/zero")
-        import holonomy.experiment._spec as spec_module
-        monkeypatch.setattr(spec_module, "MAX_SPEC_BYTES", 4096)
         spec = Path("/dev/zero")
     else:
         spec = tmp_path / "spec.toml"
-        make(spec)
+        make(spec, monkeypatch)
     out = tmp_path / command
     assert main(_command_args(command, spec, out)) == 2
     _one_line(capsys.readouterr().err, f"whitegauge: error: {spec}: ", piece)
