@@ -242,3 +242,43 @@ def test_formal_run_beyond_its_limit_is_refused(tmp_path, capfd):
     out, err = capfd.readouterr()
     row = json.loads(out)["results"][0]
     assert err == "" and row["exact"] is None and "precision limit" in row["exact_note"]
+
+
+def test_exact_value_below_the_double_range_is_null_with_a_note(tmp_path, capfd):
+    """SU(3), power:64 on the unit square: the hook expansion (Macdonald 1995, I.3,
+    p_n as a signed sum of hook Schur functions; Rains 1997 for E[s_lambda(U_t)])
+    summed in mpmath at 50 digits gives about 1.7e-280 wound once and 2e-1155 wound
+    twice. The first is printed; the second used to print as an exact 0 and is now
+    null with a precision-limit note, in `exact` and in `run`."""
+    import sys
+
+    import mpmath
+
+    from holonomy.exact._unitary import _hooks, unitary_casimir, unitary_dimension
+
+    def hook_sum(n):  # E[tr U^n] / 3 on SU(3), physics metric (k = 2), t = 1
+        return sum(sign * unitary_dimension(lam, 3)
+                   * mpmath.exp(-mpmath.mpf(unitary_casimir(lam, 3, k=2.0, special=True)) / 2)
+                   for sign, lam in _hooks(n, 3)) / 3
+
+    with mpmath.workdps(50):
+        once, twice = hook_sum(64), hook_sum(128)
+    assert sys.float_info.min < once < 1e-270 and 0 < twice < mpmath.mpf("1e-1000")
+    text = _spec("SU", 3, "heat").replace("[run]", '[observable]\nrep = "power:64"\n[run]')
+    text = text.replace('[[loops]]\nname = "box"\n',
+                        '[[loops]]\nname = "box"\nturns = 2\n').replace(
+        "[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]",
+        "[0.0, 0.0], [1.0, 0.0], [1.0, 1.0], [0.0, 1.0]")
+    text += '[[loops]]\nname = "square"\nvertices = [[0, 0], [1, 0], [1, 1], [0, 1]]\n'
+    path = tmp_path / "below.toml"
+    path.write_text(text)
+    for command, extra in (("exact", []), ("run", ["--out", str(tmp_path / "o")])):
+        capfd.readouterr()
+        with warnings.catch_warnings():
+            warnings.simplefilter("error")
+            assert main([command, str(path), "--json", *extra]) == 0
+        rows = {r["loop"]: r for r in json.loads(capfd.readouterr().out)["results"]}
+        for key, note in (("exact", "exact_note"), ("continuum", "continuum_note")):
+            assert rows["box"][key] is None and "precision limit" in rows["box"][note]
+            assert rows["square"][key] == pytest.approx(float(once), rel=1e-10)
+        assert _problems({"results": list(rows.values())}) == []
