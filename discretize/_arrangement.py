@@ -31,7 +31,9 @@ Robustness
 ----------
 All topological decisions (orientation tests, intersection parameters, angular order,
 areas) are made in exact rational arithmetic on the binary values of the input floats,
-so the combinatorics never depends on rounding. Configurations closer than ``rtol``
+so the combinatorics never depends on rounding; an orientation whose floating-point
+value is farther from 0 than its proven rounding bound [3] takes the float's sign (the
+exact sign, found faster). Configurations closer than ``rtol``
 times the size of the polygon to a degenerate one without being degenerate (a crossing
 next to a vertex, two edges almost touching, an edge almost doubling back) raise
 ``ValueError``: a slightly perturbed input would change the graph.
@@ -43,11 +45,14 @@ References
    intersection, doubly connected edge lists and face traversal).
 .. [2] J. O'Rourke, "Computational Geometry in C", 2nd ed., Cambridge University
    Press, 1998, sec. 1.3 (area by the shoelace formula) and 7.4 (winding numbers).
+.. [3] J. R. Shewchuk, "Adaptive precision floating-point arithmetic and fast robust
+   geometric predicates", Discrete Comput. Geom. 18 (1997) 305-363, sec. 4.2 (the error
+   bound of a floating-point orientation: a float filter before the exact test).
 """
 
 from __future__ import annotations
 
-from collections import deque
+from collections import OrderedDict, deque
 from dataclasses import dataclass, field
 from fractions import Fraction
 from functools import cmp_to_key
@@ -191,10 +196,8 @@ def _polygon_iv(vertices, name="vertices"):
         raise ValueError(f"`{name}` must be finite; got a NaN or infinite coordinate.")
     # drop consecutive repeats and a repeated closing vertex: zero-length edges carry
     # no geometry
-    keep = [0]
-    for i in range(1, len(v)):
-        if not np.array_equal(v[i], v[keep[-1]]):
-            keep.append(i)
+    # (a point equal to its predecessor equals the first point of its run: the one kept)
+    keep = [0] + (np.flatnonzero(np.any(v[1:] != v[:-1], axis=1)) + 1).tolist()
     if len(keep) > 1 and np.array_equal(v[keep[-1]], v[keep[0]]):
         keep.pop()
     v = v[keep]
@@ -238,6 +241,18 @@ def _angle_cmp(u, w) -> int:
     if hu != hw:
         return hu - hw
     return -_sign(u[0] * w[1] - u[1] * w[0])
+
+
+def _dot_sign(s, p, q) -> int:
+    """Sign of ``(p - s) . (q - s)`` for float points, exact: the float value where it is
+    farther from 0 than its rounding bound (as for an orientation, [3]), else in
+    Fractions of the floats' values."""
+    left, right = (p[0] - s[0]) * (q[0] - s[0]), (p[1] - s[1]) * (q[1] - s[1])
+    size = abs(left) + abs(right)
+    if size > _ORIENT_TINY and abs(left + right) > _ORIENT_REL * size:
+        return _sign(left + right)
+    s, p, q = ((Fraction(z[0]), Fraction(z[1])) for z in (s, p, q))
+    return _sign((p[0] - s[0]) * (q[0] - s[0]) + (p[1] - s[1]) * (q[1] - s[1]))
 
 
 def _on_segment(p, a, b) -> bool:
@@ -317,6 +332,31 @@ def _orient_f(a, b, c):
     return (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (c[:, 0] - a[:, 0])
 
 
+#: Shewchuk's bound on the rounding of a float orientation, ``(3 + 16 eps) eps`` with
+#: eps = 2^-53 (ccwerrboundA of [3]), taken three times over for safety
+_ORIENT_REL = 1e-15
+#: below this the products may be subnormal and the relative bound no longer holds
+_ORIENT_TINY = 1e-250
+
+
+def _orient_sign_f(a, b, c):
+    """Float orientations of ``a b c`` (rows) and their signs where the float value is
+    certain, 2 where only exact arithmetic can tell.
+
+    The float orientation ``(b - a) x (c - a)`` has the sign of the exact one whenever
+    its magnitude passes ``(3 + 16 eps) eps (|l| + |r|)``, ``l`` and ``r`` its two
+    products (J. R. Shewchuk, "Adaptive precision floating-point arithmetic and fast
+    robust geometric predicates", Discrete Comput. Geom. 18 (1997) 305-363, sec. 4.2,
+    the orient2d filter); near-degenerate triples go to the exact test.
+    """
+    left = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1])
+    right = (b[:, 1] - a[:, 1]) * (c[:, 0] - a[:, 0])
+    o = left - right
+    bound = _ORIENT_REL * (np.abs(left) + np.abs(right))
+    sure = (np.abs(o) > bound) & ((np.abs(left) + np.abs(right)) > _ORIENT_TINY)
+    return o, np.where(sure, np.sign(o), 2)
+
+
 def _same(p, q):
     return (p[:, 0] == q[:, 0]) & (p[:, 1] == q[:, 1])
 
@@ -378,11 +418,12 @@ def _close_pairs(A, B, tol):
                 _point_segment_distances(B[i], A[j], B[j])]) if len(i) else np.zeros(0)
             # two segments that cross are at distance 0 but their ends need not be near:
             # keep a pair whose ends straddle each other's line, up to rounding
-            o1, o2 = _orient_f(A[i], B[i], A[j]), _orient_f(A[i], B[i], B[j])
-            o3, o4 = _orient_f(A[j], B[j], A[i]), _orient_f(A[j], B[j], B[i])
+            (o1, f1), (o2, f2) = _orient_sign_f(A[i], B[i], A[j]), _orient_sign_f(A[i], B[i], B[j])
+            (o3, f3), (o4, f4) = _orient_sign_f(A[j], B[j], A[i]), _orient_sign_f(A[j], B[j], B[i])
             near = ~(d > margin) | (_straddle(o1, o2, area_err) & _straddle(o3, o4, area_err))
             i, j = i[near], j[near]
             o = np.stack([o1, o2, o3, o4], axis=1)[near]
+            filt = np.stack([f1, f2, f3, f4], axis=1)[near]
             if len(i):
                 # the sign of an orientation whose float value is far beyond its
                 # rounding, or 0 for an end shared with the other segment; 2 where only
@@ -391,7 +432,9 @@ def _close_pairs(A, B, tol):
                                    _same(B[j], A[i]) | _same(B[j], B[i]),
                                    _same(A[i], A[j]) | _same(A[i], B[j]),
                                    _same(B[i], A[j]) | _same(B[i], B[j])], axis=1)
-                sgn = np.where(on_end, 0, np.where(np.abs(o) > round_err, np.sign(o), 2))
+                # the old global bound (kept: it decides exactly the same signs) or the
+                # orientation's own rounding bound, whichever is sharper
+                sgn = np.where(on_end, 0, np.where(np.abs(o) > round_err, np.sign(o), filt))
                 swap = i > j  # the caller wants (i, j) with i < j: exchange the roles
                 sgn[swap] = sgn[swap][:, [2, 3, 0, 1]]
                 signs.append(sgn.astype(np.int8))
@@ -493,8 +536,7 @@ def _intersect(segs, owner, consecutive, adjacent, tol, fsegs=None):
         if adj:
             # consecutive edges share one vertex; refuse an almost-fold back
             s, p, q = adj
-            along = (p[0] - s[0]) * (q[0] - s[0]) + (p[1] - s[1]) * (q[1] - s[1])
-            if along > 0 and (_point_segment_distance(q, s, p) <= tol
+            if _dot_sign(s, p, q) > 0 and (_point_segment_distance(q, s, p) <= tol
                               or _point_segment_distance(p, s, q) <= tol):
                 raise ValueError(
                     f"`vertices`: two consecutive edges almost double back over each "
@@ -565,10 +607,11 @@ def _build(polys, turns, rtol, bridges=()):
         _, j, _ = local[t]
         if m < 3:
             return None
+        # as floats: polygon vertices are exactly their floats
         if j == (i + 1) % m:
-            return segs[s][1], segs[s][0], segs[t][1]
+            return fsegs[s][1], fsegs[s][0], fsegs[t][1]
         if i == (j + 1) % m:
-            return segs[s][0], segs[s][1], segs[t][0]
+            return fsegs[s][0], fsegs[s][1], fsegs[t][0]
         return None
 
     consecutive = [(s, s - i + (i + 1) % m) for s, loc in enumerate(local)
@@ -576,28 +619,35 @@ def _build(polys, turns, rtol, bridges=()):
     splits, crossing_order, crossing_count, comps = _intersect(
         segs, owner, consecutive, adjacent, tol, fsegs)
 
-    # graph vertices: the polygons' distinct vertices in order, then the crossings
+    # graph vertices: the polygons' distinct vertices in order, then the crossings. A
+    # polygon vertex is keyed by its float pair: a float hashes and compares like the
+    # Fraction of its value (exactly), and is far faster to hash
     vid: dict = {}
-    for pts in P:
-        for p in pts:
-            vid.setdefault(p, len(vid))
+    exact_pts: list = []
+    for pts, fpts in zip(P, (p.tolist() for p in polys)):
+        for p, f in zip(pts, map(tuple, fpts)):
+            if f not in vid:
+                vid[f] = len(exact_pts)
+                exact_pts.append(p)
     n_poly = len(vid)
     for x in crossing_order:
-        vid.setdefault(x, len(vid))
+        if x not in vid:
+            vid[x] = len(exact_pts)
+            exact_pts.append(x)
     for s in range(len(segs)):  # bridge ends and touching points not yet numbered
         for x in sorted(splits[s]):
-            vid.setdefault(x, len(vid))
-    exact_pts = [None] * len(vid)
-    for p, k in vid.items():
-        exact_pts[k] = p
+            if x not in vid:
+                vid[x] = len(exact_pts)
+                exact_pts.append(x)
 
     edge_id: dict = {}
     edges: list[tuple[int, int]] = []
     paths: list[list[int]] = [[] for _ in P]
     for s, (a, b) in enumerate(segs):
+        fa, fb = fsegs[s]  # the ends' exact values as floats (polygon vertices)
         inner = sorted((x for x in splits[s] if x != a and x != b),
-                       key=lambda x: _param(x, a, b))
-        chain = [vid[a]] + [vid[x] for x in inner] + [vid[b]]
+                       key=lambda x: _param(x, a, b)) if splits[s] else ()
+        chain = [vid[fa]] + [vid[x] for x in inner] + [vid[fb]]
         for u, w in zip(chain[:-1], chain[1:]):
             key = (min(u, w), max(u, w))
             e = edge_id.get(key)
@@ -610,16 +660,19 @@ def _build(polys, turns, rtol, bridges=()):
 
     # half-edges around each vertex in counterclockwise order
     out: list[list[int]] = [[] for _ in range(nv)]
-    direction = {}
     for e, (u, w) in enumerate(edges):
-        du = (exact_pts[w][0] - exact_pts[u][0], exact_pts[w][1] - exact_pts[u][1])
-        direction[2 * e] = du
-        direction[2 * e + 1] = (-du[0], -du[1])
         out[u].append(2 * e)
         out[w].append(2 * e + 1)
+
+    def direction(h):
+        u, w = edges[h // 2] if h % 2 == 0 else edges[h // 2][::-1]
+        return (exact_pts[w][0] - exact_pts[u][0], exact_pts[w][1] - exact_pts[u][1])
+
     position = {}
     for v in range(nv):
-        out[v].sort(key=cmp_to_key(lambda h, g: _angle_cmp(direction[h], direction[g])))
+        if len(out[v]) > 2:  # with two half-edges or one, either order is the cyclic one
+            d = {h: direction(h) for h in out[v]}
+            out[v].sort(key=cmp_to_key(lambda h, g: _angle_cmp(d[h], d[g])))
         for k, h in enumerate(out[v]):
             position[h] = k
 
@@ -644,12 +697,9 @@ def _build(polys, turns, rtol, bridges=()):
             h = out[v][(position[h ^ 1] - 1) % len(out[v])]
         cycles.append(cyc)
 
-    twice_area = []
-    for cyc in cycles:
-        pts = [exact_pts[tail(h)] for h in cyc]
-        twice_area.append(
-            sum(p[0] * q[1] - q[0] * p[1] for p, q in zip(pts, pts[1:] + pts[:1]))
-        )
+    ints, denom = _integer_points(exact_pts[:n_poly])
+    twice_area = [_twice_area([tail(h) for h in cyc], exact_pts, n_poly, ints, denom)
+                  for cyc in cycles]
     outer = [f for f, s in enumerate(twice_area) if s < 0]
     connected = len({comps.find(c) for c in range(len(P))}) == 1
     if connected and (len(outer) != 1 or len(cycles) != ne - nv + 2):
@@ -657,11 +707,38 @@ def _build(polys, turns, rtol, bridges=()):
             "`vertices`: the polygon's graph is degenerate (no consistent face "
             "structure); the arrangement is not well defined."
         )
-    return dict(P=P, exact_pts=exact_pts, n_poly=n_poly, edges=edges, paths=paths,
+    return dict(P=P, exact_pts=exact_pts, vid=vid, n_poly=n_poly, edges=edges, paths=paths,
                 cycles=cycles, twice_area=twice_area, outer=outer, tail=tail,
                 face_of=face_of, comps=comps, connected=connected,
                 crossing_order=crossing_order, crossing_count=crossing_count,
                 n_bridges=len(bridges), tol=tol)
+
+
+def _twice_area(cycle, exact_pts, n_poly, ints, denom):
+    """Twice the signed area of the polygon ``exact_pts[cycle]`` (shoelace, exact).
+
+    The polygon vertices (indices below ``n_poly``) are ``ints / denom`` exactly (see
+    :func:`_integer_points`): their terms are summed as integers, far faster than in
+    Fractions; the terms touching a crossing are summed in Fractions.
+    """
+    isum, fsum = 0, Fraction(0)
+    for u, w in zip(cycle, cycle[1:] + cycle[:1]):
+        if u < n_poly and w < n_poly:
+            p, q = ints[u], ints[w]
+            isum += p[0] * q[1] - q[0] * p[1]
+        else:
+            p, q = exact_pts[u], exact_pts[w]
+            fsum += p[0] * q[1] - q[0] * p[1]
+    return Fraction(isum, denom * denom) + fsum
+
+
+def _integer_points(points):
+    """``(ints, denom)``: the points (pairs of Fractions of floats, whose denominators are
+    powers of two) as integer pairs over their largest denominator."""
+    denom = max((max(p[0].denominator, p[1].denominator) for p in points), default=1)
+    ints = [(p[0].numerator * (denom // p[0].denominator),
+             p[1].numerator * (denom // p[1].denominator)) for p in points]
+    return ints, denom
 
 
 def _bridge_candidates(P, comps):
@@ -719,11 +796,16 @@ def _finish(g, polys, turns) -> Arrangement:
     curve_winding = np.array(curve_winding, dtype=int).reshape(len(polys), nf)
     curve_winding = curve_winding * np.asarray(turns, dtype=int)[:, None]
 
-    crossing_pts = [x for x in g["crossing_order"] if g["exact_pts"].index(x) >= g["n_poly"]]
+    crossing_pts = [x for x in g["crossing_order"] if g["vid"][x] >= g["n_poly"]]
     # a point where k edges meet pairwise is counted k (k - 1) / 2 times
     deg = [int(round((1 + np.sqrt(1 + 8 * g["crossing_count"][x])) / 2)) for x in crossing_pts]
     exact_areas = tuple(g["twice_area"][f] / 2 for f in bounded)
-    verts = np.array([(float(x), float(y)) for x, y in exact_pts], dtype=float)
+    # the polygon vertices' floats are the first keys of `vid` (their exact values;
+    # + 0.0 turns a -0.0 into the 0.0 that float(Fraction(0)) gives)
+    n_poly = g["n_poly"]
+    verts = np.array([k for k, _ in zip(g["vid"], range(n_poly))]
+                     + [(float(x), float(y)) for x, y in exact_pts[n_poly:]],
+                     dtype=float).reshape(-1, 2) + 0.0
     faces = tuple(np.array([tail(h) for h in cycles[f]], dtype=int) for f in bounded)
     face_cycles = tuple(np.array(cycles[f], dtype=int) for f in bounded)
     cross = np.array([(float(x), float(y)) for x, y in crossing_pts], dtype=float).reshape(-1, 2)
@@ -764,7 +846,43 @@ def _check_crossings_apart(g):
             )
 
 
+#: arrangements computed lately, by their polygons, turns and rtol (most recent last):
+#: several consumers of one loop in one command (its exact value, the Gaussian-matrix
+#: field, the face area errors of its snapping) share one computation
+_CACHE: "OrderedDict[tuple, Arrangement | str]" = OrderedDict()
+#: how many arrangements (or refusals) are kept
+CACHE_SIZE = 32
+
+
+def _freeze(arr: Arrangement) -> Arrangement:
+    """Make the arrays of a shared arrangement read-only (a caller that wrote into one
+    would change it for every later caller)."""
+    for value in vars(arr).values():
+        for a in (value if isinstance(value, tuple) else (value,)):
+            if isinstance(a, np.ndarray):
+                a.setflags(write=False)
+    return arr
+
+
 def _arrange(polys, turns, rtol) -> Arrangement:
+    key = (tuple((p.shape, p.tobytes()) for p in polys), tuple(turns), rtol)
+    hit = _CACHE.get(key)
+    if hit is None:
+        try:
+            hit = _freeze(_arrange_uncached(polys, turns, rtol))
+        except ValueError as exc:
+            hit = str(exc)
+        _CACHE[key] = hit
+        while len(_CACHE) > CACHE_SIZE:
+            _CACHE.popitem(last=False)
+    else:
+        _CACHE.move_to_end(key)
+    if isinstance(hit, str):  # a refusal: the same message each time
+        raise ValueError(hit)
+    return hit
+
+
+def _arrange_uncached(polys, turns, rtol) -> Arrangement:
     bridges: list = []
     g = _build(polys, turns, rtol)
     while not g["connected"]:
