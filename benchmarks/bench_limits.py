@@ -4,7 +4,8 @@ Each case is a spec at (or near) a size limit of ``holonomy.experiment.LIMITS``:
 circle with the most sides, that circle wound the most turns, a moves loop of many
 tokens, a long moves loop wound many times, a study of a many-vertex loop and of many
 loops. Each command (``spec --check``, ``exact``, ``series --order 2``, ``run`` with 64
-samples, ``study`` with 128 samples, ``decompactify`` on a sphere) runs in its own
+samples in blocks of 16, ``study`` with 128 samples on four spacings h, 2h, 4h, 8h and
+the heat scheme, ``decompactify`` on a sphere) runs in its own
 subprocess with one BLAS thread and a wall-time cap; the table prints its wall time,
 its exit code and, for a refusal (exit 2), the key it names. The budget (README.md,
 limits) is about a minute per loop on a 2-core machine: a case over it is marked.
@@ -104,7 +105,7 @@ def spec_text(name, spacing, loops, command):
     surface = ""
     if command == "decompactify":
         surface = '[surface]\nkind = "sphere"\narea = 1e6\n'
-    samples, block = (128, 16) if command == "study" else (64, 64)
+    samples, block = (128, 16) if command == "study" else (64, 16)
     return (HEAD.format(name=name, spacing=spacing, surface=surface) + loops
             + RUN.format(samples=samples, block=block))
 
@@ -119,8 +120,9 @@ def argv(command, path, out, spacing):
     if command == "run":
         return ["run", path, "--out", out, "--quiet"]
     if command == "study":
-        return ["study", path, "--spacings", f"{2 * spacing!r},{spacing!r}", "--schemes",
-                "heat", "--out", out, "--quiet"]
+        ladder = ",".join(repr(spacing * 2**k) for k in (3, 2, 1, 0))
+        return ["study", path, "--spacings", ladder, "--schemes", "heat", "--out", out,
+                "--quiet"]
     return ["decompactify", path, "--areas", "1e6,2e6", "--order", "2"]
 
 

@@ -603,6 +603,18 @@ class Loop:
         return f"Loop.polygon({self.vertices.tolist()}{t})"
 
     # -- snapping -----------------------------------------------------------------------
+    def _grid_units(self, grid: Grid) -> np.ndarray:
+        x0, y0 = grid.origin
+        return (self.vertices - (x0, y0)) / grid.spacing
+
+    def lattice_steps(self, grid: Grid) -> int:
+        """An upper bound on the unit steps of :meth:`snap` on ``grid`` (all turns), in
+        O(m) without snapping: the staircase of an edge between the nodes nearest its
+        ends has ``|di| + |dj|`` steps, and removing backtracks only shortens the path."""
+        r = np.rint(self._grid_units(grid))
+        d = np.abs(np.diff(r, axis=0, append=r[:1])).sum()
+        return int(min(d, 2.0**62)) * self.turns
+
     def snap(self, grid: Grid) -> "LatticeLoop":
         """The lattice loop on ``grid`` that follows this polygon (see module docstring).
 
@@ -615,13 +627,14 @@ class Loop:
                 f"`loop` leaves the grid's extent: its bounding box {self.bbox} is not "
                 f"inside the grid's extent {grid.extent}."
             )
-        x0, y0 = grid.origin
-        u = (self.vertices - (x0, y0)) / grid.spacing  # grid units
-        corners = _staircase_corners(u)
+        corners = _staircase_corners(self._grid_units(grid))
         nodes = _expand_corners(corners)
-        nodes = np.tile(nodes[:-1], (self.turns, 1))
-        nodes = np.vstack([nodes, nodes[:1]])
+        # one turn reduced, then repeated: the free reduction of w^n is u c^n u^-1 when
+        # that of w is u c u^-1 (c cyclically reduced), and the cyclic strip leaves c^n,
+        # so this is the reduction of the whole path, without building it first
         nodes = _reduce_backtracks(nodes)
+        if len(nodes) >= 3:
+            nodes = np.vstack([np.tile(nodes[:-1], (self.turns, 1)), nodes[:1]])
         if len(nodes) < 3:
             raise ValueError(
                 f"`loop` snaps to an empty lattice loop on a grid of spacing {grid.spacing}: "

@@ -24,13 +24,16 @@ from ._estimate import BlockSums, EstimateResult, LoopEstimate, combine_blocks  
 from ._surface_weights import ClosedSurface  # noqa: E402  (Monte Carlo on closed surfaces)
 from ._sampling import (  # noqa: E402
     BLOCK_MEMORY,
+    MAX_LATTICE_STEPS,
     Field,
     LatticeProblem,
     RunSettings,
     WilsonProblem,
     block_memory,
     check_block_memory,
+    covering_grid,
     estimate_wilson_loops,
+    lattice_steps,
     run_block,
 )
 from ._study import (  # noqa: E402

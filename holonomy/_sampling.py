@@ -42,9 +42,48 @@ from ._surface_weights import SURFACE_SCHEMES, ClosedSurface, SurfaceWeights
 from .groups import make_group
 
 __all__ = ["Field", "LatticeProblem", "RunSettings", "WilsonProblem", "run_block", "estimate_wilson_loops", "PATHS",
-           "chunk_size", "block_memory", "check_block_memory", "BLOCK_MEMORY"]
+           "chunk_size", "block_memory", "check_block_memory", "BLOCK_MEMORY",
+           "MAX_LATTICE_STEPS", "covering_grid", "lattice_steps"]
 
 PATHS = ("auto", "perimeter", "dense")
+
+#: unit steps of one loop's lattice path, all turns included (its snapped edges x
+#: turns): snapping, the exact routes and every sample walk it, and the commands
+#: finish within about a minute per loop up to this size (benchmarks/bench_limits.py)
+MAX_LATTICE_STEPS = 10**6
+
+
+def covering_grid(loops, field: "Field") -> Grid:
+    """The grid of a problem: the one the lattice loops share, else the grid covering
+    the polygons' bounding boxes and the field's reference line, one cell of margin."""
+    lattice = [lp for lp in loops if isinstance(lp, LatticeLoop)]
+    if lattice:
+        grid = lattice[0].grid
+        if len(lattice) != len(loops) or any(lp.grid != grid for lp in lattice):
+            raise ArgumentError(
+                "loops", "got polygons and lattice loops mixed, or several grids; "
+                "expected all polygons or all lattice loops on one grid",
+                "`loops` must be all polygons or all lattice loops on one grid.")
+        return grid
+    boxes = np.array([lp.bbox for lp in loops], float)
+    xmin, ymin = boxes[:, 0].min(), boxes[:, 1].min()
+    xmax, ymax = boxes[:, 2].max(), boxes[:, 3].max()
+    ref = field.reference
+    if ref is not None:
+        if field.gauge == "axial-y":
+            ymin, ymax = min(ymin, ref), max(ymax, ref)
+        else:
+            xmin, xmax = min(xmin, ref), max(xmax, ref)
+    return Grid.covering((xmin, ymin, xmax, ymax), field.spacing, margin=1)
+
+
+def lattice_steps(loops, field: "Field") -> tuple[int, ...]:
+    """Per loop, the unit steps of its lattice path (all turns; for a polygon the upper
+    bound :meth:`discretize.Loop.lattice_steps` on the grid of the problem), without
+    snapping: what :data:`MAX_LATTICE_STEPS` limits."""
+    grid = covering_grid(loops, field)
+    return tuple(lp.length if isinstance(lp, LatticeLoop) else lp.lattice_steps(grid)
+                 for lp in loops)
 
 
 def _positive(value, name: str) -> float:
@@ -178,30 +217,21 @@ class LatticeProblem:
 
     @cached_property
     def grid(self) -> Grid:
-        lattice = [lp for lp in self.loops if isinstance(lp, LatticeLoop)]
-        if lattice:
-            grid = lattice[0].grid
-            if len(lattice) != len(self.loops) or any(lp.grid != grid for lp in lattice):
-                raise ArgumentError(
-                    "loops", "got polygons and lattice loops mixed, or several grids; "
-                    "expected all polygons or all lattice loops on one grid",
-                    "`loops` must be all polygons or all lattice loops on one grid.")
-            return grid
-        boxes = np.array([lp.bbox for lp in self.loops], float)
-        xmin, ymin = boxes[:, 0].min(), boxes[:, 1].min()
-        xmax, ymax = boxes[:, 2].max(), boxes[:, 3].max()
-        ref = self.field.reference
-        if ref is not None:
-            if self.field.gauge == "axial-y":
-                ymin, ymax = min(ymin, ref), max(ymax, ref)
-            else:
-                xmin, xmax = min(xmin, ref), max(xmax, ref)
-        return Grid.covering((xmin, ymin, xmax, ymax), self.field.spacing, margin=1)
+        return covering_grid(self.loops, self.field)
 
     @cached_property
     def lattice_loops(self) -> tuple:
         out = []
-        for i, lp in enumerate(self.loops):
+        for i, (lp, steps) in enumerate(zip(self.loops, lattice_steps(self.loops, self.field))):
+            if steps > MAX_LATTICE_STEPS:  # before snapping: the path is never built
+                turns = lp.turns if isinstance(lp, Loop) else 1
+                key = f"loops[{i}].turns" if steps // turns <= MAX_LATTICE_STEPS and \
+                    turns > 1 else f"loops[{i}]"
+                rule = (f"got a lattice path of up to {steps} unit steps at spacing "
+                        f"{self.grid.spacing!r} ({steps // turns} per turn x {turns} turns); "
+                        f"expected at most {MAX_LATTICE_STEPS:.0e} (fewer turns, a larger "
+                        "spacing or a shorter loop)")
+                raise ArgumentError(key, rule, f"`{key}`: {rule}.")
             try:
                 out.append(lp if isinstance(lp, LatticeLoop) else lp.snap(self.grid))
             except ValueError as exc:  # snaps to nothing: name the loop by its index

@@ -10,7 +10,8 @@ argument comes from (:data:`ARGUMENT_KEYS`), never by reading the message.
 from __future__ import annotations
 
 from discretize import Loop, check_crossings
-from holonomy import ClosedSurface, Field, LatticeProblem, WilsonProblem, check_block_memory
+from holonomy import (MAX_LATTICE_STEPS, ClosedSurface, Field, LatticeProblem, WilsonProblem,
+                      check_block_memory, lattice_steps)
 from noise import ArgumentError
 
 from ._spec import Spec, SpecError
@@ -40,6 +41,26 @@ def _loops(spec: Spec, h: float) -> tuple[Loop, ...]:
     return tuple(loops)
 
 
+def _check_steps(spec: Spec, loops: tuple[Loop, ...], fld: Field) -> None:
+    """Refuse a loop whose lattice path (its snapped edges x turns) passes
+    ``MAX_LATTICE_STEPS``, before it is snapped: on ``loops[i].turns`` when one turn fits,
+    else on the loop's own key (``loops[i].moves``, ``loops[i].circle``, ...)."""
+    try:
+        steps = lattice_steps(loops, fld)
+    except ArgumentError as exc:
+        raise _refused(exc) from None
+    for i, (ls, n) in enumerate(zip(spec.loops, steps)):
+        if n <= MAX_LATTICE_STEPS:
+            continue
+        one = n // ls.turns
+        key = f"loops[{i}].turns" if ls.turns > 1 and one <= MAX_LATTICE_STEPS else \
+            f"loops[{i}].{ls.kind}"
+        raise SpecError(key, f"got a loop whose lattice path at spacing {fld.spacing!r} has "
+                        f"up to {n} unit steps ({one} per turn x {ls.turns} turns); expected "
+                        f"at most {MAX_LATTICE_STEPS:.0e} steps per loop, all turns included "
+                        "(fewer turns, a larger spacing or a shorter loop)")
+
+
 def _field(spec: Spec, scheme: str | None, spacing: float) -> Field:
     try:
         return Field(coupling=spec.coupling, spacing=spacing,
@@ -62,6 +83,7 @@ def build_lattice(spec: Spec, *, scheme: str | None = None,
     h = spec.spacing if spacing is None else spacing
     loops = _loops(spec, h)
     fld = _field(spec, scheme, h)
+    _check_steps(spec, loops, fld)
     try:
         # the master field (n = "inf") borrows U(1) as the carrier of its geometry
         n = 1 if spec.n == "inf" else spec.n
@@ -85,6 +107,7 @@ def build_problem(spec: Spec, *, scheme: str | None = None, spacing: float | Non
     h = spec.spacing if spacing is None else spacing
     loops = _loops(spec, h)
     fld = _field(spec, scheme, h)
+    _check_steps(spec, loops, fld)
     try:
         problem = WilsonProblem(
             family=spec.family, n=spec.n, metric=spec.metric, field=fld, loops=loops,

@@ -30,8 +30,9 @@ that could hang the machine or exhaust its memory are refused before any numeric
 (:data:`LIMITS`: matrix size <= 32, representation dimension <= 64 (spin:j and adjoint),
 power <= 64, samples <= 1e12, block <= 1e6, grid cells <= 1e7, steps per moves token
 <= 1e6, coupling in [1e-100, 1e100], a numeric metric in [1e-6, 1e6]); the working set
-of one block, at most 2 GiB, is checked when the problem is built
-(``holonomy.check_block_memory``).
+of one block, at most 2 GiB, and the lattice path of each loop, at most 1e6 unit steps
+all turns included, are checked when the problem is built
+(``holonomy.check_block_memory``, ``holonomy.lattice_steps``).
 """
 
 from __future__ import annotations
@@ -54,7 +55,7 @@ from discretize._axial import GAUGES
 from noise import ArgumentError
 
 from .._formal_estimate import formal_schemes
-from .._sampling import BLOCK_MEMORY
+from .._sampling import BLOCK_MEMORY, MAX_LATTICE_STEPS
 from .._schemes import SCHEMES
 from .._surface_weights import SURFACE_SCHEMES
 from ..exact import drawn_measure
@@ -141,10 +142,12 @@ SPEC_KEYS: tuple[tuple[str, str, str], ...] = (
     ("loops[i].curve.sides", f"m, 3 <= m <= {MAX_SIDES}", "required"),
     *_curve_keys(),
     ("loops[i].moves", 'lattice steps like "R4 U2 L4 D2" (a direction R, L, U or D and '
-     "a count >= 1) in units of the spacing; must close", "one loop kind is required"),
+     f"a count from 1 to {MAX_STEPS:.0e}) in units of the spacing; must close",
+     "one loop kind is required"),
     ("loops[i].start", "[x, y] where the moves begin (moves only)", "required with moves"),
-    ("loops[i].turns", f"times the loop is traversed, an integer from 1 to {MAX_TURNS}",
-     "1"),
+    ("loops[i].turns", f"times the loop is traversed, an integer from 1 to {MAX_TURNS}; "
+     f"the loop's lattice path (snapped edges x turns) has at most {MAX_LATTICE_STEPS:.0e} "
+     "unit steps", "1"),
     ("correlators", "an array of tables [[correlators]], one per correlator E[W(a) W(b) "
      "...] to estimate with its connected part and compare with its exact value", "none"),
     ("correlators[i].loops", "names of two or more distinct loops of the spec", "required"),
@@ -222,6 +225,9 @@ LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM,
           "representation dimension": MAX_REP_DIM, "power": MAX_POWER,
           "samples": MAX_SAMPLES, "block": MAX_BLOCK, "grid cells": MAX_CELLS,
           "steps per move": MAX_STEPS, "sides": MAX_SIDES, "turns": MAX_TURNS,
+          # unit steps of one loop's lattice path, all turns (snapped edges x turns),
+          # checked before snapping (holonomy.lattice_steps) by every command
+          "lattice steps per loop": MAX_LATTICE_STEPS,
           # bytes of one chunk of a block (holonomy.block_memory), checked when the
           # problem is built (holonomy.check_block_memory, the same for every command)
           "block memory": BLOCK_MEMORY,

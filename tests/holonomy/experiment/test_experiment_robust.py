@@ -743,6 +743,17 @@ INVALID = [
        "observable.rep") for fam, n in (("U", 9), ("SU", 9), ("SO", 12), ("Sp", 6))],
     ("spin-dimension-65", _m(("[run]", '[observable]\nrep = "spin:32"\n[run]')),
      "observable.rep"),
+    # lattice paths beyond MAX_LATTICE_STEPS (1e6 unit steps per loop, all turns): one
+    # turn of 2e6 steps names the moves, 2002 steps wound 1000 times the turns (issue 17
+    # item 7: these were accepted and ran out of memory or time)
+    ("lattice-path-of-one-turn", _m(('"R2 U1 L1 U1 L1 D2"', '"R1000000 U1 L1000000 D1"')),
+     "loops[1].moves"),
+    ("lattice-path-wound", _m(('"R2 U1 L1 U1 L1 D2"', '"R1000 U1 L1000 D1"'),
+                              ('start = [0.0, 0.0]', 'start = [0.0, 0.0]\nturns = 1000')),
+     "loops[1].turns"),
+    ("lattice-path-of-a-polygon", _m((BOX, "vertices = ["
+                                           + ", ".join(["[0.0, 0.0], [1000.0, 0.25]"] * 400)
+                                           + ", [0.0, 0.25]]")), "loops[0].vertices"),
 ]
 COMMANDS = {"run": ["--quiet"], "exact": [], "series": ["--order", "2"],
             "study": ["--spacings", "0.25,0.125", "--quiet"], "spec": []}
