@@ -53,6 +53,12 @@ def circle(name, sides, radius=1.0, turns=1, center=(0.0, 0.0)):
             f'{center[1]!r}], radius = {radius!r}, sides = {sides} }}\nturns = {turns}\n')
 
 
+def curve(name, family, sides, turns=1, **params):
+    ps = ", ".join(f"{k} = {v!r}" for k, v in params.items())
+    return (f'[[loops]]\nname = "{name}"\ncurve = {{ family = "{family}", {ps}, '
+            f'sides = {sides} }}\nturns = {turns}\n')
+
+
 def moves(name, text, turns=1):
     return f'[[loops]]\nname = "{name}"\nmoves = "{text}"\nstart = [0.0, 0.0]\nturns = {turns}\n'
 
@@ -92,6 +98,14 @@ def cases():
     steps = LIMITS["steps per move"]
     out.append(("moves-long-turns1000", 1.0,
                 moves("m", f"R{steps} U1 L{steps} D1", turns=turns), all_cmds, 1))
+    # at the lattice path limit (1e6 unit steps): a wound circle, one long turn
+    out.append(("circle-64-turns125-h0.001", 0.001, circle("c", 64, turns=125), all_cmds, 1))
+    half = LIMITS["lattice steps per loop"] // 2 - 1
+    out.append(("moves-1e6-steps", 1.0, moves("m", f"R{half} U1 L{half} D1"), all_cmds, 1))
+    # curves that cross themselves, with the most sides (one wound)
+    out.append(("lemniscate-100k-turns100", 0.01,
+                curve("c", "lemniscate", sides, turns=100, a=1.0), all_cmds, 1))
+    out.append(("rose7-100k", 0.01, curve("c", "rose", sides, a=1.0, k=7), all_cmds, 1))
     # a study of a 5000-vertex loop, and 200 loops
     out.append(("study-5000-vertices", 0.01, circle("c", 5000), ("check", "exact", "run",
                                                                  "study"), 1))

@@ -16,10 +16,19 @@ import numpy as np
 
 from noise import ArgumentError, ArgumentTypeError
 
-__all__ = ["MAX_SIDES", "MAX_TURNS", "sides_iv", "turns_iv"]
+__all__ = ["MAX_SIDES", "MAX_TURNS", "MAX_LATTICE_STEPS", "MAX_TOTAL_LATTICE_STEPS",
+           "sides_iv", "turns_iv"]
 
 MAX_SIDES = 100_000      # vertices of a sampled circle, ellipse or curve
 MAX_TURNS = 1000         # times one loop is traversed (its lattice path grows with it)
+#: unit steps of one loop's lattice path, all turns included (its snapped edges x
+#: turns): snapping, the exact routes and every sample walk it, and the commands finish
+#: within about a minute per loop up to this size (benchmarks/bench_limits.py); checked
+#: on the problem's grid before snapping (``holonomy.lattice_steps``)
+MAX_LATTICE_STEPS = 10**6
+#: the same summed over the loops of one problem (all lattice loops are held at once:
+#: 16 bytes per step and more for their winding numbers and plans)
+MAX_TOTAL_LATTICE_STEPS = 10**7
 
 
 def _bounded_int(value, name: str, low: int, high: int) -> int:

@@ -31,7 +31,7 @@ from typing import Sequence
 
 import numpy as np
 
-from discretize import AreaForm, Grid, LatticeLoop, Loop, axial_plan
+from discretize import MAX_LATTICE_STEPS, MAX_TOTAL_LATTICE_STEPS, AreaForm, Grid, LatticeLoop, Loop, axial_plan
 from discretize._axial import GAUGES, frame_cells
 from noise import ArgumentError, block_rng, cell_noise, interval_sums
 
@@ -47,10 +47,6 @@ __all__ = ["Field", "LatticeProblem", "RunSettings", "WilsonProblem", "run_block
 
 PATHS = ("auto", "perimeter", "dense")
 
-#: unit steps of one loop's lattice path, all turns included (its snapped edges x
-#: turns): snapping, the exact routes and every sample walk it, and the commands
-#: finish within about a minute per loop up to this size (benchmarks/bench_limits.py)
-MAX_LATTICE_STEPS = 10**6
 
 
 def covering_grid(loops, field: "Field") -> Grid:
@@ -222,7 +218,14 @@ class LatticeProblem:
     @cached_property
     def lattice_loops(self) -> tuple:
         out = []
-        for i, (lp, steps) in enumerate(zip(self.loops, lattice_steps(self.loops, self.field))):
+        all_steps = lattice_steps(self.loops, self.field)
+        if sum(all_steps) > MAX_TOTAL_LATTICE_STEPS and max(all_steps) <= MAX_LATTICE_STEPS:
+            rule = (f"got {len(all_steps)} loops whose lattice paths have up to "
+                    f"{sum(all_steps)} unit steps together; expected at most "
+                    f"{MAX_TOTAL_LATTICE_STEPS:.0e} (fewer or shorter loops, or a larger "
+                    "spacing)")
+            raise ArgumentError("loops", rule, f"`loops`: {rule}.")
+        for i, (lp, steps) in enumerate(zip(self.loops, all_steps)):
             if steps > MAX_LATTICE_STEPS:  # before snapping: the path is never built
                 turns = lp.turns if isinstance(lp, Loop) else 1
                 key = f"loops[{i}].turns" if steps // turns <= MAX_LATTICE_STEPS and \

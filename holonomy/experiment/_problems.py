@@ -9,7 +9,7 @@ argument comes from (:data:`ARGUMENT_KEYS`), never by reading the message.
 
 from __future__ import annotations
 
-from discretize import Loop, check_crossings
+from discretize import MAX_TOTAL_LATTICE_STEPS, Loop, check_crossings
 from holonomy import (MAX_LATTICE_STEPS, ClosedSurface, Field, LatticeProblem, WilsonProblem,
                       check_block_memory, lattice_steps)
 from noise import ArgumentError
@@ -44,7 +44,8 @@ def _loops(spec: Spec, h: float) -> tuple[Loop, ...]:
 def _check_steps(spec: Spec, loops: tuple[Loop, ...], fld: Field) -> None:
     """Refuse a loop whose lattice path (its snapped edges x turns) passes
     ``MAX_LATTICE_STEPS``, before it is snapped: on ``loops[i].turns`` when one turn fits,
-    else on the loop's own key (``loops[i].moves``, ``loops[i].circle``, ...)."""
+    else on the loop's own key (``loops[i].moves``, ``loops[i].circle``, ...); and loops
+    whose paths together pass ``MAX_TOTAL_LATTICE_STEPS``, on ``loops``."""
     try:
         steps = lattice_steps(loops, fld)
     except ArgumentError as exc:
@@ -59,6 +60,11 @@ def _check_steps(spec: Spec, loops: tuple[Loop, ...], fld: Field) -> None:
                         f"up to {n} unit steps ({one} per turn x {ls.turns} turns); expected "
                         f"at most {MAX_LATTICE_STEPS:.0e} steps per loop, all turns included "
                         "(fewer turns, a larger spacing or a shorter loop)")
+    if sum(steps) > MAX_TOTAL_LATTICE_STEPS:
+        raise SpecError("loops", f"got {len(steps)} loops whose lattice paths at spacing "
+                        f"{fld.spacing!r} have up to {sum(steps)} unit steps together; "
+                        f"expected at most {MAX_TOTAL_LATTICE_STEPS:.0e} (fewer or shorter "
+                        "loops, or a larger spacing)")
 
 
 def _field(spec: Spec, scheme: str | None, spacing: float) -> Field:

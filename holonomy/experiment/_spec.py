@@ -31,7 +31,7 @@ that could hang the machine or exhaust its memory are refused before any numeric
 power <= 64, samples <= 1e12, block <= 1e6, grid cells <= 1e7, steps per moves token
 <= 1e6, coupling in [1e-100, 1e100], a numeric metric in [1e-6, 1e6]); the working set
 of one block, at most 2 GiB, and the lattice path of each loop, at most 1e6 unit steps
-all turns included, are checked when the problem is built
+all turns included (1e7 for all loops together), are checked when the problem is built
 (``holonomy.check_block_memory``, ``holonomy.lattice_steps``).
 """
 
@@ -50,12 +50,13 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterable
 
-from discretize import CURVES, MAX_SIDES, MAX_TURNS, AreaForm, Loop, closed_walk
+from discretize import (CURVES, MAX_LATTICE_STEPS, MAX_SIDES, MAX_TOTAL_LATTICE_STEPS, MAX_TURNS,
+                        AreaForm, Loop, closed_walk)
 from discretize._axial import GAUGES
 from noise import ArgumentError
 
 from .._formal_estimate import formal_schemes
-from .._sampling import BLOCK_MEMORY, MAX_LATTICE_STEPS
+from .._sampling import BLOCK_MEMORY
 from .._schemes import SCHEMES
 from .._surface_weights import SURFACE_SCHEMES
 from ..exact import drawn_measure
@@ -122,7 +123,8 @@ SPEC_KEYS: tuple[tuple[str, str, str], ...] = (
      "DEVELOPERS.md to add one)", "`heat`"),
     ("field.density", "a number, or a list of {rect = [x0, y0, x1, y1], value = v} over a "
      "base of 1 (negative values: exact, series, and run with linear or gauss: formal)", "1"),
-    ("loops", "an array of tables [[loops]], one per loop", "required"),
+    ("loops", "an array of tables [[loops]], one per loop; their lattice paths have at "
+     f"most {MAX_TOTAL_LATTICE_STEPS:.0e} unit steps together", "required"),
     ("loops[i].name", "the loop's name (distinct)", "`loop<i>`"),
     ("loops[i].vertices", "a polygon [[x, y], ...], at least three points",
      "one loop kind is required"),
@@ -228,6 +230,7 @@ LIMITS = {"matrix size": MAX_MATRIX, "spin dimension": MAX_REP_DIM,
           # unit steps of one loop's lattice path, all turns (snapped edges x turns),
           # checked before snapping (holonomy.lattice_steps) by every command
           "lattice steps per loop": MAX_LATTICE_STEPS,
+          "lattice steps of all loops": MAX_TOTAL_LATTICE_STEPS,
           # bytes of one chunk of a block (holonomy.block_memory), checked when the
           # problem is built (holonomy.check_block_memory, the same for every command)
           "block memory": BLOCK_MEMORY,

@@ -751,6 +751,9 @@ INVALID = [
     ("lattice-path-wound", _m(('"R2 U1 L1 U1 L1 D2"', '"R1000 U1 L1000 D1"'),
                               ('start = [0.0, 0.0]', 'start = [0.0, 0.0]\nturns = 1000')),
      "loops[1].turns"),
+    ("lattice-paths-together", _m(("[run]", "".join(
+        f'[[loops]]\nname = "long{k}"\nmoves = "R499999 U1 L499999 D1"\n'
+        f"start = [0.0, {0.25 * k!r}]\n" for k in range(11)) + "[run]")), "loops"),
     ("lattice-path-of-a-polygon", _m((BOX, "vertices = ["
                                            + ", ".join(["[0.0, 0.0], [1000.0, 0.25]"] * 400)
                                            + ", [0.0, 0.25]]")), "loops[0].vertices"),
@@ -1037,3 +1040,39 @@ def test_decompactify_of_a_loop_without_measure(tmp_path, capsys):
         assert r["limit"]["coefficients"] is None and "A = 0" in r["note"]
         # the character sum in double precision: rounding only (truncation < 1e-17)
         assert all(abs(row["exact"] - 1.0) < 1e-12 for row in r["rows"])
+
+
+# --------------------------------------------------------------------------- lattice paths
+
+@pytest.mark.parametrize("moves,turns,key", [("R1000000 U1 L1000000 D1", 1, "loops[0]"),
+                                             ("R1000 U1 L1000 D1", 1000, "loops[0].turns")])
+def test_api_refuses_a_lattice_path_beyond_the_limit(moves, turns, key):
+    # issue 17 item 7: 2e6 steps in one turn, 2002 wound 1000 times (MAX_LATTICE_STEPS,
+    # 1e6), refused before the path is built, with the structured argument
+    from discretize import Loop
+    from holonomy import LatticeProblem
+    loop = Loop.from_moves(moves, (0.0, 0.0), 1.0, turns=turns)
+    with pytest.raises(ArgumentError) as exc:
+        LatticeProblem("SU", 2, "physics", Field(coupling=1.0, spacing=1.0), [loop])
+    assert exc.value.argument == key
+
+
+def test_decompactify_refuses_a_lattice_path_beyond_the_limit(tmp_path, capsys):
+    from tests.conftest import spec_text
+
+    sphere = spec_text('[[loops]]\nname = "m"\nmoves = "R1000 U1 L1000 D1"\nstart = [0.0, 0.0]\n'
+                       'turns = 1000\n', name="dec") + '[surface]\nkind = "sphere"\narea = 1e4\n'
+    spec = _write(tmp_path, sphere, "sphere.toml")
+    assert main(["decompactify", str(spec), "--areas", "1e4,2e4", "--order", "2"]) == 2
+    _one_line(capsys.readouterr().err, "whitegauge: error: loops[0].turns: ")
+
+
+def test_api_refuses_lattice_paths_beyond_the_limit_together():
+    # 11 loops of about 1e6 steps each: each within MAX_LATTICE_STEPS, together above
+    # MAX_TOTAL_LATTICE_STEPS (1e7)
+    from discretize import Loop
+    from holonomy import LatticeProblem
+    loops = [Loop.from_moves("R499999 U1 L499999 D1", (0.0, float(k)), 1.0) for k in range(11)]
+    with pytest.raises(ArgumentError) as exc:
+        LatticeProblem("SU", 2, "physics", Field(coupling=1.0, spacing=1.0), loops)
+    assert exc.value.argument == "loops"
