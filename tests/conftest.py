@@ -48,14 +48,22 @@ seed = 20261202
 BOX = 'vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]'
 
 
-def spec_text(loops: str, *, name: str, spacing: float = 0.25, scheme: str | None = "heat",
-              samples: int = 600, block: int | None = 64, seed: int = 7,
-              observable: bool = False, lead: str = "\n") -> str:
-    """A spec for SU(2) with the physics metric and coupling 1 (the tests' usual group):
-    ``loops`` is the text of its ``[[loops]]`` tables; the other keys as given."""
-    return (f'{lead}name = "{name}"\n[group]\nfamily = "SU"\nn = 2\nmetric = "physics"\n'
-            f'[field]\ncoupling = 1.0\nspacing = {spacing!r}\n'
-            + (f'scheme = "{scheme}"\n' if scheme else "") + loops.strip("\n") + "\n"
+def spec_text(loops: str, *, name: str | None, spacing: float = 0.25,
+              scheme: str | None = "heat", samples: int = 600, block: int | None = 64,
+              seed: int = 7, observable: bool = False, lead: str = "\n",
+              family: str = "SU", n: int | str = 2, coupling: float | str = 1.0,
+              field: str = "") -> str:
+    """A spec, by default for SU(2) with the physics metric and coupling 1 (the tests'
+    usual group): ``loops`` is the text of its ``[[loops]]`` tables (and anything after
+    them, such as ``[[correlators]]``), ``field`` more lines of its ``[field]`` table;
+    the other keys as given (no ``name`` line for None; a str ``coupling`` or ``n`` is
+    written as it is, for templates)."""
+    return ((f'{lead}name = "{name}"\n' if name is not None else lead)
+            + f'[group]\nfamily = "{family}"\nn = {n}\nmetric = "physics"\n'
+            f'[field]\ncoupling = {coupling if isinstance(coupling, str) else repr(coupling)}\n'
+            f'spacing = {spacing!r}\n'
+            + (f'scheme = "{scheme}"\n' if scheme else "")
+            + (field.strip("\n") + "\n" if field else "") + loops.strip("\n") + "\n"
             + ('[observable]\nrep = "fundamental"\n' if observable else "")
             + f"[run]\nsamples = {samples}\n" + (f"block = {block}\n" if block else "")
             + f"seed = {seed}\n")

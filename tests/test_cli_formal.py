@@ -16,26 +16,11 @@ import math
 
 import pytest
 
-SPEC = '''
-name = "formal"
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 1.0
-spacing = 0.25
-reference = 0.0
-scheme = "{scheme}"
-density = [{{ rect = [0.0, 0.0, 0.5, 0.5], value = -3.0 }}]
-[[loops]]
-name = "rect"
-vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
-[run]
-samples = 8000
-block = 2000
-seed = 3
-'''
+from tests.conftest import BOX, spec_text
+
+SPEC = spec_text(f'[[loops]]\nname = "rect"\n{BOX}', name="formal", scheme="{scheme}",
+                 field="reference = 0.0\ndensity = [{{ rect = [0.0, 0.0, 0.5, 0.5], "
+                 "value = -3.0 }}]", samples=8000, block=2000, seed=3)
 
 
 def _main(tmp_path, capsys, scheme, *args):
@@ -87,30 +72,16 @@ def test_exact_is_flagged_formal(tmp_path, capsys):
     assert "exact (continuum) (formal)" in out and "gaussian matrix" in out
 
 
-CORRELATOR_SPEC = '''
-name = "formal-pair"
-[group]
-family = "U"
-n = 1
-metric = "physics"
-[field]
-coupling = 1.0
-spacing = 0.25
-scheme = "{scheme}"
-density = -1.0
-[[loops]]
+CORRELATOR_SPEC = spec_text('''[[loops]]
 name = "inner"
 vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 1.0], [0.0, 1.0]]
 [[loops]]
 name = "outer"
 vertices = [[0.0, 0.0], [2.0, 0.0], [2.0, 1.0], [0.0, 1.0]]
 [[correlators]]
-loops = ["inner", "outer"]
-[run]
-samples = 8000
-block = 2000
-seed = 5
-'''
+loops = ["inner", "outer"]''', name="formal-pair", family="U", n=1,
+                            scheme="{scheme}", field="density = -1.0", samples=8000,
+                            block=2000, seed=5)
 
 
 @pytest.mark.parametrize("scheme", ["linear", "gauss"])

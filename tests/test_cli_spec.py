@@ -10,24 +10,10 @@ from pathlib import Path
 import pytest
 
 from holonomy.experiment import SPEC_KEYS, format_spec_keys, load_spec, parse_spec
+from tests.conftest import BOX, spec_text
 
-SPEC = '''
-name = "set-box"
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 1.0
-spacing = 0.25
-[[loops]]
-name = "box"
-vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
-[run]
-samples = 400
-block = 100
-seed = 5
-'''
+SPEC = spec_text(f'[[loops]]\nname = "box"\n{BOX}', name="set-box", scheme=None,
+                 samples=400, block=100, seed=5)
 
 
 class _Done:

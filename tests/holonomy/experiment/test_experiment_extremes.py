@@ -32,6 +32,7 @@ from holonomy.exact import exact_correlator
 from holonomy.groups import make_group
 from holonomy.groups._heat import _MIXING_TV, _mixing_time
 from holonomy.groups._weights import _weight_system
+from tests.conftest import BOX_AND_ELL, spec_text
 
 FAMILIES = [("U", 1), ("U", 2), ("SU", 2), ("SU", 3), ("SO", 3), ("Sp", 1)]
 SCHEMES = ["heat", "linear", "gauss", "wilson"]
@@ -48,34 +49,15 @@ NOTES = {"exact": "exact_note", "continuum": "continuum_note", "coefficients": "
 
 
 def _spec(family, n, scheme, coupling=1.0, density=1.0) -> str:
-    return f'''name = "extreme"
-[group]
-family = "{family}"
-n = {n}
-metric = "physics"
-[field]
-coupling = {coupling!r}
-spacing = 0.25
-scheme = "{scheme}"
-density = {density!r}
-[[loops]]
-name = "box"
-vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
-[[loops]]
-name = "ell"
-moves = "R2 U1 L1 U1 L1 D2"
-start = [0.0, 0.0]
+    return spec_text(BOX_AND_ELL + '''
 [[loops]]
 name = "eight"
 moves = "R1 U1 L1 U1 R1 D1 L1 D1"
 start = [0.0, 0.0]
 [[correlators]]
-loops = ["box", "ell"]
-[run]
-samples = 64
-block = 32
-seed = 5
-'''
+loops = ["box", "ell"]''', name="extreme", family=family,
+                     n=n, coupling=coupling, scheme=scheme, field=f"density = {density!r}",
+                     samples=64, block=32, seed=5, lead="")
 
 
 def _cases(densities):

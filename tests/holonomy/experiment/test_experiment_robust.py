@@ -32,28 +32,9 @@ from holonomy.experiment import (RunStore, SpecError, StoreMismatch, StoreUnusab
                                  parse_spec, run_demo, run_spec, run_study, series_results)
 from holonomy.groups import make_group
 from noise import ArgumentError, ArgumentTypeError
+from tests.conftest import BOX_AND_ELL, spec_text
 
-SPEC = '''name = "robust"
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 1.0
-spacing = 0.25
-scheme = "heat"
-[[loops]]
-name = "box"
-vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
-[[loops]]
-name = "ell"
-moves = "R2 U1 L1 U1 L1 D2"
-start = [0.0, 0.0]
-[run]
-samples = 480
-block = 40
-seed = 7
-'''
+SPEC = spec_text(BOX_AND_ELL, name="robust", samples=480, block=40, seed=7, lead="")
 N_BLOCKS = 12
 
 

@@ -16,6 +16,7 @@ from scipy import integrate, stats
 from holonomy.experiment import (THEORY_RATES, SpecError, build_problem, fit_exact_rate,
                                  fit_rate, loop_references, parse_spec, run_study,
                                  study_block)
+from tests.conftest import BOX, spec_text
 
 
 def f_su2(t: float) -> float:
@@ -30,23 +31,9 @@ def test_one_step_closed_form_against_quadrature():
         assert f_su2(t) == pytest.approx((1 - t / 4) * math.exp(-t / 8), rel=1e-10)
 
 
-RECT = '''
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 2.0
-spacing = 0.25
-scheme = "{scheme}"
-[[loops]]
-name = "rectangle"
-vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
-[run]
-samples = 200
-block = 20
-seed = 3
-'''
+RECTANGLE = f'[[loops]]\nname = "rectangle"\n{BOX}'
+RECT = spec_text(RECTANGLE, name=None, coupling=2.0, scheme="{scheme}", samples=200,
+                 block=20, seed=3)
 
 
 @pytest.mark.parametrize("scheme", ["gauss", "linear", "heat", "wilson"])
@@ -121,22 +108,8 @@ def test_study_small_run_structure(tmp_path):
 def test_su2_rectangle_study_rates(tmp_path):
     """Issue 5: heat unbiased at every spacing; gauss and linear fitted rates whose 95%
     intervals contain 2 and 1 (derivation in holonomy.experiment._study)."""
-    text = '''
-[group]
-family = "SU"
-n = 2
-metric = "physics"
-[field]
-coupling = 2.0
-spacing = 0.5
-[[loops]]
-name = "rectangle"
-vertices = [[0.0, 0.0], [1.0, 0.0], [1.0, 0.5], [0.0, 0.5]]
-[run]
-samples = SAMPLES
-block = BLOCK
-seed = 11
-'''
+    text = spec_text(RECTANGLE, name=None, coupling=2.0, spacing=0.5, scheme=None,
+                     samples="SAMPLES", block="BLOCK", seed=11)
     # lambda h^2 <= 0.5 and lambda h b <= 0.5 on the ladder: the next-order terms
     # (relative size t / 6) stay small, so the fitted exponent is the asymptotic one
     spec = parse_spec(text.replace("SAMPLES", "60000").replace("BLOCK", "1000"), name="rect")
