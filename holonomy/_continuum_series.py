@@ -42,6 +42,7 @@ from .exact import (evaluate_polygon, exact_surface_wilson_loop, exact_wilson_lo
                     unitary_casimir, unitary_dimension, zero_instanton_series)
 from .exact._dispatch import _lattice_shape, _polygon_shape
 from .exact._unitary import _hooks
+from .groups import rep_of
 from ._series import SeriesResult, series_order_iv
 
 __all__ = ["continuum_series", "exact_series", "surface_series", "SECTOR_NOTE"]
@@ -317,7 +318,7 @@ def surface_series(group: Any, rep: Any, loop: Any, order: int, *, genus: int,
                                    total_area=total_area, area=area)
     if sv.value is None:
         raise NotImplementedError(sv.note)
-    rep_obj = group.rep(rep) if isinstance(rep, str) else rep
+    rep_obj = rep_of(group, rep)
     det = sv.details
     method = f"zero-instanton sector ({sv.method})"
     if sv.method == "surface-abelian":

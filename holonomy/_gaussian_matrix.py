@@ -20,6 +20,7 @@ from ._continuum_series import _rational
 from ._series import (MAX_GROUP_FACTOR_WORK, exp_product_series, group_factor_route,
                       series_order_iv)
 from .exact import ExactRouteError, gaussian_step
+from .groups import group_iv, rep_of
 
 __all__ = ["gaussian_matrix", "GaussianMatrixValue"]
 
@@ -117,7 +118,8 @@ def gaussian_matrix(group, rep, area: float, coupling: float, order: int = 4
         if not math.isfinite(v):
             raise ValueError(f"`{key}` must be a finite number, got {v!r}.")
     order = series_order_iv(order)
-    rep_obj = group.rep(rep) if isinstance(rep, str) else rep
+    group = group_iv(group)
+    rep_obj = rep_of(group, rep)
     t = float(coupling) * float(area)
     note = None
     value = None

@@ -53,6 +53,8 @@ import sympy
 
 from noise import FormalGaussian
 
+from .groups import group_iv, rep_of
+
 __all__ = [
     "perfect_matchings",
     "casimir_tensor",
@@ -91,11 +93,8 @@ def perfect_matchings(n: int) -> Iterator[tuple[int, ...]]:
 
 def _rep_basis(group: Any, rep: Any) -> tuple[np.ndarray, int]:
     """Basis matrices pi(X_a), shape (d, D, D), and the dimension D."""
-    if not hasattr(group, "basis") or not hasattr(group, "rep"):
-        raise TypeError(f"`group` must be a Group from holonomy.groups.make_group; "
-                        f"got {group!r}")
-    if isinstance(rep, str):
-        rep = group.rep(rep)
+    group = group_iv(group)
+    rep = rep_of(group, rep)
     try:
         B = np.asarray(rep.algebra_matrix(group.basis))
     except ValueError as exc:

@@ -33,7 +33,7 @@ import numpy as np
 
 from discretize import MAX_LATTICE_STEPS, MAX_TOTAL_LATTICE_STEPS, AreaForm, Grid, LatticeLoop, Loop, axial_plan
 from discretize._axial import GAUGES, frame_cells
-from noise import ArgumentError, block_rng, cell_noise, interval_sums
+from noise import ArgumentError, ArgumentTypeError, block_rng, cell_noise, interval_sums
 
 from ._estimate import BlockSums, EstimateResult, combine_blocks, correlator_subsets
 from ._kernels import kernel_for
@@ -82,9 +82,16 @@ def lattice_steps(loops, field: "Field") -> tuple[int, ...]:
                  for lp in loops)
 
 
+#: the run sizes the spec and the Python API accept (``run.samples``, ``run.block``):
+#: a run of more samples would not end, a larger block would not fit in memory
+MAX_SAMPLES = 10**12     # samples of one run
+MAX_BLOCK = 10**6        # samples per block (memory is proportional to it)
+
+
 def _positive(value, name: str) -> float:
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
-        raise TypeError(f"`{name}` must be a positive number, got {value!r}.")
+        raise ArgumentTypeError(name, f"got {value!r}; expected a number > 0",
+                                f"`{name}` must be a positive number, got {value!r}.")
     value = float(value)
     if not (math.isfinite(value) and value > 0):
         raise ArgumentError(name, f"got {value!r}; expected a number > 0",
@@ -92,13 +99,23 @@ def _positive(value, name: str) -> float:
     return value
 
 
-def _count(value, name: str) -> int:
+def _count(value, name: str, high: int | None = None) -> int:
+    rule = "an integer >= 1" + (f" and <= {high:.0e}" if high else "")
     if isinstance(value, bool) or not isinstance(value, numbers.Integral):
-        raise TypeError(f"`{name}` must be an integer >= 1, got {value!r}.")
-    if value < 1:
-        raise ArgumentError(name, f"got {value!r}; expected an integer > 0",
-                            f"`{name}` must be an integer >= 1, got {value!r}.")
+        raise ArgumentTypeError(name, f"got {value!r}; expected {rule}",
+                                f"`{name}` must be {rule}, got {value!r}.")
+    if value < 1 or (high and value > high):
+        raise ArgumentError(name, f"got {value!r}; expected {rule}",
+                            f"`{name}` must be {rule}, got {value!r}.")
     return int(value)
+
+
+def _sequence(value, name: str) -> tuple:
+    """A sequence argument (``loops``, ``names``): a list or tuple, not a str."""
+    if isinstance(value, (str, bytes)) or not isinstance(value, (list, tuple)):
+        raise ArgumentTypeError(name, f"got {value!r}; expected a list or tuple",
+                                f"`{name}` must be a list or tuple, got {value!r}.")
+    return tuple(value)
 
 
 @dataclass(frozen=True)
@@ -168,7 +185,7 @@ class LatticeProblem:
     rep: str = "fundamental"
 
     def __post_init__(self):
-        object.__setattr__(self, "loops", tuple(self.loops))
+        object.__setattr__(self, "loops", _sequence(self.loops, "loops"))
         if not self.loops:
             raise ArgumentError("loops", "got none; expected at least one loop",
                                 "`loops` is empty: give at least one loop.")
@@ -176,7 +193,11 @@ class LatticeProblem:
             if not isinstance(lp, (Loop, LatticeLoop)):
                 raise TypeError(f"`loops[{i}]` must be a discretize.Loop or LatticeLoop, "
                                 f"got {type(lp).__name__}.")
-        names = tuple(self.names) or tuple(f"loop{i}" for i in range(len(self.loops)))
+        names = _sequence(self.names, "names") or tuple(f"loop{i}"
+                                                        for i in range(len(self.loops)))
+        if not all(isinstance(x, str) for x in names):
+            raise ArgumentTypeError("names", f"got {names!r}; expected strings",
+                                    f"`names` must be strings, got {names!r}.")
         if len(names) != len(self.loops):
             raise ValueError(
                 f"`names` must have one name per loop ({len(self.loops)}), got {len(names)}."
@@ -291,8 +312,8 @@ class RunSettings:
     path: str = "auto"
 
     def __post_init__(self):
-        object.__setattr__(self, "samples", _count(self.samples, "samples"))
-        object.__setattr__(self, "block", _count(self.block, "block"))
+        object.__setattr__(self, "samples", _count(self.samples, "samples", MAX_SAMPLES))
+        object.__setattr__(self, "block", _count(self.block, "block", MAX_BLOCK))
         if isinstance(self.seed, bool) or not isinstance(self.seed, numbers.Integral) or self.seed < 0:
             raise ArgumentError("seed", f"got {self.seed!r}; expected an integer >= 0",
                                 f"`seed` must be a non-negative integer, got {self.seed!r}.")
@@ -954,10 +975,12 @@ def estimate_wilson_loops(group, field: Field, loops: Sequence, rep: str = "fund
     elif all(hasattr(group, a) for a in ("family", "n", "metric")):
         family, n, metric = group.family, group.n, group.metric
     else:
-        raise TypeError(f"`group` must be a Group (make_group) or (family, n, metric), got "
-                        f"{group!r}.")
-    problem = WilsonProblem(family=family, n=n, metric=metric, field=field, loops=tuple(loops),
-                            names=tuple(names), rep=rep, samples=samples, block=block,
+        raise ArgumentTypeError("group", f"got {group!r}; expected a Group or (family, n, "
+                                "metric)", f"`group` must be a Group (make_group) or (family, "
+                                f"n, metric), got {group!r}.")
+    problem = WilsonProblem(family=family, n=n, metric=metric, field=field,
+                            loops=_sequence(loops, "loops"), names=_sequence(names, "names"),
+                            rep=rep, samples=samples, block=block,
                             seed=seed, path=path, correlators=tuple(correlators),
                             surface=surface)
     if executor is None:

@@ -80,6 +80,7 @@ import sympy
 from discretize import turns_iv
 from noise import ArgumentError, ArgumentTypeError, FormalGaussian
 
+from .groups import rep_of
 from ._lie_words import (
     _EXACT_FAMILIES,
     _exact_factor_fraction,
@@ -173,8 +174,8 @@ def _exp_product_series_iv(group, cov, order, rep, exact):
         raise ValueError(f"`exact` must be True or False; got {exact!r}")
     fg = FormalGaussian(cov)  # `cov` validation: square, symmetric, finite
     B, D = _rep_basis(group, rep)
-    rep_name = rep if isinstance(rep, str) else rep.name
-    rep_obj = group.rep(rep) if isinstance(rep, str) else rep
+    rep_obj = rep_of(group, rep)  # after _rep_basis's checks of group and rep
+    rep_name = rep if isinstance(rep, str) else rep_obj.name
     if exact and not (rep_obj.name in ("fundamental", "defining")
                       and group.family in _EXACT_FAMILIES):
         raise ValueError(

@@ -34,6 +34,7 @@ from discretize import AreaForm, LatticeLoop, Loop, arrangement
 from noise import ArgumentError
 
 from .._series import series_order_iv
+from ..groups import rep_of
 from ._evaluate import evaluate_polygon, evaluate_word, face_measures
 from ._laws import ExactRouteError
 from ._simple import simple_loop
@@ -316,7 +317,7 @@ def exact_correlator(group, rep, loops, *, coupling: float, area=None) -> ExactV
     curves, turns = zip(*(_curve_of(lp) for lp in loops))
     try:
         if group is not None and group.family == "U" and group.n == 1:
-            rep_obj = group.rep(rep) if isinstance(rep, str) else rep
+            rep_obj = rep_of(group, rep)
             q = _power_of(rep_obj)
             if q is not None:
                 arr = joint_arrangement([np.asarray(c, float) for c in curves], list(turns))

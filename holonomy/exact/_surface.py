@@ -82,7 +82,7 @@ import numpy as np
 from scipy.special import gammaln
 
 from discretize import AreaForm, LatticeLoop, Loop, arrangement, turns_iv
-from holonomy.groups import irreducible_representation, rep_weights, weight_system
+from holonomy.groups import irreducible_representation, rep_of, rep_weights, weight_system
 from noise import ArgumentError
 
 from .._series import series_order_iv
@@ -167,12 +167,7 @@ def _route_iv(route: str) -> str:
     return route
 
 
-def _rep_of(group, rep):
-    if isinstance(rep, str):
-        return group.rep(rep)
-    if hasattr(rep, "name") and hasattr(rep, "dim"):
-        return rep
-    raise TypeError(f"`rep` must be a representation spec string or a Representation, got {rep!r}.")
+_rep_of = rep_of  # the one check of a `rep` argument (holonomy.groups)
 
 
 # --------------------------------------------------------------- bounds on tails

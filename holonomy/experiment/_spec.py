@@ -56,7 +56,7 @@ from discretize._axial import GAUGES
 from noise import ArgumentError
 
 from .._formal_estimate import formal_schemes
-from .._sampling import BLOCK_MEMORY
+from .._sampling import BLOCK_MEMORY, MAX_BLOCK, MAX_SAMPLES
 from .._schemes import SCHEMES
 from .._surface_weights import SURFACE_SCHEMES
 from ..exact import drawn_measure
@@ -76,8 +76,7 @@ DEFAULT_BLOCK = 4096
 MAX_MATRIX = 32          # matrix size of the group (U(32), SU(32), SO(32), Sp(16))
 # MAX_REP_DIM (holonomy.groups): dimension of a spin:j (2j + 1) or adjoint representation
 MAX_POWER = 64           # k of power:k
-MAX_SAMPLES = 10**12     # samples of one run
-MAX_BLOCK = 10**6        # samples per block (memory is proportional to it)
+# MAX_SAMPLES, MAX_BLOCK (holonomy._sampling): samples of one run, samples per block
 MAX_CELLS = 10**7        # cells of the grid that covers the loops at the spacing
 MAX_STEPS = 10**6        # count of one moves token
 

@@ -26,10 +26,11 @@ import math
 import numbers
 from dataclasses import dataclass
 from functools import cached_property, lru_cache
+from typing import Any
 
 import numpy as np
 
-from noise import ArgumentError
+from noise import ArgumentError, ArgumentTypeError
 
 from ._heat import BrownianResult, brownian, exact_heat_route, heat_kernel
 from ._reps import Representation, make_representation
@@ -38,7 +39,7 @@ from ._expmap import expm_eigh, expm_so3, expm_su2, expm_taylor, expm_u1, expm_u
 _TAYLOR_MAX_N = 8  # up to this size scaled Taylor beats a batched eigh (measured side by side against eigh, 2026-12-02)
 
 
-__all__ = ["Group", "make_group", "FAMILIES", "METRICS", "MIN_N", "matrix_size",
+__all__ = ["Group", "make_group", "group_iv", "FAMILIES", "METRICS", "MIN_N", "matrix_size",
            "algebra_dimension",
            "parse_family", "parse_n", "parse_metric"]
 
@@ -516,6 +517,8 @@ class Group:
     def rep(self, spec: str) -> "Representation":
         """Representation by name: ``"fundamental"``, ``"adjoint"``, ``"trivial"``,
         ``"spin:j"`` (SU(2) and Sp(1); j = 0, 1/2, 1, 3/2, ...), ``"power:k"`` (k >= 1)."""
+        if not isinstance(spec, str):  # refused by the grammar (unhashable ones too)
+            return make_representation(self, spec)
         cache = self.__dict__.setdefault("_rep_cache", {})
         if spec not in cache:
             r = make_representation(self, spec)
@@ -554,3 +557,13 @@ class Group:
     def __setstate__(self, state):
         for key, value in state.items():
             object.__setattr__(self, key, value)
+
+
+def group_iv(group: Any, name: str = "group") -> "Group":
+    """The group argument of an entry point: a :class:`Group` (anything with its
+    ``basis`` and ``rep``), else :class:`noise.ArgumentTypeError` naming ``name``."""
+    if not (hasattr(group, "basis") and hasattr(group, "rep")):
+        raise ArgumentTypeError(name, f"got {group!r}; expected a Group from make_group",
+                                f"`{name}` must be a Group from holonomy.groups.make_group; "
+                                f"got {group!r}.")
+    return group

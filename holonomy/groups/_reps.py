@@ -42,9 +42,9 @@ from typing import Any, Callable
 
 import numpy as np
 
-from noise import ArgumentError
+from noise import ArgumentError, ArgumentTypeError
 
-__all__ = ["Representation", "make_representation", "parse_spin", "parse_rep", "rep_name",
+__all__ = ["Representation", "make_representation", "rep_of", "parse_spin", "parse_rep", "rep_name",
            "irreducible_representation", "MAX_REP_DIM", "rep_dimension", "check_rep_dimension"]
 
 #: The largest dimension of a representation named by a spec string (``spin:j``: 2j + 1;
@@ -129,7 +129,7 @@ def parse_spin(text: str) -> Fraction:
         raise ArgumentError(
             "rep", f"got 'spin:{text}'; expected spin:j with j a half-integer >= 0 like "
             "0, 1/2, 1, 3/2",
-            f"`spec` spin must be a non-negative half-integer such as 0, 1/2, 1, 3/2 "
+            f"`rep` spin must be a non-negative half-integer such as 0, 1/2, 1, 3/2 "
             f"(written 'spin:3/2', 'spin:1' or 'spin:1.5'); got {text!r}.")
     return j
 
@@ -144,15 +144,15 @@ def parse_rep(spec: str, family: str, N: int) -> tuple[str, Fraction | int | Non
     :class:`noise.ArgumentError` (argument ``rep``) for a refused one.
     """
     if not isinstance(spec, str):
-        raise TypeError(
-            f"`spec` must be a string: 'fundamental', 'adjoint', 'trivial', 'spin:j' or "
-            f"'power:k'; got {spec!r}."
-        )
+        raise ArgumentTypeError(
+            "rep", f"got {spec!r}; expected {_REP_RULE}",
+            f"`rep` must be a string: 'fundamental', 'adjoint', 'trivial', 'spin:j' or "
+            f"'power:k'; got {spec!r}.")
     s = spec.strip().lower()
     if not s.isascii():  # int() and Fraction() would read other scripts' digits
         raise ArgumentError(
             "rep", f"got {spec!r}; expected {_REP_RULE} in ASCII",
-            f"`spec` must be 'fundamental', 'adjoint', 'trivial', 'spin:j' (SU(2), Sp(1)) or "
+            f"`rep` must be 'fundamental', 'adjoint', 'trivial', 'spin:j' (SU(2), Sp(1)) or "
             f"'power:k' in ASCII; got {spec!r}.")
     if s in ("fundamental", "defining", "fund"):
         return ("fundamental", None)
@@ -164,7 +164,7 @@ def parse_rep(spec: str, family: str, N: int) -> tuple[str, Fraction | int | Non
         if not (N == 2 and family in ("SU", "Sp")):
             raise ArgumentError(
                 "rep", f"got {spec!r} for {family}; spin representations need SU(2) or Sp(1)",
-                f"`spec` {spec!r}: spin representations exist for SU(2) and Sp(1) only; "
+                f"`rep` {spec!r}: spin representations exist for SU(2) and Sp(1) only; "
                 f"the group is {family} with matrix size {N}. Accepted here: 'fundamental', "
                 "'adjoint', 'trivial', 'power:k'.")
         return ("spin", parse_spin(s[5:]))
@@ -177,11 +177,11 @@ def parse_rep(spec: str, family: str, N: int) -> tuple[str, Fraction | int | Non
         if k < 1:
             raise ArgumentError(
                 "rep", f"got {spec!r}; expected power:k with k an integer >= 1",
-                f"`spec` 'power:k' needs an integer k >= 1; got {spec!r}.")
+                f"`rep` 'power:k' needs an integer k >= 1; got {spec!r}.")
         return ("power", k)
     raise ArgumentError(
         "rep", f"got {spec!r}; expected {_REP_RULE}",
-        f"`spec` must be 'fundamental', 'adjoint', 'trivial', 'spin:j' (SU(2), Sp(1)) or "
+        f"`rep` must be 'fundamental', 'adjoint', 'trivial', 'spin:j' (SU(2), Sp(1)) or "
         f"'power:k'; got {spec!r}.")
 
 
@@ -239,6 +239,21 @@ def make_representation(group, spec: str) -> Representation:
     kind, arg = parse_rep(spec, group.family, group.N)
     check_rep_dimension(spec, kind, arg, group.family, group.n)
     return _build(group, kind, arg)
+
+
+def rep_of(group, rep: Any) -> Representation:
+    """The representation argument ``rep`` of an entry point: a name (built by
+    ``group.rep``) or a :class:`Representation`; :class:`noise.ArgumentTypeError`
+    (argument ``rep``) for anything else. The one check of every entry point taking
+    ``rep`` next to a group."""
+    if isinstance(rep, str):
+        return group.rep(rep)
+    if isinstance(rep, Representation):
+        return rep
+    raise ArgumentTypeError(
+        "rep", f"got {rep!r}; expected {_REP_RULE} or a Representation",
+        f"`rep` must be a representation name ('fundamental', 'adjoint', 'trivial', "
+        f"'spin:j', 'power:k') or a Representation; got {rep!r}.")
 
 
 def _build(group, kind: str, arg) -> Representation:

@@ -592,10 +592,39 @@ ARGUMENT_CASES = [
     ("run_spec-executor-shut-down-processes",
      lambda: run_spec(SPEC_OBJ, executor=_shut_down(ProcessPoolExecutor)), ArgumentError,
      "executor"),
+    # the adversarial pass over the public API (third pass): one check per concept
+    ("Group.rep-None", lambda: make_group(*_SU2).rep(None), ArgumentTypeError, "rep"),
+    ("Group.rep-list", lambda: make_group(*_SU2).rep([]), ArgumentTypeError, "rep"),
+    ("Group.rep-unknown", lambda: make_group(*_SU2).rep("x"), ArgumentError, "rep"),
+    ("exp_product_series-rep-None",
+     lambda: _series("exp_product_series", make_group(*_SU2), [[1.0]], 2, rep=None),
+     ArgumentTypeError, "rep"),
+    ("gaussian_matrix-rep-float",
+     lambda: _series("gaussian_matrix", make_group(*_SU2), 2.5, 1.0, 1.0), ArgumentTypeError,
+     "rep"),
+    ("gaussian_matrix-group-str",
+     lambda: _series("gaussian_matrix", "SU2", "fundamental", 1.0, 1.0), ArgumentTypeError,
+     "group"),
+    ("formal_word_trace-group-None",
+     lambda: _series("formal_word_trace", None, [0, 0], [[1.0]]), ArgumentTypeError, "group"),
+    ("estimate-loops-None", lambda: _estimate(_SU2, None), ArgumentTypeError, "loops"),
+    ("estimate-group-int", lambda: _estimate(3, [_square_loop()]), ArgumentTypeError, "group"),
+    ("WilsonProblem-names-str", lambda: _wilson_problem(names="box"), ArgumentTypeError,
+     "names"),
+    ("WilsonProblem-samples-1e30", lambda: _wilson_problem(samples=10**30), ArgumentError,
+     "samples"),
+    ("WilsonProblem-block-1e7", lambda: _wilson_problem(block=10**7), ArgumentError, "block"),
     ("run_study-executor-shut-down",
      lambda: run_study(SPEC_OBJ, spacings=[0.25, 0.125],
                        executor=_shut_down(ThreadPoolExecutor)), ArgumentError, "executor"),
 ]
+
+
+def _wilson_problem(**kw):
+    from holonomy import WilsonProblem
+    args = dict(family="SU", n=2, metric="physics", field=Field(coupling=1.0, spacing=0.5),
+                loops=(_square_loop(),), samples=8, block=8, seed=0)
+    return WilsonProblem(**{**args, **kw})
 
 
 def _loop(kind, *args, **kw):

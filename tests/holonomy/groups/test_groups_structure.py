@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 
 from holonomy.groups import make_group
+from noise import ArgumentError
 
 FAMILY_SIZES = [("U", 1), ("U", 2), ("U", 3), ("SU", 2), ("SU", 3), ("SU", 4), ("SO", 2),
                 ("SO", 3), ("SO", 4), ("SO", 5), ("Sp", 1), ("Sp", 2), ("Sp", 3)]
@@ -185,17 +186,18 @@ def test_make_group_iv(args, exc, match):
 
 
 @pytest.mark.parametrize("family,n,spec,match", [
-    ("SU", 3, "spin:1", r"`spec` 'spin:1': spin representations exist for SU\(2\) and Sp\(1\) only"),
-    ("SU", 2, "spin:1/3", r"`spec` spin must be a non-negative half-integer.*got '1/3'"),
-    ("SU", 2, "spin:0.7", r"`spec` spin must be a non-negative half-integer.*got '0.7'"),
-    ("SU", 2, "spin:-1/2", r"`spec` spin must be a non-negative half-integer.*got '-1/2'"),
-    ("SU", 2, "spin:x", r"`spec` spin must be a non-negative half-integer.*got 'x'"),
-    ("SU", 2, "power:0", r"`spec` 'power:k' needs an integer k >= 1; got 'power:0'"),
-    ("U", 2, "vector", r"`spec` must be 'fundamental', 'adjoint'.*got 'vector'"),
+    ("SU", 3, "spin:1", r"`rep` 'spin:1': spin representations exist for SU\(2\) and Sp\(1\) only"),
+    ("SU", 2, "spin:1/3", r"`rep` spin must be a non-negative half-integer.*got '1/3'"),
+    ("SU", 2, "spin:0.7", r"`rep` spin must be a non-negative half-integer.*got '0.7'"),
+    ("SU", 2, "spin:-1/2", r"`rep` spin must be a non-negative half-integer.*got '-1/2'"),
+    ("SU", 2, "spin:x", r"`rep` spin must be a non-negative half-integer.*got 'x'"),
+    ("SU", 2, "power:0", r"`rep` 'power:k' needs an integer k >= 1; got 'power:0'"),
+    ("U", 2, "vector", r"`rep` must be 'fundamental', 'adjoint'.*got 'vector'"),
 ])
 def test_rep_iv(family, n, spec, match):
-    with pytest.raises(ValueError, match=match):
+    with pytest.raises(ArgumentError, match=match) as info:
         make_group(family, n).rep(spec)
+    assert info.value.argument == "rep"
 
 
 def test_spin_spellings():
