@@ -15,10 +15,12 @@ from __future__ import annotations
 
 import math
 import numbers
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 
 import numpy as np
+
+from noise import ArgumentTypeError
 
 from ._grid import Grid
 
@@ -37,8 +39,9 @@ def _finite_real(value, name: str) -> float:
 def _area_form_iv(base, rects):
     """Input validation and standardization for :class:`AreaForm`."""
     base = _finite_real(base, "base")
-    if isinstance(rects, (str, bytes, Mapping)):
-        raise TypeError(f"`rects` must be a sequence of rectangles, got {rects!r}.")
+    if isinstance(rects, (str, bytes, Mapping)) or not isinstance(rects, Iterable):
+        raise ArgumentTypeError("rects", f"got {rects!r}; expected a sequence of rectangles",
+                                f"`rects` must be a sequence of rectangles, got {rects!r}.")
     out = []
     for k, r in enumerate(rects):
         name = f"rects[{k}]"

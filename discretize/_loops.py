@@ -57,7 +57,7 @@ from typing import Callable
 
 import numpy as np
 
-from noise import ArgumentError
+from noise import ArgumentError, ArgumentTypeError
 
 from ._arrangement import arrangement
 from ._grid import Grid, _as_int
@@ -735,7 +735,14 @@ def _lattice_loop_iv(grid, nodes, source_area):
             f"0..{grid.nx} x 0..{grid.ny}."
         )
     if source_area is not None:
+        rule = "a finite number or None"
+        if isinstance(source_area, bool) or not isinstance(source_area, numbers.Real):
+            raise ArgumentTypeError("source_area", f"got {source_area!r}; expected {rule}",
+                                    f"`source_area` must be {rule}, got {source_area!r}.")
         source_area = float(source_area)
+        if not math.isfinite(source_area):
+            raise ArgumentError("source_area", f"got {source_area!r}; expected {rule}",
+                                f"`source_area` must be {rule}, got {source_area!r}.")
     a.setflags(write=False)
     return grid, a, source_area
 
@@ -880,8 +887,10 @@ class LatticeLoop:
         turns = _turns_iv(turns)
         try:
             s = np.array(start, dtype=np.int64).reshape(2)
-        except (TypeError, ValueError):
-            raise TypeError(f"`start` must be a node index pair (i, j), got {start!r}.") from None
+        except (TypeError, ValueError, OverflowError):  # inf or beyond int64 too
+            raise ArgumentTypeError("start", f"got {start!r}; expected a node index pair "
+                                    "(i, j)", f"`start` must be a node index pair (i, j), got "
+                                    f"{start!r}.") from None
         corners = s + walk
         nodes = _expand_corners(corners)
         nodes = np.vstack([np.tile(nodes[:-1], (turns, 1)), nodes[:1]])

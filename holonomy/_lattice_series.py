@@ -30,6 +30,7 @@ import numpy as np
 import sympy
 
 from discretize import AreaForm
+from noise import ArgumentError, ArgumentTypeError
 
 if TYPE_CHECKING:  # annotations only: the problem classes import the schemes
     from ._sampling import LatticeProblem
@@ -37,6 +38,27 @@ from ._series import SeriesResult, exp_product_series, factor_product_series, se
 
 __all__ = ["lattice_covariance", "lattice_loadings", "lattice_series", "gauss_loadings",
            "gauss_series", "wilson_series"]
+
+
+def _problem_iv(problem, loop_index) -> int:
+    """The ``problem`` and ``loop_index`` arguments of the lattice series: a
+    LatticeProblem and an index of one of its loops (:class:`noise.ArgumentTypeError`
+    or :class:`noise.ArgumentError` naming the argument)."""
+    from ._sampling import LatticeProblem
+
+    if not isinstance(problem, LatticeProblem):
+        raise ArgumentTypeError("problem", f"got {type(problem).__name__}; expected a "
+                                "LatticeProblem", f"`problem` must be a LatticeProblem, got "
+                                f"{type(problem).__name__}.")
+    m = len(problem.loops)
+    rule = f"an integer from 0 to {m - 1}"
+    if isinstance(loop_index, (bool, np.bool_)) or not isinstance(loop_index, numbers.Integral):
+        raise ArgumentTypeError("loop_index", f"got {loop_index!r}; expected {rule}",
+                                f"`loop_index` must be {rule}, got {loop_index!r}.")
+    if not 0 <= loop_index < m:
+        raise ArgumentError("loop_index", f"got {loop_index!r}; expected {rule}",
+                            f"`loop_index` must be in [0, {m}), got {loop_index!r}.")
+    return int(loop_index)
 
 
 def lattice_loadings(problem: "LatticeProblem", loop_index: int = 0, *, merge: bool = True
@@ -82,7 +104,7 @@ def lattice_covariance(problem: "LatticeProblem", loop_index: int = 0) -> np.nda
     symmetric matrix, m the number of remaining horizontal steps:
     ``C_ef = dir_e dir_f mu(chain(e) & chain(f)) = (U diag(mu) U^T)_ef``.
     """
-    U, mu = lattice_loadings(problem, loop_index)
+    U, mu = lattice_loadings(problem, _problem_iv(problem, loop_index))
     return (U * mu) @ U.T
 
 
@@ -106,13 +128,8 @@ def lattice_series(problem: "LatticeProblem", loop_index: int = 0, order: int = 
     SeriesResult
         ``value(lam)`` evaluates the truncated series; it is a series, not an estimate.
     """
-    from ._sampling import LatticeProblem
-
-    if not isinstance(problem, LatticeProblem):
-        raise TypeError(f"`problem` must be a LatticeProblem, got {type(problem).__name__}.")
+    loop_index = _problem_iv(problem, loop_index)
     order = series_order_iv(order)
-    if not 0 <= loop_index < len(problem.loops):
-        raise ValueError(f"`loop_index` must be in [0, {len(problem.loops)}), got {loop_index!r}.")
     U, mu = lattice_loadings(problem, loop_index)
     if exact:
         h = problem.field.spacing
@@ -227,9 +244,8 @@ def gauss_series(problem: "LatticeProblem", loop_index: int = 0, order: int = 4,
     .. [1] Driver, B. K. (1989). Commun. Math. Phys. 123, 575-616.
     .. [2] Wick, G. C. (1950). Phys. Rev. 80, 268-272.
     """
+    loop_index = _problem_iv(problem, loop_index)
     order = series_order_iv(order)
-    if not 0 <= loop_index < len(problem.loops):
-        raise ValueError(f"`loop_index` must be in [0, {len(problem.loops)}), got {loop_index!r}.")
     U, mu, turns, route = gauss_loadings(problem, loop_index)
     if U.shape[0] == 0:
         res = exp_product_series(problem.group, np.zeros((1, 1)), int(order),
@@ -286,6 +302,7 @@ def wilson_series(problem: "LatticeProblem", loop_index: int = 0, order: int = 4
     .. [2] D. J. Gross and E. Witten, Phys. Rev. D 21 (1980) 446-453 (independent
        plaquettes in axial gauge on the plane).
     """
+    loop_index = _problem_iv(problem, loop_index)
     order = series_order_iv(order)
     g = problem.group
     rep = problem.rep if isinstance(problem.rep, str) else problem.rep.name

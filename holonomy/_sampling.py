@@ -841,9 +841,26 @@ def run_block(problem: WilsonProblem, block: int, size: int | None = None) -> Bl
     Block b draws from ``SeedSequence(seed, spawn_key=(b,))`` and has
     ``problem.block_sizes()[b]`` samples unless ``size`` is given.
     """
-    if size is None:
-        size = problem.block_sizes()[block]
+    block, size = _block_iv(problem, block, size)
     return _block_sums(problem, block, size, block_rng(problem.seed, block))
+
+
+def _block_iv(problem, block, size) -> tuple[int, int]:
+    """``(block, size)`` of :func:`run_block`: a WilsonProblem, one of its block indices
+    and a block size (default the block's own)."""
+    if not isinstance(problem, WilsonProblem):
+        raise ArgumentTypeError("problem", f"got {type(problem).__name__}; expected a "
+                                "WilsonProblem", f"`problem` must be a WilsonProblem, got "
+                                f"{type(problem).__name__}.")
+    sizes = problem.block_sizes()
+    rule = f"an integer from 0 to {len(sizes) - 1}"
+    if isinstance(block, (bool, np.bool_)) or not isinstance(block, numbers.Integral):
+        raise ArgumentTypeError("block", f"got {block!r}; expected {rule}",
+                                f"`block` must be {rule}, got {block!r}.")
+    if not 0 <= block < len(sizes):
+        raise ArgumentError("block", f"got {block!r}; expected {rule}",
+                            f"`block` must be {rule} (the problem's blocks), got {block!r}.")
+    return int(block), (sizes[block] if size is None else _count(size, "size", MAX_BLOCK))
 
 
 #: freed memory the C allocator keeps for reuse instead of returning it (bytes); see

@@ -43,6 +43,8 @@ from fractions import Fraction
 from typing import Any
 
 import numpy as np
+
+from ._seeding import rng_iv
 import scipy.linalg
 import sympy
 
@@ -526,7 +528,7 @@ def complex_rotation_estimate(cov: Any, f: Callable[[np.ndarray], np.ndarray] | 
     True
     """
     C, func, samples, chunk = _complex_rotation_estimate_iv(cov, f, samples, chunk)
-    rng = np.random.default_rng(rng)
+    rng = rng_iv(rng)
     L = complex_factor(C)
     m = C.shape[0]
     s1 = 0j

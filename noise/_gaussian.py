@@ -15,6 +15,8 @@ import numbers
 
 import numpy as np
 
+from ._seeding import rng_iv
+
 __all__ = ["gaussian_vector", "covariance_factor"]
 
 _EPS = 1e6 * np.finfo(float).eps
@@ -65,7 +67,7 @@ def _gaussian_vector_iv(cov, size, rng):
         raise TypeError(f"`size` must be a positive integer, got {size!r}.")
     if size < 1:
         raise ValueError(f"`size` must be a positive integer, got {size!r}.")
-    return covariance_factor(cov), int(size), np.random.default_rng(rng)
+    return covariance_factor(cov), int(size), rng_iv(rng)
 
 
 def gaussian_vector(cov, size: int, *, rng=None) -> np.ndarray:

@@ -21,7 +21,28 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["block_rng", "SeedRecord"]
+from ._errors import ArgumentError, ArgumentTypeError
+
+__all__ = ["block_rng", "SeedRecord", "rng_iv"]
+
+
+def rng_iv(rng) -> np.random.Generator:
+    """The ``rng`` argument of every sampling function, as ``numpy.random.default_rng``
+    reads it: None (fresh entropy), a seed (an integer >= 0), a SeedSequence, a
+    BitGenerator or a Generator (used as it is); anything else is refused with
+    :class:`ArgumentTypeError` / :class:`ArgumentError` naming ``rng``, never numpy's
+    message about SeedSequence entropy."""
+    rule = "None, an integer seed >= 0, a SeedSequence, a BitGenerator or a Generator"
+    if rng is None or isinstance(rng, (np.random.Generator, np.random.BitGenerator,
+                                       np.random.SeedSequence)):
+        return np.random.default_rng(rng)
+    if isinstance(rng, (bool, np.bool_)) or not isinstance(rng, numbers.Integral):
+        raise ArgumentTypeError("rng", f"got {rng!r}; expected {rule}",
+                                f"`rng` must be {rule}, got {rng!r}.")
+    if rng < 0:
+        raise ArgumentError("rng", f"got {rng!r}; expected {rule}",
+                            f"`rng` must be {rule}, got {rng!r}.")
+    return np.random.default_rng(rng)
 
 
 def _nonneg_int(value, name: str) -> int:

@@ -26,6 +26,8 @@ import numbers
 
 import numpy as np
 
+from ._seeding import rng_iv
+
 __all__ = ["cell_noise", "refine_noise", "interval_sums"]
 
 _FORMAL = (
@@ -58,7 +60,7 @@ def _variances_iv(variances, name: str = "variances") -> np.ndarray:
 
 def _cell_noise_iv(variances, d, size, rng):
     v = _variances_iv(variances)
-    return v, _count_iv(d, "d"), _count_iv(size, "size"), np.random.default_rng(rng)
+    return v, _count_iv(d, "d"), _count_iv(size, "size"), rng_iv(rng)
 
 
 def cell_noise(variances, d: int, size: int, *, rng=None) -> np.ndarray:
@@ -131,7 +133,7 @@ def _refine_noise_iv(coarse, child_variances, rng):
             f"`child_variances` must have shape (2 nx, 2 ny) = {(2 * nx, 2 * ny)} for "
             f"`coarse` of shape {c.shape}, got {v.shape}."
         )
-    return c, v, np.random.default_rng(rng)
+    return c, v, rng_iv(rng)
 
 
 def refine_noise(coarse, child_variances, *, rng=None) -> np.ndarray:

@@ -25,13 +25,14 @@ density integrated over each face of the arrangement.
 
 from __future__ import annotations
 
+import math
 import numbers
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from discretize import AreaForm, LatticeLoop, Loop, arrangement
-from noise import ArgumentError
+from noise import ArgumentError, ArgumentTypeError
 
 from .._series import series_order_iv
 from ..groups import rep_of
@@ -134,12 +135,7 @@ def _exact_wilson_loop_iv(group, rep, loop, coupling, area):
     for attr in ("family", "n", "k", "rep"):
         if not hasattr(group, attr):
             raise TypeError(f"`group` must be a holonomy.groups Group, got {type(group).__name__}.")
-    if isinstance(rep, str):
-        rep_obj = group.rep(rep)
-    elif hasattr(rep, "casimir") and hasattr(rep, "name"):
-        rep_obj = rep
-    else:
-        raise TypeError(f"`rep` must be a representation spec string or a Representation, got {rep!r}.")
+    rep_obj = rep_of(group, rep)
     if not isinstance(loop, (LatticeLoop, Loop)):
         raise TypeError(
             f"`loop` must be a discretize LatticeLoop or Loop, got {type(loop).__name__}."
@@ -259,9 +255,15 @@ def _curve_of(loop):
 
 def _scalar_iv(coupling, area):
     if isinstance(coupling, bool) or not isinstance(coupling, numbers.Real):
-        raise TypeError(f"`coupling` must be a real number > 0, got {coupling!r}.")
-    if not (np.isfinite(coupling) and coupling > 0):
-        raise ValueError(f"`coupling` must be a finite number > 0, got {coupling!r}.")
+        raise ArgumentTypeError("coupling", f"got {coupling!r}; expected a number > 0",
+                                f"`coupling` must be a real number > 0, got {coupling!r}.")
+    try:  # an int beyond the double range (10**400) is not finite either
+        c = float(coupling)
+    except OverflowError:
+        c = math.inf
+    if not (math.isfinite(c) and c > 0):
+        raise ArgumentError("coupling", f"got {coupling!r}; expected a finite number > 0",
+                            f"`coupling` must be a finite number > 0, got {coupling!r}.")
     if area is None:
         area = AreaForm()
     elif not isinstance(area, AreaForm):

@@ -57,6 +57,7 @@ from fractions import Fraction
 import numpy as np
 
 from discretize import arrangement, joint_arrangement
+from noise import ArgumentError, ArgumentTypeError
 
 from ._characters import adams_decomposition, class_weights, dominant_casimir, weyl_dimension
 from ._laws import ExactRouteError, law_character
@@ -444,8 +445,25 @@ class _Evaluator:
         return contract_numeric(mats, words, times) / D ** len(words)
 
 
+def _options_iv(exact, max_dim) -> None:
+    """The ``exact`` flag and ``max_dim`` of the evaluation entry points."""
+    if not isinstance(exact, (bool, np.bool_)):
+        raise ArgumentTypeError("exact", f"got {exact!r}; expected True or False",
+                                f"`exact` must be True or False, got {exact!r}.")
+    if max_dim is None:
+        return
+    rule = "an integer >= 1 or None"
+    if isinstance(max_dim, (bool, np.bool_)) or not isinstance(max_dim, numbers.Integral):
+        raise ArgumentTypeError("max_dim", f"got {max_dim!r}; expected {rule}",
+                                f"`max_dim` must be {rule}, got {max_dim!r}.")
+    if max_dim < 1:
+        raise ArgumentError("max_dim", f"got {max_dim!r}; expected {rule}",
+                            f"`max_dim` must be {rule}, got {max_dim!r}.")
+
+
 def _evaluate(setup: _RepSetup, words, times, exact, max_dim, large_n=False):
     """Reduce and evaluate; returns (ReducedWord of the input, value, routes)."""
+    _options_iv(exact, max_dim)
     if max_dim is None:
         max_dim = 256 if exact else 2048
     reduced = reduce_for_traces([tuple(w) * setup.power for w in words], times,
@@ -675,6 +693,7 @@ def evaluate_polygon(group, vertices, turns: int = 1, *, coupling=1.0,
     >>> r.faces.n_crossings, r.reduced.word
     (2, (1, -2, 1, 2))
     """
+    _options_iv(exact, max_dim)
     setup = None if group is None else _group_iv(group, rep)
     arr = arrangement(vertices, turns)
     if exact and area_density is None:

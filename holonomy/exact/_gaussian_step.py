@@ -43,6 +43,8 @@ import math
 import numpy as np
 from scipy import special
 
+from noise import ArgumentError
+
 from ..groups import matrix_size
 from ._common import _finite_iv, _family_iv, _int_iv, _metric_iv
 
@@ -91,9 +93,17 @@ def _weyl_quadrature(fam: str, n: int, tt: np.ndarray, kk: float) -> np.ndarray:
     return f if np.iscomplexobj(tt) else f.real
 
 
+#: the largest n of the closed forms: their work and memory grow linearly with n
+#: (U(10^8): 0.3 s); beyond, n = 10**30 was an OverflowError deep inside
+_MAX_N = 10**8
+
+
 def _gaussian_step_iv(family, n, t, k):
     fam = _family_iv(family)
     n = _int_iv(n, "n", 1)
+    if n > _MAX_N:
+        raise ArgumentError("n", f"got {n!r}; expected an integer from 1 to {_MAX_N:.0e}",
+                            f"`n` must be an integer from 1 to {_MAX_N:.0e}, got {n!r}.")
     if fam in ("SU", "SO") and n < 2:
         raise ValueError(f"`n` must be >= 2 for {fam}, got {n!r}.")
     if (fam == "SO" and n // 2 > _MAX_RANK) or (fam == "Sp" and n > _MAX_RANK):

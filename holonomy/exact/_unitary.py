@@ -25,6 +25,8 @@ from fractions import Fraction
 
 import numpy as np
 
+from noise import ArgumentError
+
 from ._common import _finite_iv, _int_iv, _metric_iv
 
 __all__ = [
@@ -125,9 +127,18 @@ def _hooks(n: int, N: int):
         yield (-1) ** j, (n - j,) + (1,) * j
 
 
+#: the largest winding of the hook expansion: its work grows like n^2 (n = 10^5 on
+#: U(3): about 10 s); the spec's loops wind at most turns x power = 1000 x 64 = 64000
+MAX_WINDING = 10**5
+
+
 def _wound_iv(N, n, t, k, special):
     N = _int_iv(N, "N", 1)
     n = _int_iv(n, "n", 1)
+    if n > MAX_WINDING:
+        raise ArgumentError("n", f"got {n!r}; expected an integer from 1 to {MAX_WINDING:.0e}",
+                            f"`n` must be an integer from 1 to {MAX_WINDING:.0e} (the hook "
+                            f"expansion's work grows like n^2), got {n!r}.")
     if not isinstance(special, bool):
         raise TypeError(f"`special` must be a bool, got {special!r}.")
     tt = _finite_iv(t, "t")

@@ -30,7 +30,7 @@ from typing import Any
 
 import numpy as np
 
-from noise import ArgumentError, ArgumentTypeError
+from noise import ArgumentError, ArgumentTypeError, rng_iv
 
 from ._heat import BrownianResult, brownian, exact_heat_route, heat_kernel
 from ._reps import Representation, make_representation
@@ -490,7 +490,7 @@ class Group:
         SO flips one column, Sp uses the quaternionic Ginibre matrix
         ``[[A, B], [-conj(B), conj(A)]]`` orthonormalised by ``project``.
         """
-        rng = np.random.default_rng(rng)
+        rng = rng_iv(rng)
         N = self.N
         if self.family == "Sp":
             n = self.n

@@ -77,6 +77,8 @@ from functools import lru_cache
 import numpy as np
 from scipy import special, stats
 
+from noise import rng_iv
+
 __all__ = [
     "BrownianResult",
     "brownian",
@@ -173,7 +175,7 @@ def brownian(group, t, size: int, *, rng=None, steps: int | None = None) -> Brow
     .. [1] M. Liao, "Levy Processes in Lie Groups", Cambridge, 2004, Section 1.3.
     """
     tt, scalar, size, steps = _brownian_iv(t, size, steps)
-    rng = np.random.default_rng(rng)
+    rng = rng_iv(rng)
     dt = tt / steps
     batch = (size,) + tt.shape
     U = group.identity(batch)
@@ -231,7 +233,7 @@ def heat_kernel(group, t, size: int, *, rng=None) -> np.ndarray:
     True
     """
     tt, scalar, size = _times_iv(t, size)
-    rng = np.random.default_rng(rng)
+    rng = rng_iv(rng)
     batch = (size,) + tt.shape
     if group.N == 1:
         a = rng.standard_normal(batch + (1,)) * np.sqrt(tt)[..., None]
@@ -556,7 +558,7 @@ def sample_su2_angle(tau, *, rng=None) -> np.ndarray:
     .. [1] L. Devroye, "Non-Uniform Random Variate Generation", Springer, 1986,
        Sections II.2 (inversion) and II.3 (rejection).
     """
-    rng = np.random.default_rng(rng)
+    rng = rng_iv(rng)
     tau = np.asarray(tau, float)
     shape = tau.shape
     # Common case (heat_kernel with an array of times): tau of shape (size, m) with
@@ -599,7 +601,7 @@ def su2_heat_quaternions(tau, *, rng=None) -> np.ndarray:
        Sections II.3 (rejection) and V.4 (uniform directions from normal vectors).
     """
     tau = np.asarray(tau, float)
-    return _su2_heat_columns(tau.ravel(), 1, np.random.default_rng(rng)).reshape(tau.shape + (4,))
+    return _su2_heat_columns(tau.ravel(), 1, rng_iv(rng)).reshape(tau.shape + (4,))
 
 
 def _su2_heat_columns(col, size: int, rng) -> np.ndarray:

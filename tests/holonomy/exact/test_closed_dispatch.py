@@ -132,5 +132,5 @@ class TestBadInput:
             exact_wilson_loop(G, "fundamental", [(0, 0), (1, 0), (1, 1)], coupling=1.0)
         with pytest.raises(TypeError, match="`group` must be a holonomy.groups Group"):
             exact_wilson_loop("SU2", "fundamental", lattice("R1 U1 L1 D1"), coupling=1.0)
-        with pytest.raises(TypeError, match="`rep` must be a representation spec"):
+        with pytest.raises(TypeError, match="`rep` must be a representation name"):
             exact_wilson_loop(G, 3, lattice("R1 U1 L1 D1"), coupling=1.0)

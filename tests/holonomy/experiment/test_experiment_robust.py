@@ -614,6 +614,41 @@ ARGUMENT_CASES = [
     ("WilsonProblem-samples-1e30", lambda: _wilson_problem(samples=10**30), ArgumentError,
      "samples"),
     ("WilsonProblem-block-1e7", lambda: _wilson_problem(block=10**7), ArgumentError, "block"),
+    ("exact-coupling-int-beyond-double",
+     lambda: exact_wilson_loop(make_group(*_SU2), "fundamental", _square_loop(),
+                               coupling=10**400), ArgumentError, "coupling"),
+    ("lattice_series-loop_index-None", lambda: _series("lattice_series", _lattice(), None, 2),
+     ArgumentTypeError, "loop_index"),
+    ("wilson_series-loop_index-neg", lambda: _series("wilson_series", _lattice(), -1, 2),
+     ArgumentError, "loop_index"),
+    ("lattice_covariance-problem-None", lambda: _series("lattice_covariance", None, 0),
+     ArgumentTypeError, "problem"),
+    ("run_block-block-None", lambda: _series("run_block", _wilson_problem(), None),
+     ArgumentTypeError, "block"),
+    ("run_block-block-beyond", lambda: _series("run_block", _wilson_problem(), 1),
+     ArgumentError, "block"),
+    ("AreaForm-rects-float", lambda: _geometry("AreaForm", 1.0, 2.5), ArgumentTypeError,
+     "rects"),
+    ("LatticeLoop-source_area-nan",
+     lambda: _geometry("LatticeLoop", _grid(), [(0, 0), (1, 0), (1, 1), (0, 1), (0, 0)],
+                       source_area=float("nan")), ArgumentError, "source_area"),
+    ("LatticeLoop.from_moves-start-inf",
+     lambda: _geometry("LatticeLoop", "from_moves", _grid(), "R1 U1 L1 D1",
+                       start=(float("inf"), 0)), ArgumentTypeError, "start"),
+    ("evaluate_polygon-exact-str",
+     lambda: _exact("evaluate_polygon", make_group(*_SU2), _SQUARE, exact="yes"),
+     ArgumentTypeError, "exact"),
+    ("evaluate_polygon-max_dim-zero",
+     lambda: _exact("evaluate_polygon", make_group(*_SU2), _SQUARE, max_dim=0),
+     ArgumentError, "max_dim"),
+    ("unitary_wound_loop-n-1e30", lambda: _exact("unitary_wound_loop", 3, 10**30, 1.0),
+     ArgumentError, "n"),
+    ("gaussian_step-n-1e30", lambda: _exact("gaussian_step", "SU", 10**30, 1.0, 2.0),
+     ArgumentError, "n"),
+    ("cell_noise-rng-str", lambda: _noise("cell_noise", np.ones((2, 2)), 3, 4, rng="x"),
+     ArgumentTypeError, "rng"),
+    ("gaussian_vector-rng-negative", lambda: _noise("gaussian_vector", [[1.0]], 4, rng=-1),
+     ArgumentError, "rng"),
     ("run_study-executor-shut-down",
      lambda: run_study(SPEC_OBJ, spacings=[0.25, 0.125],
                        executor=_shut_down(ThreadPoolExecutor)), ArgumentError, "executor"),
@@ -625,6 +660,35 @@ def _wilson_problem(**kw):
     args = dict(family="SU", n=2, metric="physics", field=Field(coupling=1.0, spacing=0.5),
                 loops=(_square_loop(),), samples=8, block=8, seed=0)
     return WilsonProblem(**{**args, **kw})
+
+
+def _lattice():
+    from holonomy import LatticeProblem
+    return LatticeProblem("SU", 2, "physics", Field(coupling=1.0, spacing=0.5,
+                                                    scheme="linear"), (_square_loop(),))
+
+
+def _grid():
+    from discretize import Grid
+    return Grid((0.0, 0.0), 0.5, (4, 4))
+
+
+def _geometry(name, *args, **kw):
+    import discretize
+    obj = getattr(discretize, name)
+    if args and isinstance(args[0], str) and hasattr(obj, args[0]):
+        obj, args = getattr(obj, args[0]), args[1:]
+    return obj(*args, **kw)
+
+
+def _exact(name, *args, **kw):
+    import holonomy.exact
+    return getattr(holonomy.exact, name)(*args, **kw)
+
+
+def _noise(name, *args, **kw):
+    import noise
+    return getattr(noise, name)(*args, **kw)
 
 
 def _loop(kind, *args, **kw):
