@@ -100,10 +100,12 @@ def _positive(value, name: str) -> float:
 
 
 def _count(value, name: str, high: int | None = None) -> int:
-    rule = "an integer >= 1" + (f" and <= {high:.0e}" if high else "")
+    rule = "an integer >= 1"
     if isinstance(value, bool) or not isinstance(value, numbers.Integral):
         raise ArgumentTypeError(name, f"got {value!r}; expected {rule}",
                                 f"`{name}` must be {rule}, got {value!r}.")
+    if high and value > high:
+        rule += f" and <= {high:.0e}"
     if value < 1 or (high and value > high):
         raise ArgumentError(name, f"got {value!r}; expected {rule}",
                             f"`{name}` must be {rule}, got {value!r}.")
