@@ -150,6 +150,15 @@ def parse_moves(moves: str, *, max_count: int | None = None) -> np.ndarray:
     """
     if not isinstance(moves, str):
         raise TypeError(f"`moves` must be a string such as 'R4 U2 L4 D2', got {moves!r}.")
+    if max_count is not None:
+        rule = "an integer >= 1 or None"
+        if isinstance(max_count, (bool, np.bool_)) or not isinstance(max_count,
+                                                                     numbers.Integral):
+            raise ArgumentTypeError("max_count", f"got {max_count!r}; expected {rule}",
+                                    f"`max_count` must be {rule}, got {max_count!r}.")
+        if max_count < 1:
+            raise ArgumentError("max_count", f"got {max_count!r}; expected {rule}",
+                                f"`max_count` must be {rule}, got {max_count!r}.")
     limit = 2**53 if max_count is None else max_count
     out = []
     for k, m in enumerate(re.finditer(r"\S+", moves)):

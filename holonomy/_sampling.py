@@ -560,6 +560,13 @@ def _dense_cell_bytes(problem: LatticeProblem) -> int:
 
 
 def _resolve_path(problem: LatticeProblem, path: str) -> str:
+    if not isinstance(problem, LatticeProblem):
+        raise ArgumentTypeError("problem", f"got {type(problem).__name__}; expected a "
+                                "LatticeProblem", f"`problem` must be a LatticeProblem, got "
+                                f"{type(problem).__name__}.")
+    if not isinstance(path, str) or path not in PATHS:
+        raise ArgumentError("path", f"got {path!r}; expected one of {PATHS}",
+                            f"`path` must be one of {PATHS}, got {path!r}.")
     if path == "auto":
         return "perimeter" if problem.scheme.perimeter else "dense"
     return path
@@ -571,7 +578,7 @@ def block_memory(problem: LatticeProblem, size: int, path: str = "auto") -> int:
     plus on the dense path the whole grid's cells (`_dense_cell_bytes`), or twice
     `SLAB_BYTES` where the route goes slab by slab (`_slab_variables`)."""
     path = _resolve_path(problem, path)
-    n = min(size, chunk_size(problem, path))
+    n = min(_count(size, "size"), chunk_size(problem, path))
     if path != "dense":
         return _chunk_bytes(problem, n)
     if _use_slabs(problem, n):

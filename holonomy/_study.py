@@ -38,7 +38,7 @@ from noise import ArgumentError, block_rng, cell_noise, refine_noise
 
 from ._estimate import BlockSums
 from . import _sampling
-from ._sampling import LatticeProblem, WilsonProblem, _block_sums, block_memory
+from ._sampling import LatticeProblem, WilsonProblem, _block_sums, _sequence, block_memory
 from ._schemes import EXPECTED_RATES, get_scheme, study_schemes
 
 __all__ = ["StudyProblem", "run_study_block", "study_spacings", "study_memory",
@@ -49,7 +49,7 @@ def _study_iv(problem, spacings, schemes):
     if not isinstance(problem, WilsonProblem):
         raise TypeError(f"`problem` must be a WilsonProblem, got {type(problem).__name__}.")
     spacings = study_spacings(spacings)
-    schemes = tuple(get_scheme(s).name for s in schemes)
+    schemes = tuple(get_scheme(s).name for s in _sequence(schemes, "schemes"))
     if not schemes:
         raise ArgumentError("schemes", "got none; expected at least one scheme",
                             "`schemes` is empty: give at least one scheme.")
