@@ -646,7 +646,11 @@ def _draw_convergence(results: dict, path: Path, plt, short_label) -> None:
     ax.set_title(f"{short_label(results['name'])}: each scheme against the loop as "
                  "snapped at h (scheme error),\nthe loop as snapped against the loop as "
                  "specified (snapping error, grey)", fontsize=9)
-    ax.legend(fontsize=7)
+    if ax.get_legend_handles_labels()[1]:
+        ax.legend(fontsize=7)
+    else:  # every error null (precision or size limits, see the notes) or zero
+        ax.text(0.5, 0.5, "no finite nonzero error to draw (see the notes in study.json)",
+                transform=ax.transAxes, ha="center", va="center", fontsize=8)
     fig.tight_layout()
     fig.savefig(path, dpi=120)
     plt.close(fig)
